@@ -1,0 +1,4 @@
+//! What follows from the solved circuit: cautions now; worst case, rating checks and sizing
+//! build on the same solves.
+
+pub mod cautions;

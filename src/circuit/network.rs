@@ -1,0 +1,362 @@
+//! The rectifier and filter as a network: winding paths through diodes into reservoir
+//! capacitors, an optional second RC stage, and the load.
+//!
+//! Every topology railcheck knows is a set of charging paths. A path is a share of the winding's
+//! EMF, seen with some polarity, through a series resistance and one or two diodes, into one
+//! reservoir capacitor. Reservoirs stack in series (a doubler has two). At most one path
+//! conducts at a time in these topologies, and with the diode currents known everything else
+//! is linear, so each path's diode sees a Thevenin source that two linear evaluations give.
+
+use super::diode::DiodeLaw;
+use super::solver::{PeriodicCircuit, Probe};
+use super::waveform::MainsWave;
+
+/// How a path sees the winding's EMF.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Polarity {
+    /// e(t): a half-wave rectifier, a doubler's upper diode.
+    Forward,
+    /// -e(t): a doubler's lower diode.
+    Inverted,
+    /// |e(t)|: a full-wave rectifier's two legs taking turns.
+    Rectified,
+    /// max(e(t), 0): a full-wave rectifier with one leg open.
+    OneLegOpen,
+}
+
+/// One charging path from the winding into a reservoir capacitor.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Path {
+    /// Share of the whole secondary's EMF (0.5 for each half of a center tap).
+    pub emf_share: f64,
+    pub polarity: Polarity,
+    /// Series resistance of the path: winding plus reflected primary, ohms.
+    pub ohms: f64,
+    /// Diodes in series while it conducts (2 in a bridge).
+    pub diodes: u32,
+    /// Which reservoir it charges.
+    pub reservoir: usize,
+}
+
+/// A filter capacitor with its equivalent series resistance (farads, ohms).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Reservoir {
+    pub farads: f64,
+    pub esr_ohms: f64,
+}
+
+/// The R and second C of a CRC filter (ohms, farads).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SecondStage {
+    pub ohms: f64,
+    pub farads: f64,
+}
+
+/// What the rail feeds.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum LoadLaw {
+    /// Constant current above `knee_v`; below it the current falls in proportion to the
+    /// voltage, as an electronic load or a regulator's input does when starved.
+    Current {
+        amps: f64,
+        knee_v: f64,
+    },
+    Resistance {
+        ohms: f64,
+    },
+}
+
+/// Which winding current counts for the transformer's heating, and how one diode's reverse
+/// voltage follows from the rail.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Arrangement {
+    /// One diode, or a doubler: the diode's cathode sits on the rail above its winding end.
+    Direct,
+    /// A full bridge: the blocking pair shares the rail.
+    Bridge,
+    /// Center tap: one diode per half winding; the RMS is that half's.
+    CenterTap,
+    /// A bridge on a center-tapped winding: each half feeds the + rail on one half cycle and
+    /// the - rail on the other, so it carries a pulse every half cycle.
+    SplitRail,
+}
+
+/// A rectifier circuit ready for the steady-state solver.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Network {
+    pub wave: MainsWave,
+    /// Whole-secondary EMF, RMS volts.
+    pub emf_rms_v: f64,
+    pub line_hz: f64,
+    pub paths: Vec<Path>,
+    pub reservoirs: Vec<Reservoir>,
+    pub second: Option<SecondStage>,
+    pub load: LoadLaw,
+    pub diode: DiodeLaw,
+    pub arrangement: Arrangement,
+    /// Stand-in for zero source resistance: a constrained circuit becomes a very fast RC.
+    pub min_path_ohms: f64,
+}
+
+/// Node values of the network for given path currents (volts, amps).
+#[derive(Debug, Clone, Copy, Default)]
+struct Nodes {
+    /// Terminal voltage of each reservoir (its capacitor plus ESR drop).
+    terminal: [f64; 2],
+    /// Current leaving the reservoir stack.
+    i_out: f64,
+    v_out: f64,
+    i_load: f64,
+}
+
+impl LoadLaw {
+    /// Load current at `volts`, amps.
+    pub fn current_at(&self, volts: f64) -> f64 {
+        match *self {
+            LoadLaw::Resistance { ohms } => volts / ohms,
+            LoadLaw::Current { amps, knee_v } => {
+                if volts >= knee_v {
+                    amps
+                } else {
+                    amps * volts / knee_v
+                }
+            }
+        }
+    }
+
+    /// Current drawn from a source of `volts` behind `ohms` (amps).
+    fn current_from(&self, volts: f64, ohms: f64) -> f64 {
+        match *self {
+            LoadLaw::Resistance { ohms: r } => volts / (r + ohms),
+            LoadLaw::Current { amps, knee_v } => {
+                if volts - amps * ohms >= knee_v {
+                    amps
+                } else {
+                    let g = amps / knee_v;
+                    g * volts / (1.0 + g * ohms)
+                }
+            }
+        }
+    }
+}
+
+impl Network {
+    fn emf(&self, t: f64) -> f64 {
+        self.emf_rms_v * self.wave.at(std::f64::consts::TAU * self.line_hz * t)
+    }
+
+    fn path_source(&self, p: &Path, e: f64) -> f64 {
+        let v = p.emf_share * e;
+        match p.polarity {
+            Polarity::Forward => v,
+            Polarity::Inverted => -v,
+            Polarity::Rectified => v.abs(),
+            Polarity::OneLegOpen => v.max(0.0),
+        }
+    }
+
+    /// Solves the linear rest of the circuit for the reservoirs' charging currents.
+    fn nodes(&self, x: &[f64], charge: [f64; 2]) -> Nodes {
+        let k = self.reservoirs.len();
+        let mut v0 = 0.0;
+        let mut r_stack = 0.0;
+        for (i, r) in self.reservoirs.iter().enumerate() {
+            v0 += x[i] + r.esr_ohms * charge[i];
+            r_stack += r.esr_ohms;
+        }
+        let (i_out, v_out, i_load) = match self.second {
+            Some(s) => {
+                let v2 = x[k];
+                let i_out = (v0 - v2) / (s.ohms + r_stack);
+                (i_out, v2, self.load.current_at(v2))
+            }
+            None => {
+                let i = self.load.current_from(v0, r_stack);
+                (i, v0 - r_stack * i, i)
+            }
+        };
+        let mut terminal = [0.0; 2];
+        for (i, r) in self.reservoirs.iter().enumerate() {
+            terminal[i] = x[i] + r.esr_ohms * (charge[i] - i_out);
+        }
+        Nodes {
+            terminal,
+            i_out,
+            v_out,
+            i_load,
+        }
+    }
+
+    /// A rectifier with no filter capacitor: the rail is wherever the diode and load agree.
+    fn unfiltered(&self, e: f64) -> Probe {
+        let p = &self.paths[0];
+        let s = self.path_source(p, e);
+        let ohms = p.ohms;
+        let (i, v_out) = if s <= 0.0 {
+            (0.0, 0.0)
+        } else {
+            match self.load {
+                LoadLaw::Resistance { ohms: r } => {
+                    let i = self.diode.string_current(s, ohms + r, p.diodes);
+                    (i, i * r)
+                }
+                LoadLaw::Current { amps, knee_v } => {
+                    let v = s - self.diode.string_v(amps, ohms, p.diodes);
+                    if v >= knee_v {
+                        (amps, v)
+                    } else {
+                        let r = knee_v / amps.max(1e-300);
+                        let i = self.diode.string_current(s, ohms + r, p.diodes);
+                        (i, i * r)
+                    }
+                }
+            }
+        };
+        self.probe(e, [i, 0.0], v_out, v_out, 0.0, i, s)
+    }
+
+    /// Assembles the probe from path currents and node values.
+    #[allow(clippy::too_many_arguments)]
+    fn probe(
+        &self,
+        e: f64,
+        path_i: [f64; 2],
+        v_out: f64,
+        rail0: f64,
+        i_cap: f64,
+        i_load: f64,
+        v_source: f64,
+    ) -> Probe {
+        let first = &self.paths[0];
+        let (i_diode, i_winding) = match first.polarity {
+            // In a full-wave path the current belongs to diode 1 while e > 0, to diode 2 after.
+            Polarity::Rectified | Polarity::OneLegOpen => {
+                let mine = if e >= 0.0 { path_i[0] } else { 0.0 };
+                match self.arrangement {
+                    Arrangement::CenterTap => (mine, mine),
+                    _ => (mine, path_i[0] * e.signum()),
+                }
+            }
+            _ => (path_i[0], path_i[0] - path_i[1]),
+        };
+        let share = first.emf_share;
+        let v_reverse = match self.arrangement {
+            Arrangement::Bridge if path_i[0] > 0.0 => {
+                let fwd = self.diode.forward_v(path_i[0]);
+                if e < 0.0 { rail0 + fwd } else { -fwd }
+            }
+            // Not conducting: each pair of blocking diodes shares the rail, the winding
+            // between their midpoints.
+            Arrangement::Bridge => 0.5 * (rail0 - share * e),
+            // Cathode on the rail (or a reservoir's top), anode on the winding end.
+            _ => rail0 - share * e,
+        };
+        Probe {
+            v_out,
+            v_source,
+            i_diode,
+            v_reverse,
+            i_winding,
+            i_cap,
+            i_load,
+        }
+    }
+}
+
+impl PeriodicCircuit for Network {
+    fn states(&self) -> usize {
+        self.reservoirs.len() + usize::from(self.second.is_some())
+    }
+
+    fn period_s(&self) -> f64 {
+        let symmetric = self.paths.len() == 1 && self.paths[0].polarity == Polarity::Rectified;
+        if symmetric {
+            0.5 / self.line_hz
+        } else {
+            1.0 / self.line_hz
+        }
+    }
+
+    fn line_period_s(&self) -> f64 {
+        1.0 / self.line_hz
+    }
+
+    fn volts_scale(&self) -> f64 {
+        let share: f64 = self.paths.iter().map(|p| p.emf_share).fold(0.0, f64::max);
+        (self.emf_rms_v * self.wave.crest() * share * self.reservoirs.len().max(1) as f64).max(1e-3)
+    }
+
+    fn evaluate(&self, t: f64, x: &[f64], dx: &mut [f64]) -> Probe {
+        let e = self.emf(t);
+        if self.reservoirs.is_empty() {
+            return self.unfiltered(e);
+        }
+        let base = self.nodes(x, [0.0; 2]);
+        let mut path_i = [0.0; 2];
+        let mut charge = [0.0; 2];
+        let mut v_source = f64::NEG_INFINITY;
+        for (j, p) in self.paths.iter().enumerate() {
+            let s = self.path_source(p, e);
+            let k = p.reservoir;
+            let others: f64 =
+                base.terminal[..self.reservoirs.len()].iter().sum::<f64>() - base.terminal[k];
+            v_source = v_source.max(s + others);
+            let open = s - base.terminal[k];
+            if open <= 0.0 {
+                continue;
+            }
+            // The terminal voltage is affine in this path's current: its slope is the
+            // resistance the diode sees looking into the filter.
+            let mut unit = [0.0; 2];
+            unit[k] = 1.0;
+            let slope = self.nodes(x, unit).terminal[k] - base.terminal[k];
+            let ohms = (p.ohms + slope).max(self.min_path_ohms);
+            let i = self.diode.string_current(open, ohms, p.diodes);
+            path_i[j] = i;
+            charge[k] += i;
+        }
+        let nodes = self.nodes(x, charge);
+        for (i, r) in self.reservoirs.iter().enumerate() {
+            dx[i] = (charge[i] - nodes.i_out) / r.farads;
+        }
+        if let Some(s) = self.second {
+            dx[self.reservoirs.len()] = (nodes.i_out - nodes.i_load) / s.farads;
+        }
+        self.probe(
+            e,
+            path_i,
+            nodes.v_out,
+            nodes.terminal[0],
+            charge[0] - nodes.i_out,
+            nodes.i_load,
+            v_source.max(0.0),
+        )
+    }
+
+    fn initial_guess(&self, x: &mut [f64]) {
+        // The hand estimate: the winding's peak less the diode drops, then the load's share.
+        let peak = self.emf_rms_v * self.wave.crest();
+        let mut working = 0.0;
+        for (i, r) in self.reservoirs.iter().enumerate() {
+            let p = self
+                .paths
+                .iter()
+                .find(|p| p.reservoir == i)
+                .unwrap_or(&self.paths[0]);
+            let w = (p.emf_share * peak - p.diodes as f64 * 0.7).max(0.0);
+            let i_load = self.load.current_at(w * self.reservoirs.len() as f64);
+            let pulses = if p.polarity == Polarity::Rectified {
+                2.0
+            } else {
+                1.0
+            };
+            let droop = i_load / (pulses * self.line_hz * r.farads);
+            x[i] = (w - 0.5 * droop.min(w)).max(0.0);
+            working += x[i];
+        }
+        if let Some(s) = self.second {
+            let i = self.load.current_at(working);
+            x[self.reservoirs.len()] = (working - i * s.ohms).max(0.0);
+        }
+    }
+}

@@ -1,0 +1,551 @@
+//! The periodic steady state of any circuit driven by the mains: shooting on the one-period map.
+//!
+//! The solver knows nothing of rectifiers. A circuit gives its capacitor voltages' derivatives
+//! and the probe values at an instant; the solver finds the start-of-period state that the
+//! circuit returns to after one period (Newton with Broyden updates on x -> Phi(x) - x), so the
+//! cost does not grow with the load's time constant as a switch-on transient would. Each period
+//! is integrated by the Dormand-Prince 5(4) pair with error control, which shortens its steps
+//! through the conduction pulses by itself.
+
+/// Most capacitor voltages a circuit may have, plus the running integrals of the final pass.
+pub const MAX_STATES: usize = 4;
+const QUADRATURES: usize = 7;
+const WIDTH: usize = MAX_STATES + QUADRATURES;
+
+type Vector = [f64; WIDTH];
+
+/// What a circuit reports at one instant, in volts and amps.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct Probe {
+    /// The rail, across the load.
+    pub v_out: f64,
+    /// The level the rectified winding pulls the rail towards while a diode conducts.
+    pub v_source: f64,
+    /// One diode's forward current.
+    pub i_diode: f64,
+    /// One diode's reverse voltage (negative while it conducts).
+    pub v_reverse: f64,
+    /// The winding current counted for its RMS (whole secondary, or one half of a center tap).
+    pub i_winding: f64,
+    /// Current into the first filter capacitor.
+    pub i_cap: f64,
+    pub i_load: f64,
+}
+
+/// A circuit the solver can bring to its periodic steady state.
+pub trait PeriodicCircuit {
+    /// Number of capacitor voltages (0 for an unfiltered rectifier), at most [`MAX_STATES`].
+    fn states(&self) -> usize;
+    /// The circuit's own period in seconds (half the mains period for a symmetric full-wave).
+    fn period_s(&self) -> f64;
+    /// The mains period in seconds, over which the figures are taken.
+    fn line_period_s(&self) -> f64;
+    /// Volts that set the scale of the tolerances (the winding's peak).
+    fn volts_scale(&self) -> f64;
+    /// Fills `dx` with dV/dt of each capacitor (V/s) at `t` seconds and returns the probe.
+    fn evaluate(&self, t: f64, x: &[f64], dx: &mut [f64]) -> Probe;
+    /// A start for Newton, volts; a hand estimate is close enough.
+    fn initial_guess(&self, x: &mut [f64]);
+}
+
+/// Why no steady state was found.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum SolveError {
+    #[error("the solver did not settle to a steady state after {0} Newton steps")]
+    NoConvergence(usize),
+    #[error(
+        "the integration needed more than {0} steps in one period (a time constant too short for this supply)"
+    )]
+    TooManySteps(usize),
+    #[error("the circuit produced a value that is not a number")]
+    NotFinite,
+}
+
+/// One period of the steady state, sampled evenly, with its exact averages.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SteadyState {
+    /// Capacitor voltages at the start of the period.
+    pub start: Vec<f64>,
+    /// Sample instants in seconds from the mains zero crossing.
+    pub t_s: Vec<f64>,
+    pub probes: Vec<Probe>,
+    /// Largest and smallest rail voltage and largest diode current and reverse voltage found at
+    /// the sample instants and at every integration step.
+    pub v_out_max: f64,
+    pub v_out_min: f64,
+    pub i_diode_peak: f64,
+    pub v_reverse_max: f64,
+    /// Period averages: rail, diode current, load current; mean squares: ripple (about
+    /// `ripple_ref_v`), diode, winding and capacitor currents.
+    pub mean_v_out: f64,
+    pub mean_i_diode: f64,
+    pub mean_i_load: f64,
+    pub mean_sq_ripple: f64,
+    pub ripple_ref_v: f64,
+    pub mean_sq_i_diode: f64,
+    pub mean_sq_i_winding: f64,
+    pub mean_sq_i_cap: f64,
+    /// Newton iterations and one-period integrations spent, for the benchmarks' curiosity.
+    pub newton_steps: usize,
+    pub integrations: usize,
+}
+
+/// Sample count of the stored period (at least 200 asked for the sketch).
+pub const SAMPLES: usize = 256;
+
+const RTOL: f64 = 1e-6;
+pub static STEPS: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+const MAX_STEPS: usize = 200_000;
+/// Fewest steps in one integration: a pulse shorter than a step could be stepped over unseen.
+const MIN_STEPS: f64 = 48.0;
+
+// Dormand-Prince 5(4) tableau (Dormand & Prince 1980; as in Hairer, Norsett & Wanner).
+const C: [f64; 7] = [0.0, 0.2, 0.3, 0.8, 8.0 / 9.0, 1.0, 1.0];
+const A: [[f64; 6]; 7] = [
+    [0.0; 6],
+    [0.2, 0.0, 0.0, 0.0, 0.0, 0.0],
+    [3.0 / 40.0, 9.0 / 40.0, 0.0, 0.0, 0.0, 0.0],
+    [44.0 / 45.0, -56.0 / 15.0, 32.0 / 9.0, 0.0, 0.0, 0.0],
+    [
+        19372.0 / 6561.0,
+        -25360.0 / 2187.0,
+        64448.0 / 6561.0,
+        -212.0 / 729.0,
+        0.0,
+        0.0,
+    ],
+    [
+        9017.0 / 3168.0,
+        -355.0 / 33.0,
+        46732.0 / 5247.0,
+        49.0 / 176.0,
+        -5103.0 / 18656.0,
+        0.0,
+    ],
+    [
+        35.0 / 384.0,
+        0.0,
+        500.0 / 1113.0,
+        125.0 / 192.0,
+        -2187.0 / 6784.0,
+        11.0 / 84.0,
+    ],
+];
+const E: [f64; 7] = [
+    71.0 / 57600.0,
+    0.0,
+    -71.0 / 16695.0,
+    71.0 / 1920.0,
+    -17253.0 / 339200.0,
+    22.0 / 525.0,
+    -1.0 / 40.0,
+];
+
+/// How the integrator chooses its steps.
+enum Steps<'a> {
+    /// Error-controlled; the accepted step sizes are recorded.
+    Adaptive(&'a mut Vec<f64>),
+    /// The recorded steps again, with no error control: the one-period map is then a smooth
+    /// function of the start state, which Newton and the finite differences need.
+    Replay(&'a [f64]),
+}
+
+/// Integrates dy/dt = f(t, y) from t0 to t1, adapting steps so that the first `controlled`
+/// components stay within RTOL (relative) and `atol` (absolute, volts); `on_step` sees each
+/// accepted step as (t, h, y_start, f_start, y_end, f_end).
+#[allow(clippy::too_many_arguments)]
+fn integrate<F, S>(
+    n: usize,
+    controlled: usize,
+    f: &mut F,
+    t0: f64,
+    t1: f64,
+    y: &mut Vector,
+    h0: &mut f64,
+    atol: f64,
+    mut steps_of: Steps<'_>,
+    mut on_step: S,
+) -> Result<(), SolveError>
+where
+    F: FnMut(f64, &Vector, &mut Vector),
+    S: FnMut(f64, f64, &Vector, &Vector, &Vector, &Vector),
+{
+    let mut k: [Vector; 7] = [[0.0; WIDTH]; 7];
+    let mut t = t0;
+    let h_max = (t1 - t0) / MIN_STEPS;
+    let mut h = h0.min(h_max);
+    f(t, y, &mut k[0]);
+    let mut steps = 0;
+    let mut stage = [0.0; WIDTH];
+    if let Steps::Adaptive(record) = &mut steps_of {
+        record.clear();
+    }
+    let mut replay_at = 0;
+    while t < t1 {
+        steps += 1;
+        crate::circuit::solver::STEPS.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+        if steps > MAX_STEPS {
+            return Err(SolveError::TooManySteps(MAX_STEPS));
+        }
+        if let Steps::Replay(grid) = &steps_of {
+            h = grid.get(replay_at).copied().unwrap_or(t1 - t);
+            replay_at += 1;
+        }
+        let last = t + h >= t1 * (1.0 - 1e-14)
+            || matches!(&steps_of, Steps::Replay(g) if replay_at >= g.len());
+        if last {
+            h = t1 - t;
+        }
+        for s in 1..7 {
+            for i in 0..n {
+                let mut acc = 0.0;
+                for (j, kj) in k.iter().enumerate().take(s) {
+                    acc += A[s][j] * kj[i];
+                }
+                stage[i] = y[i] + h * acc;
+            }
+            let (done, rest) = k.split_at_mut(s);
+            let _ = done;
+            f(t + C[s] * h, &stage, &mut rest[0]);
+        }
+        // stage now holds the 5th-order solution (the 7th stage's argument, FSAL).
+        let mut err: f64 = 0.0;
+        let controlled = if matches!(steps_of, Steps::Replay(_)) {
+            0
+        } else {
+            controlled
+        };
+        for i in 0..controlled {
+            let mut e = 0.0;
+            for (s, ks) in k.iter().enumerate() {
+                e += E[s] * ks[i];
+            }
+            let scale = atol + RTOL * y[i].abs().max(stage[i].abs());
+            err = err.max((h * e).abs() / scale);
+        }
+        if !err.is_finite() {
+            return Err(SolveError::NotFinite);
+        }
+        if err <= 1.0 {
+            if let Steps::Adaptive(record) = &mut steps_of {
+                record.push(h);
+            }
+            on_step(t, h, y, &k[0], &stage, &k[6]);
+            t = if last { t1 } else { t + h };
+            y[..n].copy_from_slice(&stage[..n]);
+            k[0] = k[6];
+            let grow = if err == 0.0 {
+                5.0
+            } else {
+                (0.9 * err.powf(-0.2)).clamp(0.2, 5.0)
+            };
+            if !last {
+                // A discharge at constant current is a straight line with no error to see,
+                // so the step would grow past the next conduction pulse: cap it.
+                h = (h * grow).min(h_max);
+                *h0 = h;
+            }
+        } else {
+            h *= (0.9 * err.powf(-0.2)).clamp(0.1, 0.9);
+        }
+    }
+    Ok(())
+}
+
+/// Cubic Hermite value at fraction `s` of a step of length `h` (third-order accurate; enough
+/// for samples and for finding a crest between steps).
+#[inline]
+fn hermite(y0: f64, f0: f64, y1: f64, f1: f64, h: f64, s: f64) -> f64 {
+    let s2 = s * s;
+    let s3 = s2 * s;
+    (2.0 * s3 - 3.0 * s2 + 1.0) * y0
+        + (s3 - 2.0 * s2 + s) * h * f0
+        + (-2.0 * s3 + 3.0 * s2) * y1
+        + (s3 - s2) * h * f1
+}
+
+/// The one-period map: capacitor voltages after one period from `x` (volts).
+fn period_map<Ckt: PeriodicCircuit + ?Sized>(
+    c: &Ckt,
+    x: &[f64],
+    h0: &mut f64,
+    steps: Steps<'_>,
+) -> Result<Vec<f64>, SolveError> {
+    let n = c.states();
+    let mut y = [0.0; WIDTH];
+    y[..n].copy_from_slice(x);
+    let mut f = |t: f64, y: &Vector, dy: &mut Vector| {
+        c.evaluate(t, &y[..n], &mut dy[..n]);
+    };
+    let atol = 1e-7 * c.volts_scale();
+    integrate(
+        n,
+        n,
+        &mut f,
+        0.0,
+        c.period_s(),
+        &mut y,
+        h0,
+        atol,
+        steps,
+        |_, _, _, _, _, _| {},
+    )?;
+    Ok(y[..n].to_vec())
+}
+
+/// Solves `a x = b` for n <= 4 by Gaussian elimination with partial pivoting; None if singular.
+fn solve_linear(n: usize, a: &mut [[f64; MAX_STATES]; MAX_STATES], b: &mut [f64]) -> Option<()> {
+    for col in 0..n {
+        let pivot = (col..n).max_by(|&i, &j| a[i][col].abs().total_cmp(&a[j][col].abs()))?;
+        if a[pivot][col].abs() < 1e-300 {
+            return None;
+        }
+        a.swap(col, pivot);
+        b.swap(col, pivot);
+        for row in col + 1..n {
+            let factor = a[row][col] / a[col][col];
+            for k in col..n {
+                a[row][k] -= factor * a[col][k];
+            }
+            b[row] -= factor * b[col];
+        }
+    }
+    for col in (0..n).rev() {
+        let mut acc = b[col];
+        for k in col + 1..n {
+            acc -= a[col][k] * b[k];
+        }
+        b[col] = acc / a[col][col];
+    }
+    Some(())
+}
+
+/// Finds the periodic steady state of `c` and samples one mains period of it.
+pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyState, SolveError> {
+    let n = c.states();
+    assert!(
+        n <= MAX_STATES,
+        "a circuit with more states than the solver holds"
+    );
+    let scale = c.volts_scale().max(1e-6);
+    let mut x = vec![0.0; n];
+    c.initial_guess(&mut x);
+    let mut h0 = c.period_s() / 64.0;
+    let mut integrations = 0;
+    let mut newton_steps = 0;
+    if n > 0 {
+        let mut grid = Vec::new();
+        let mut g = sub(&period_map(c, &x, &mut h0, Steps::Adaptive(&mut grid))?, &x);
+        integrations += 1;
+        // Finite-difference Jacobian of G(x) = Phi(x) - x to start; Broyden keeps it after.
+        let mut jac = [[0.0; MAX_STATES]; MAX_STATES];
+        let delta = 1e-5 * scale;
+        for j in 0..n {
+            let mut xp = x.clone();
+            xp[j] += delta;
+            let gp = sub(&period_map(c, &xp, &mut h0, Steps::Replay(&grid))?, &xp);
+            integrations += 1;
+            for i in 0..n {
+                jac[i][j] = (gp[i] - g[i]) / delta;
+            }
+        }
+        let limit = 60;
+        loop {
+            newton_steps += 1;
+            if newton_steps > limit {
+                return Err(SolveError::NoConvergence(limit));
+            }
+            let mut step: Vec<f64> = g.iter().map(|v| -v).collect();
+            let mut a = jac;
+            if solve_linear(n, &mut a, &mut step).is_none() {
+                // A flat map means the state is forgotten within one period: Phi(x) is the answer.
+                step = g.clone();
+            }
+            // Never step further than the winding's peak: the map is only piecewise smooth.
+            let longest = step.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+            if longest > scale {
+                for s in step.iter_mut() {
+                    *s *= scale / longest;
+                }
+            }
+            let x_new: Vec<f64> = x.iter().zip(&step).map(|(a, b)| a + b).collect();
+            // A long step moves the conduction pulses: let the integrator find its steps anew.
+            let steps = if longest > 1e-3 * scale {
+                Steps::Adaptive(&mut grid)
+            } else {
+                Steps::Replay(&grid)
+            };
+            let g_new = sub(&period_map(c, &x_new, &mut h0, steps)?, &x_new);
+            integrations += 1;
+            let dg: Vec<f64> = g_new.iter().zip(&g).map(|(a, b)| a - b).collect();
+            let ss: f64 = step.iter().map(|v| v * v).sum();
+            if ss > 0.0 {
+                for i in 0..n {
+                    let mut jd = 0.0;
+                    for j in 0..n {
+                        jd += jac[i][j] * step[j];
+                    }
+                    for j in 0..n {
+                        jac[i][j] += (dg[i] - jd) * step[j] / ss;
+                    }
+                }
+            }
+            x = x_new;
+            g = g_new;
+            if !x.iter().all(|v| v.is_finite()) {
+                return Err(SolveError::NotFinite);
+            }
+            // The replayed map is smooth, so Newton is quadratic here: a step of 1e-8 of the
+            // winding's peak leaves an error far below that.
+            if longest <= 1e-8 * scale {
+                break;
+            }
+        }
+    }
+    let mut state = final_pass(c, &x, &mut h0)?;
+    state.newton_steps = newton_steps;
+    state.integrations = integrations + 1;
+    Ok(state)
+}
+
+fn sub(a: &[f64], b: &[f64]) -> Vec<f64> {
+    a.iter().zip(b).map(|(x, y)| x - y).collect()
+}
+
+/// Integrates one mains period from the steady start, with the running integrals appended to
+/// the state so the averages are as accurate as the integration itself.
+fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
+    c: &Ckt,
+    x: &[f64],
+    h0: &mut f64,
+) -> Result<SteadyState, SolveError> {
+    let n = c.states();
+    let period = c.line_period_s();
+    let mut scratch = [0.0; MAX_STATES];
+    let first = c.evaluate(0.0, x, &mut scratch[..n]);
+    let ripple_ref_v = first.v_out;
+    let mut y = [0.0; WIDTH];
+    y[..n].copy_from_slice(x);
+    let mut f = |t: f64, y: &Vector, dy: &mut Vector| {
+        let p = c.evaluate(t, &y[..n], &mut dy[..n]);
+        let q = &mut dy[n..n + QUADRATURES];
+        let r = p.v_out - ripple_ref_v;
+        q[0] = p.v_out;
+        q[1] = r * r;
+        q[2] = p.i_diode;
+        q[3] = p.i_diode * p.i_diode;
+        q[4] = p.i_winding * p.i_winding;
+        q[5] = p.i_cap * p.i_cap;
+        q[6] = p.i_load;
+    };
+    let mut t_s = Vec::with_capacity(SAMPLES);
+    let mut probes = Vec::with_capacity(SAMPLES);
+    // Probes at every step end as well as the even samples, so a crest between samples counts.
+    let mut extremes: Vec<Probe> = Vec::with_capacity(4 * SAMPLES);
+    let dt = period / SAMPLES as f64;
+    if n == 0 {
+        // Nothing to integrate but the averages: Simpson's rule on a fine fixed grid.
+        let fine = 16 * SAMPLES;
+        let h = period / fine as f64;
+        let mut dy = [0.0; WIDTH];
+        let mut acc = [0.0; QUADRATURES];
+        let y0 = [0.0; WIDTH];
+        for i in 0..=fine {
+            let t = i as f64 * h;
+            f(t, &y0, &mut dy);
+            let w = if i == 0 || i == fine {
+                1.0
+            } else if i % 2 == 1 {
+                4.0
+            } else {
+                2.0
+            };
+            for q in 0..QUADRATURES {
+                acc[q] += w * dy[q] * h / 3.0;
+            }
+            let p = c.evaluate(t, &[], &mut []);
+            extremes.push(p);
+            if i % 16 == 0 && i < fine {
+                t_s.push(t);
+                probes.push(p);
+            }
+        }
+        y[..QUADRATURES].copy_from_slice(&acc);
+    } else {
+        let atol = 1e-7 * c.volts_scale().max(1e-6);
+        let mut next = 0usize;
+        integrate(
+            n + QUADRATURES,
+            n,
+            &mut f,
+            0.0,
+            period,
+            &mut y,
+            h0,
+            atol,
+            Steps::Adaptive(&mut Vec::new()),
+            |t, h, y0, f0, y1, f1| {
+                let mut at = [0.0; MAX_STATES];
+                let mut dx = [0.0; MAX_STATES];
+                while next < SAMPLES && (next as f64) * dt < t + h {
+                    let ts = next as f64 * dt;
+                    let s = ((ts - t) / h).clamp(0.0, 1.0);
+                    for i in 0..n {
+                        at[i] = hermite(y0[i], f0[i], y1[i], f1[i], h, s);
+                    }
+                    t_s.push(ts);
+                    probes.push(c.evaluate(ts, &at[..n], &mut dx[..n]));
+                    next += 1;
+                }
+                at[..n].copy_from_slice(&y1[..n]);
+                extremes.push(c.evaluate(t + h, &at[..n], &mut dx[..n]));
+            },
+        )?;
+        extremes.extend_from_slice(&probes);
+        let q: Vec<f64> = y[n..n + QUADRATURES].to_vec();
+        y[..QUADRATURES].copy_from_slice(&q);
+    }
+    let (mut v_max, mut v_min) = (f64::NEG_INFINITY, f64::INFINITY);
+    let (mut i_peak, mut vr_max) = (0.0f64, f64::NEG_INFINITY);
+    for p in &extremes {
+        v_max = v_max.max(p.v_out);
+        v_min = v_min.min(p.v_out);
+        i_peak = i_peak.max(p.i_diode);
+        vr_max = vr_max.max(p.v_reverse);
+    }
+    let mean = |i: usize| y[i] / period;
+    let mean_v_out = mean(0);
+    let state = SteadyState {
+        start: x.to_vec(),
+        t_s,
+        probes,
+        v_out_max: v_max,
+        v_out_min: v_min,
+        i_diode_peak: i_peak,
+        v_reverse_max: vr_max,
+        mean_v_out,
+        mean_i_diode: mean(2),
+        mean_i_load: mean(6),
+        mean_sq_ripple: mean(1),
+        ripple_ref_v,
+        mean_sq_i_diode: mean(3),
+        mean_sq_i_winding: mean(4),
+        mean_sq_i_cap: mean(5),
+        newton_steps: 0,
+        integrations: 0,
+    };
+    let finite = [
+        state.mean_v_out,
+        state.mean_sq_ripple,
+        state.v_out_max,
+        state.v_out_min,
+        state.i_diode_peak,
+    ]
+    .iter()
+    .all(|v| v.is_finite());
+    if finite {
+        Ok(state)
+    } else {
+        Err(SolveError::NotFinite)
+    }
+}

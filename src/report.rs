@@ -1,0 +1,160 @@
+//! The report of one supply, as aligned text and as one JSON object. Pure formatting: the
+//! command line prints it, the tests read it.
+
+use crate::analysis::cautions::cautions;
+use crate::circuit::{self, CircuitError, Figures, HandEstimate, Operating};
+use crate::supply::{Supply, Topology};
+use crate::units::format_si;
+use serde_json::{Value, json};
+
+/// A supply solved for its report.
+#[derive(Debug, Clone)]
+pub struct Report {
+    pub supply: Supply,
+    pub file: String,
+    pub nominal: Operating,
+    pub hand: HandEstimate,
+    pub differences: Vec<String>,
+    pub cautions: Vec<String>,
+}
+
+/// Solves `supply` (read from `file`) and gathers what its report shows.
+pub fn build(supply: Supply, file: &str) -> Result<Report, CircuitError> {
+    let (nominal, hand) = circuit::solve_nominal(&supply)?;
+    let differences = circuit::hand_differences(&supply, &nominal, &hand);
+    let cautions = cautions(&supply, nominal.figures.max_v);
+    Ok(Report {
+        supply,
+        file: file.to_string(),
+        nominal,
+        hand,
+        differences,
+        cautions,
+    })
+}
+
+/// Each figure's label, JSON name, value and unit, in the report's order.
+pub fn figure_rows(f: &Figures) -> Vec<(&'static str, &'static str, Option<f64>, &'static str)> {
+    vec![
+        ("DC (meter, average)", "dc_v", Some(f.dc_v), "V"),
+        ("Highest", "max_v", Some(f.max_v), "V"),
+        ("Lowest", "min_v", Some(f.min_v), "V"),
+        ("Ripple peak-peak", "ripple_pp_v", Some(f.ripple_pp_v), "V"),
+        ("Ripple RMS", "ripple_rms_v", Some(f.ripple_rms_v), "V"),
+        ("Ripple frequency", "ripple_hz", Some(f.ripple_hz), "Hz"),
+        ("Load current", "load_a", Some(f.load_a), "A"),
+        ("Diode peak", "diode_peak_a", Some(f.diode_peak_a), "A"),
+        ("Diode average", "diode_avg_a", Some(f.diode_avg_a), "A"),
+        ("Diode RMS", "diode_rms_a", Some(f.diode_rms_a), "A"),
+        (
+            "Diode reverse peak",
+            "diode_piv_v",
+            Some(f.diode_piv_v),
+            "V",
+        ),
+        ("Winding RMS", "winding_rms_a", Some(f.winding_rms_a), "A"),
+        ("Winding VA", "winding_va", Some(f.winding_va), "VA"),
+        (
+            "Capacitor ripple RMS",
+            "cap_ripple_rms_a",
+            Some(f.cap_ripple_rms_a),
+            "A",
+        ),
+        (
+            "Conduction per pulse",
+            "conduction_deg",
+            Some(f.conduction_deg),
+            "deg",
+        ),
+        ("Switch-on surge", "inrush_peak_a", f.inrush_peak_a, "A"),
+    ]
+}
+
+fn show(value: Option<f64>, unit: &str) -> String {
+    match (value, unit) {
+        (None, _) => "unlimited".into(),
+        (Some(v), "deg") => format!("{v:.0} deg"),
+        (Some(v), "Hz") => format!("{v:.0} Hz"),
+        (Some(v), u) => format_si(v, u),
+    }
+}
+
+impl Report {
+    /// The aligned text report.
+    pub fn text(&self) -> String {
+        let s = &self.supply;
+        let mut out = String::new();
+        out.push_str(&format!("{}\n", s.name));
+        out.push_str(&format!("  file: {}\n", self.file));
+        out.push_str(&format!(
+            "  {} V {} Hz mains, {} rectifier, {} filter\n",
+            s.mains.vrms,
+            s.mains.hz,
+            s.rectifier.topology.key(),
+            match s.filter.kind {
+                crate::supply::FilterKind::None => "no",
+                crate::supply::FilterKind::Capacitor => "capacitor",
+                crate::supply::FilterKind::Crc => "CRC",
+            }
+        ));
+        if s.rectifier.topology == Topology::SplitRail {
+            out.push_str("  split rail: figures are the + rail; the - rail mirrors it\n");
+        }
+        if let Ok(w) = s.winding()
+            && let Some(r) = w.assumed_regulation_pct
+        {
+            out.push_str(&format!(
+                "  regulation {r:.0} % assumed from the {} VA rating\n",
+                s.transformer.rated_va.unwrap_or(0.0)
+            ));
+        }
+        out.push('\n');
+        out.push_str(&format!("  {:<24}{:>12}\n", "Figure", "Nominal"));
+        for (label, _, value, unit) in figure_rows(&self.nominal.figures) {
+            out.push_str(&format!("  {:<24}{:>12}\n", label, show(value, unit)));
+        }
+        let h = &self.hand;
+        out.push_str("\n  Hand estimate (paper method)\n");
+        out.push_str(&format!(
+            "  {:<24}{:>12}\n  {:<24}{:>12}\n  {:<24}{:>12}\n  {:<24}{:>12}\n",
+            "Working peak",
+            format_si(h.working_peak_v, "V"),
+            "DC",
+            format_si(h.dc_v, "V"),
+            "Ripple peak-peak",
+            format_si(h.ripple_pp_v, "V"),
+            "Load current",
+            format_si(h.load_a, "A"),
+        ));
+        if !self.differences.is_empty() {
+            out.push_str("  Why they differ:\n");
+            for d in &self.differences {
+                out.push_str(&format!("  - {d}\n"));
+            }
+        }
+        out.push_str("\n  Cautions\n");
+        for c in &self.cautions {
+            out.push_str(&format!("  ! {c}\n"));
+        }
+        out
+    }
+
+    /// The JSON object of the report (one line when serialised).
+    pub fn json(&self) -> Value {
+        let mut nominal = serde_json::to_value(&self.nominal.figures).expect("figures serialise");
+        nominal["waveform"] =
+            serde_json::to_value(&self.nominal.waveform).expect("waveform serialises");
+        json!({
+            "name": self.supply.name,
+            "file": self.file,
+            "topology": self.supply.rectifier.topology.key(),
+            "rail": if self.supply.rectifier.topology == Topology::SplitRail { "+" } else { "single" },
+            "nominal": nominal,
+            "hand_estimate": self.hand,
+            "hand_differences": self.differences,
+            "worst_case": {},
+            "checks": [],
+            "cautions": self.cautions,
+        })
+    }
+}
