@@ -248,8 +248,14 @@ impl Network {
             // Not conducting: each pair of blocking diodes shares the rail, the winding
             // between their midpoints.
             Arrangement::Bridge => 0.5 * (rail0 - share * e),
-            // Cathode on the rail (or a reservoir's top), anode on the winding end.
-            _ => rail0 - share * e,
+            // While this half feeds the - rail its end sits below the EMF by its own drop.
+            Arrangement::SplitRail if e < 0.0 => rail0 - share * e - first.ohms * path_i[0],
+            // Cathode on the rail (or a reservoir's top), anode on the winding end, which
+            // sits below the EMF by the drop of whatever current that winding carries.
+            Arrangement::Direct => rail0 - share * e + first.ohms * (path_i[0] - path_i[1]),
+            Arrangement::CenterTap | Arrangement::SplitRail => {
+                rail0 - share * e + first.ohms * i_diode
+            }
         };
         Probe {
             v_out,

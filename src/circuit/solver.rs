@@ -94,7 +94,6 @@ pub struct SteadyState {
 pub const SAMPLES: usize = 256;
 
 const RTOL: f64 = 1e-6;
-pub static STEPS: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
 const MAX_STEPS: usize = 200_000;
 /// Fewest steps in one integration: a pulse shorter than a step could be stepped over unseen.
 const MIN_STEPS: f64 = 48.0;
@@ -183,7 +182,6 @@ where
     let mut replay_at = 0;
     while t < t1 {
         steps += 1;
-        crate::circuit::solver::STEPS.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
         if steps > MAX_STEPS {
             return Err(SolveError::TooManySteps(MAX_STEPS));
         }

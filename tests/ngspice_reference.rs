@@ -1,0 +1,97 @@
+//! The engine against a general-purpose circuit simulator: ngspice (Debian package `ngspice`,
+//! version in the CSV's first line) solved the same circuits from its own parts, run to steady
+//! state by tests/reference/generate.py. This test reads only the stored CSV and TOML files.
+//!
+//! Tolerances (the engine issue's acceptance figures): DC, min and max within 1 %; ripple
+//! peak-peak within 3 %; RMS currents within 4 %; peak diode current within 5 %.
+
+use railcheck::{Conditions, Supply, solve};
+use std::collections::BTreeMap;
+use std::path::Path;
+
+fn reference() -> Vec<(String, BTreeMap<String, f64>)> {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference");
+    let text =
+        std::fs::read_to_string(dir.join("ngspice.csv")).expect("tests/reference/ngspice.csv");
+    let mut lines = text.lines().filter(|l| !l.starts_with('#'));
+    let header: Vec<&str> = lines.next().expect("a header").split(',').collect();
+    lines
+        .map(|line| {
+            let cells: Vec<&str> = line.split(',').collect();
+            let values = header[1..]
+                .iter()
+                .zip(&cells[1..])
+                .map(|(k, v)| (k.to_string(), v.parse::<f64>().expect("a number")))
+                .collect();
+            (cells[0].to_string(), values)
+        })
+        .collect()
+}
+
+fn engine(case: &str) -> railcheck::Figures {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/reference/supplies")
+        .join(format!("{case}.toml"));
+    let supply = Supply::from_toml_str(&std::fs::read_to_string(&path).unwrap())
+        .unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+    solve(&supply, &Conditions::default())
+        .unwrap_or_else(|e| panic!("{case}: {e}"))
+        .figures
+}
+
+#[test]
+fn engine_matches_ngspice_across_the_matrix() {
+    let cases = reference();
+    assert!(cases.len() >= 20, "the matrix needs at least 20 supplies");
+    // (figure, tolerance as a fraction, scale floor for figures that can be near zero)
+    let checks: [(&str, f64); 11] = [
+        ("diode_avg_a", 0.01),
+        ("diode_piv_v", 0.03),
+        ("dc_v", 0.01),
+        ("min_v", 0.01),
+        ("max_v", 0.01),
+        ("ripple_pp_v", 0.03),
+        ("diode_rms_a", 0.04),
+        ("winding_rms_a", 0.04),
+        ("cap_ripple_rms_a", 0.04),
+        ("diode_peak_a", 0.05),
+        ("ripple_rms_v", 0.04),
+    ];
+    let mut worst: BTreeMap<&str, (f64, String)> = BTreeMap::new();
+    let mut failures = Vec::new();
+    for (case, want) in &cases {
+        let got = serde_json::to_value(engine(case)).unwrap();
+        for (key, tol) in checks {
+            let w = want[key];
+            let g = got[key].as_f64().unwrap();
+            // A rail's minimum of 0 V (unfiltered) compares in volts, not percent.
+            let scale = if key == "min_v" {
+                want["max_v"]
+            } else {
+                w.abs()
+            };
+            if scale < 1e-9 {
+                continue;
+            }
+            let err = (g - w).abs() / scale;
+            let entry = worst.entry(key).or_insert((0.0, String::new()));
+            if err > entry.0 {
+                *entry = (err, case.clone());
+            }
+            if err > tol {
+                failures.push(format!(
+                    "{case} {key}: engine {g:.5}, ngspice {w:.5} ({:.2} %)",
+                    100.0 * err
+                ));
+            }
+        }
+    }
+    for (key, (err, case)) in &worst {
+        println!("largest {key} difference: {:.3} % ({case})", 100.0 * err);
+    }
+    assert!(
+        failures.is_empty(),
+        "outside tolerance:\n{}",
+        failures.join("\n")
+    );
+}

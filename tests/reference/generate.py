@@ -1,0 +1,324 @@
+#!/usr/bin/env python3
+"""Reference data for railcheck's steady-state engine, from ngspice.
+
+For each supply of the matrix below this script
+  1. writes the supply as a railcheck TOML file under tests/reference/supplies/,
+  2. writes an ngspice netlist of the same circuit built from the simulator's own parts
+     (an ideal transformer from controlled sources, with the primary resistance on the primary
+     side, SPICE junction diodes, capacitors with a series ESR resistor, resistor or current
+     source loads),
+  3. runs a transient long enough to reach steady state, checks that the last periods agree,
+  4. measures the figures over the last mains period and writes them to
+     tests/reference/ngspice.csv, with the ngspice version in a comment line.
+
+Run from the repository root:  python3 tests/reference/generate.py
+Needs: ngspice (Debian package `ngspice`) and python3; no other package.
+`cargo test` reads only the CSV and the TOML files, never ngspice.
+"""
+
+import math
+import os
+import subprocess
+import sys
+import tempfile
+
+HERE = os.path.dirname(os.path.abspath(__file__))
+SUPPLIES = os.path.join(HERE, "supplies")
+
+# Junction parameters of railcheck's diode presets (as documented in src/supply.rs).
+PRESETS = {
+    "silicon": dict(is_a=7.0e-9, n=1.8, rs_ohms=0.034),
+    "fast": dict(is_a=1.0e-8, n=2.0, rs_ohms=0.06),
+    "schottky": dict(is_a=1.0e-5, n=1.05, rs_ohms=0.05),
+}
+
+
+def case(name, topology, vrms, hz, ratio, *, sec=0.0, pri=0.0, diode="silicon", kind="capacitor",
+         uf=None, esr=0.0, amps=None, ohms=None, crest=None, series_ohms=None, second_uf=None):
+    return dict(name=name, topology=topology, vrms=vrms, hz=hz, ratio=ratio, sec=sec, pri=pri,
+                diode=diode, kind=kind, uf=uf, esr=esr, amps=amps, ohms=ohms, crest=crest,
+                series_ohms=series_ohms, second_uf=second_uf)
+
+
+CUSTOM = dict(is_a=1.0e-9, n=1.6, rs_ohms=0.1)
+
+MATRIX = [
+    case("hw_r_50", "half-wave", 230, 50, 19.2, sec=1.2, pri=30, uf=1000, esr=0.1, ohms=100),
+    case("hw_cc_60", "half-wave", 120, 60, 5.0, sec=0.8, uf=2200, esr=0.05, amps=0.3),
+    case("hw_none_r", "half-wave", 230, 50, 12.0, sec=1.5, kind="none", ohms=47),
+    case("hw_custom_60", "half-wave", 120, 60, 8.0, sec=0.6, diode=CUSTOM, uf=3300, ohms=22),
+    case("ct_r_60", "center-tap", 120, 60, 4.0, sec=2.0, pri=8, uf=3300, esr=0.03, ohms=33),
+    case("ct_cc_50_light", "center-tap", 230, 50, 7.7, sec=3.0, uf=470, amps=0.02),
+    case("ct_none_r", "center-tap", 80, 60, 4.85, sec=1.0, kind="none", ohms=680),
+    case("ct_schottky_50", "center-tap", 230, 50, 20.0, sec=0.4, diode="schottky", uf=10000,
+         esr=0.02, amps=2.0),
+    case("br_cc_50", "bridge", 230, 50, 9.58, sec=1.8, pri=42, uf=2200, esr=0.05, amps=0.35),
+    case("br_r_60", "bridge", 120, 60, 7.5, sec=0.5, pri=2, uf=4700, esr=0.02, ohms=10),
+    case("br_light_r", "bridge", 230, 50, 15.0, sec=4.0, uf=100, ohms=2200),
+    case("br_very_light", "bridge", 230, 50, 15.0, sec=4.0, pri=60, uf=470, ohms=4700),
+    case("br_none_r", "bridge", 120, 60, 10.0, sec=0.7, kind="none", ohms=100),
+    case("br_schottky_60", "bridge", 120, 60, 15.0, sec=0.3, diode="schottky", uf=6800,
+         esr=0.01, amps=1.5),
+    case("br_flat_50", "bridge", 230, 50, 10.0, sec=1.0, uf=3300, esr=0.04, amps=0.5, crest=1.38),
+    case("br_high_esr", "bridge", 230, 50, 12.0, sec=1.2, uf=1000, esr=1.5, amps=0.5),
+    case("br_fast_60", "bridge", 120, 60, 6.0, sec=1.0, diode="fast", uf=2200, esr=0.05, ohms=27),
+    case("dbl_r_50", "doubler", 230, 50, 2.0, sec=10.0, uf=100, esr=0.2, ohms=2200),
+    case("dbl_cc_60", "doubler", 120, 60, 4.0, sec=2.0, pri=5, uf=470, esr=0.1, amps=0.1),
+    case("sr_r_50", "split-rail", 230, 50, 6.4, sec=2.4, pri=20, uf=2200, esr=0.05, ohms=47),
+    case("sr_cc_60", "split-rail", 120, 60, 3.3, sec=1.5, uf=4700, esr=0.03, amps=0.8),
+    case("sr_none_r", "split-rail", 230, 50, 8.0, sec=2.0, kind="none", ohms=100),
+    case("crc_br_50", "bridge", 230, 50, 9.0, sec=1.5, kind="crc", uf=1000, esr=0.05,
+         series_ohms=22, second_uf=1000, ohms=100),
+    case("crc_ct_60", "center-tap", 120, 60, 4.0, sec=1.5, kind="crc", uf=470, series_ohms=100,
+         second_uf=470, amps=0.05),
+    case("hw_flat_60", "half-wave", 120, 60, 6.0, sec=1.0, uf=2200, esr=0.05, amps=0.2,
+         crest=1.36),
+]
+
+
+# --- the mains wave: a sine clipped to a crest factor, keeping 1 V RMS (src/circuit/waveform.rs)
+def clipped_mean_square(k):
+    a = math.asin(min(max(k, 0.0), 1.0))
+    return (2 / math.pi) * (a / 2 - math.sin(2 * a) / 4 + k * k * (math.pi / 2 - a))
+
+
+def clip_and_gain(crest):
+    if crest is None or crest >= math.sqrt(2) - 1e-9:
+        return 1.0, math.sqrt(2)
+    lo, hi = 1e-6, 1.0
+    for _ in range(60):
+        mid = 0.5 * (lo + hi)
+        if mid / math.sqrt(clipped_mean_square(mid)) < crest:
+            lo = mid
+        else:
+            hi = mid
+    k = 0.5 * (lo + hi)
+    return k, 1 / math.sqrt(clipped_mean_square(k))
+
+
+def toml_for(c):
+    lines = ["format = 1", f'name = "reference {c["name"]}"',
+             'notes = "ngspice reference case, written by tests/reference/generate.py"', "",
+             "[mains]", f"vrms = {float(c['vrms'])}", f"hz = {float(c['hz'])}"]
+    if c["crest"]:
+        lines.append(f"crest = {c['crest']}")
+    lines += ["", "[transformer]", f"ratio = {c['ratio']}", f"secondary_ohms = {c['sec']}",
+              f"primary_ohms = {c['pri']}", "", "[rectifier]", f'topology = "{c["topology"]}"']
+    d = c["diode"]
+    if isinstance(d, str):
+        lines.append(f'diode = "{d}"')
+    else:
+        lines.append(f"diode = {{ is_a = {d['is_a']}, n = {d['n']}, rs_ohms = {d['rs_ohms']} }}")
+    lines += ["", "[filter]", f'kind = "{c["kind"]}"']
+    if c["kind"] != "none":
+        lines += [f"uf = {float(c['uf'])}", f"esr_ohms = {c['esr']}"]
+    if c["kind"] == "crc":
+        lines += [f"series_ohms = {c['series_ohms']}", f"second_uf = {float(c['second_uf'])}"]
+    lines += ["", "[load]"]
+    lines.append(f"amps = {c['amps']}" if c["amps"] is not None else f"ohms = {float(c['ohms'])}")
+    return "\n".join(lines) + "\n"
+
+
+def diode_params(d):
+    return PRESETS[d] if isinstance(d, str) else d
+
+
+def netlist(c, tstop, tstart, tmax, out_file):
+    d = diode_params(c["diode"])
+    f = c["hz"]
+    vpk = c["vrms"] * math.sqrt(2)
+    k, gain = clip_and_gain(c["crest"])
+    lines = [f"* railcheck reference {c['name']}",
+             f".model DREF D(IS={d['is_a']} N={d['n']} RS={d['rs_ohms']})"]
+    if k >= 1.0:
+        lines.append(f"VMAINS m 0 SIN(0 {vpk} {f})")
+    else:
+        # The clipped sine, written as the simulator's own behavioural source.
+        amp = c["vrms"] * gain
+        lines.append(f"BMAINS m 0 V = {amp} * max(-{k}, min({k}, sin({2 * math.pi * f} * time)))")
+    lines.append(f"RPRI m p {max(c['pri'], 1e-6)}")
+    ratio = c["ratio"]
+    top = c["topology"]
+    sec = max(c["sec"], 1e-6)
+    load_node = "out"
+
+    def cap(name, node, uf, esr, ref="0"):
+        if esr > 0:
+            return [f"R{name} {node} {node}_c {esr}", f"C{name} {node}_c {ref} {uf}u"]
+        return [f"C{name} {node} {ref} {uf}u"]
+
+    if top in ("center-tap", "split-rail"):
+        # Two half windings in series, center tap grounded; each sensed and reflected.
+        lines += [f"EA a0 0 p 0 {0.5 / ratio}", "VSA a0 a1 0", f"RA a1 a {sec / 2}",
+                  f"FA p 0 VSA {0.5 / ratio}",
+                  f"EB 0 b0 p 0 {0.5 / ratio}", "VSB b1 b0 0", f"RB b b1 {sec / 2}",
+                  f"FB p 0 VSB {0.5 / ratio}"]
+    else:
+        lines += [f"ES a0 b p 0 {1.0 / ratio}", "VSA a0 a1 0", f"RS a1 a {sec}",
+                  f"FS p 0 VSA {1.0 / ratio}"]
+        if top != "half-wave":
+            # A floating winding needs a DC reference while every diode is off, and a little
+            # capacitance so its nodes do not jump at each diode's turn-off: 1 Gohm and 1 nF
+            # draw microamps at the mains frequency, nothing a figure can see.
+            lines += ["RFLOAT b 0 1e9", "CFLOAT a b 1n"]
+    if top == "half-wave":
+        lines += ["VB b 0 0", "D1 a d1 DREF", "VD1 d1 out 0"]
+    elif top == "center-tap":
+        lines += ["D1 a d1 DREF", "VD1 d1 out 0", "D2 b out DREF"]
+    elif top == "bridge":
+        lines += ["D1 a d1 DREF", "VD1 d1 out 0", "D2 0 a DREF", "D3 b out DREF", "D4 0 b DREF"]
+    elif top == "doubler":
+        # Winding between a and the capacitor junction b; D1 charges the top, D2 the bottom.
+        lines += ["D1 a d1 DREF", "VD1 d1 out 0", "D2 0 a DREF"]
+    elif top == "split-rail":
+        lines += ["D1 a d1 DREF", "VD1 d1 out 0", "D2 b out DREF", "D3 neg a DREF",
+                  "D4 neg b DREF"]
+    if c["kind"] != "none":
+        if top == "doubler":
+            lines += ["VCS out out_s 0"] + cap("1", "out_s", c["uf"], c["esr"], "b")
+            lines += [f"R2 b b_c {max(c['esr'], 1e-6)}", f"C2 b_c 0 {c['uf']}u"]
+        else:
+            lines += ["VCS out out_s 0"] + cap("1", "out_s", c["uf"], c["esr"])
+            if top == "split-rail":
+                lines += cap("N", "neg", c["uf"], c["esr"])
+        if c["kind"] == "crc":
+            lines += [f"RCRC out rail {c['series_ohms']}", f"C3 rail 0 {c['second_uf']}u"]
+            load_node = "rail"
+    if c["amps"] is not None:
+        lines.append(f"ILOAD {load_node} 0 DC {c['amps']}")
+        if top == "split-rail":
+            lines.append(f"ILOADN 0 neg DC {c['amps']}")
+    else:
+        lines.append(f"RLOAD {load_node} 0 {c['ohms']}")
+        if top == "split-rail":
+            lines.append(f"RLOADN 0 neg {c['ohms']}")
+    # Start the capacitors near their working voltage so the run is short (the final state is
+    # the simulator's own: the check below refuses an unsettled run).
+    ic = []
+    guess = 0.9 * (c["vrms"] / ratio * math.sqrt(2) * (0.5 if top in ("center-tap", "split-rail") else 1.0))
+    if c["kind"] != "none":
+        if top == "doubler":
+            ic = [f"v(out)={2 * guess}", f"v(b)={guess}", f"v(out_s_c)={2 * guess}", f"v(b_c)={guess}"]
+        else:
+            ic = [f"v(out)={guess}", f"v(out_s)={guess}"]
+            if c["esr"] > 0:
+                ic.append(f"v(out_s_c)={guess}")
+            if top == "split-rail":
+                ic += [f"v(neg)={-guess}"]
+                if c["esr"] > 0:
+                    ic.append(f"v(neg_c)={-guess}")
+            if c["kind"] == "crc":
+                ic.append(f"v(rail)={guess * 0.9}")
+    if ic:
+        lines.append(".ic " + " ".join(ic))
+    probe_out = "v(rail)" if load_node == "rail" else "v(out)"
+    wind = "i(VSA)"
+    # Columns: rail, one diode's current, winding current, reverse voltage on that diode, and
+    # the first capacitor's current when there is one.
+    vectors = f"{probe_out} i(VD1) {wind} v(out)-v(a)"
+    if c["kind"] != "none":
+        vectors += " i(VCS)"
+    lines += [".options reltol=1e-4 method=trap",
+              f".tran {tmax} {tstop} {tstart} {tmax} uic",
+              ".control", "run", f"wrdata {out_file} {vectors}",
+              "quit", ".endc", ".end"]
+    return "\n".join(lines) + "\n"
+
+
+def read_wrdata(path):
+    rows = []
+    with open(path) as fh:
+        for line in fh:
+            parts = line.split()
+            if not parts:
+                continue
+            vals = [float(x) for x in parts]
+            # wrdata writes "t v1 t v2 t v3 ...": keep the time once.
+            rows.append([vals[0]] + vals[1::2])
+    return rows
+
+
+def figures(rows, t0, t1, load_amps, load_ohms):
+    seg = [r for r in rows if t0 - 1e-12 <= r[0] <= t1 + 1e-12]
+    T = seg[-1][0] - seg[0][0]
+
+    def integ(fn):
+        acc = 0.0
+        for a, b in zip(seg, seg[1:]):
+            acc += 0.5 * (fn(a) + fn(b)) * (b[0] - a[0])
+        return acc / T
+
+    dc = integ(lambda r: r[1])
+    v2 = integ(lambda r: (r[1] - dc) ** 2)
+    vmax = max(r[1] for r in seg)
+    vmin = min(r[1] for r in seg)
+    return dict(
+        dc_v=dc, max_v=vmax, min_v=vmin, ripple_pp_v=vmax - vmin, ripple_rms_v=math.sqrt(v2),
+        diode_peak_a=max(r[2] for r in seg),
+        diode_avg_a=integ(lambda r: r[2]),
+        diode_rms_a=math.sqrt(integ(lambda r: r[2] ** 2)),
+        winding_rms_a=math.sqrt(integ(lambda r: r[3] ** 2)),
+        diode_piv_v=max(r[4] for r in seg),
+        cap_ripple_rms_a=math.sqrt(integ(lambda r: r[5] ** 2)) if len(seg[0]) > 5 else 0.0,
+        load_a=load_amps if load_amps is not None else dc / load_ohms,
+    )
+
+
+COLUMNS = ["dc_v", "max_v", "min_v", "ripple_pp_v", "ripple_rms_v", "diode_peak_a",
+           "diode_avg_a", "diode_rms_a", "diode_piv_v", "winding_rms_a", "cap_ripple_rms_a",
+           "load_a"]
+
+
+def run_case(c, work):
+    f = c["hz"]
+    T = 1.0 / f
+    periods = 60
+    if c["kind"] != "none":
+        # Light loads forget their start slowly: run for several load time constants too.
+        r = c["ohms"] if c["ohms"] else None
+        if r:
+            periods = max(periods, int(3 * r * c["uf"] * 1e-6 / T) + 20)
+        periods = min(periods, 1500)
+    for attempt in range(3):
+        tstop = periods * T
+        tstart = (periods - 3) * T
+        out = os.path.join(work, f"{c['name']}.data")
+        net = os.path.join(work, f"{c['name']}.cir")
+        with open(net, "w") as fh:
+            fh.write(netlist(c, tstop, tstart, T / 4000, out))
+        subprocess.run(["ngspice", "-b", net], check=True, capture_output=True)
+        rows = read_wrdata(out)
+        last = figures(rows, tstop - T, tstop, c["amps"], c["ohms"])
+        before = figures(rows, tstop - 2 * T, tstop - T, c["amps"], c["ohms"])
+        drift = abs(last["dc_v"] - before["dc_v"]) / max(abs(last["dc_v"]), 1e-9)
+        # An unfiltered rectifier has nothing to settle: what differs between its periods is
+        # only the trapezoid rule on different time steps.
+        if drift < (1e-3 if c["kind"] == "none" else 2e-5):
+            return last, drift, periods
+        periods *= 3
+    raise SystemExit(f"{c['name']}: did not settle (drift {drift:.2e} per period)")
+
+
+def main():
+    version = subprocess.run(["ngspice", "-v"], capture_output=True, text=True).stdout
+    version = next((l.strip("* ").strip() for l in version.splitlines() if "ngspice-" in l),
+                   "ngspice (unknown version)")
+    os.makedirs(SUPPLIES, exist_ok=True)
+    rows = []
+    with tempfile.TemporaryDirectory() as work:
+        for c in MATRIX:
+            with open(os.path.join(SUPPLIES, f"{c['name']}.toml"), "w") as fh:
+                fh.write(toml_for(c))
+            fig, drift, periods = run_case(c, work)
+            print(f"{c['name']}: dc {fig['dc_v']:.4f} V, drift {drift:.1e}/period after {periods} periods",
+                  file=sys.stderr)
+            rows.append((c["name"], fig))
+    with open(os.path.join(HERE, "ngspice.csv"), "w") as fh:
+        fh.write(f"# {version}; written by tests/reference/generate.py; figures over the last mains period\n")
+        fh.write("case," + ",".join(COLUMNS) + "\n")
+        for name, fig in rows:
+            fh.write(name + "," + ",".join(f"{fig[k]:.6g}" for k in COLUMNS) + "\n")
+
+
+if __name__ == "__main__":
+    main()
