@@ -8,8 +8,9 @@
 //! is linear, so each path's diode sees a Thevenin source that two linear evaluations give.
 
 use super::diode::DiodeLaw;
-use super::solver::{PeriodicCircuit, Probe};
+use super::solver::{EDGES, PeriodicCircuit, Probe};
 use super::waveform::MainsWave;
+use std::f64::consts::PI;
 
 /// How a path sees the winding's EMF.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -265,6 +266,7 @@ impl Network {
             i_winding,
             i_cap,
             i_load,
+            edges: [f64::NAN; EDGES],
         }
     }
 }
@@ -292,6 +294,38 @@ impl PeriodicCircuit for Network {
         (self.emf_rms_v * self.wave.crest() * share * self.reservoirs.len().max(1) as f64).max(1e-3)
     }
 
+    fn volts_resolution(&self) -> f64 {
+        // The paper ripple I / (f C) with the load current at the winding's peak.
+        let peak = self.volts_scale();
+        let farads: f64 = self
+            .reservoirs
+            .iter()
+            .map(|r| r.farads)
+            .fold(f64::INFINITY, f64::min);
+        if !farads.is_finite() {
+            return peak;
+        }
+        let pulses = if self.period_s() < 0.75 / self.line_hz {
+            2.0
+        } else {
+            1.0
+        };
+        let ripple = self.load.current_at(peak).abs() / (pulses * self.line_hz * farads);
+        ripple.min(peak)
+    }
+
+    fn breakpoints_s(&self) -> Vec<f64> {
+        let Some(a) = self.wave.clip_phase() else {
+            return Vec::new();
+        };
+        let period = 1.0 / self.line_hz;
+        let tau = std::f64::consts::TAU;
+        [a, PI - a, PI + a, tau - a]
+            .iter()
+            .map(|phase| phase / tau * period)
+            .collect()
+    }
+
     fn evaluate(&self, t: f64, x: &[f64], dx: &mut [f64]) -> Probe {
         let e = self.emf(t);
         if self.reservoirs.is_empty() {
@@ -301,6 +335,7 @@ impl PeriodicCircuit for Network {
         let mut path_i = [0.0; 2];
         let mut charge = [0.0; 2];
         let mut v_source = f64::NEG_INFINITY;
+        let mut edges = [f64::NAN; EDGES];
         for (j, p) in self.paths.iter().enumerate() {
             let s = self.path_source(p, e);
             let k = p.reservoir;
@@ -308,6 +343,9 @@ impl PeriodicCircuit for Network {
                 base.terminal[..self.reservoirs.len()].iter().sum::<f64>() - base.terminal[k];
             v_source = v_source.max(s + others);
             let open = s - base.terminal[k];
+            if let DiodeLaw::Fixed { drop_v, .. } = self.diode {
+                edges[j] = open - p.diodes as f64 * drop_v;
+            }
             if open <= 0.0 {
                 continue;
             }
@@ -328,7 +366,7 @@ impl PeriodicCircuit for Network {
         if let Some(s) = self.second {
             dx[self.reservoirs.len()] = (nodes.i_out - nodes.i_load) / s.farads;
         }
-        self.probe(
+        let mut probe = self.probe(
             e,
             path_i,
             nodes.v_out,
@@ -336,7 +374,12 @@ impl PeriodicCircuit for Network {
             charge[0] - nodes.i_out,
             nodes.i_load,
             v_source.max(0.0),
-        )
+        );
+        if let LoadLaw::Current { knee_v, .. } = self.load {
+            edges[2] = nodes.v_out - knee_v;
+        }
+        probe.edges = edges;
+        probe
     }
 
     fn initial_guess(&self, x: &mut [f64]) {

@@ -63,6 +63,11 @@ impl MainsWave {
         self.gain * self.clip
     }
 
+    /// Phase where the flat top begins, radians, or None for a clean sine.
+    pub fn clip_phase(&self) -> Option<f64> {
+        (self.clip < 1.0).then(|| self.clip.asin())
+    }
+
     /// Phase of the first peak, radians: the start of the flat top (switch-on there is the worst
     /// inrush).
     pub fn peak_phase(&self) -> f64 {
