@@ -322,12 +322,15 @@ fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figures {
 /// The stronger of the line-frequency and twice-line components of the rail (hertz).
 fn ripple_frequency(line_hz: f64, probes: &[solver::Probe]) -> f64 {
     let n = probes.len() as f64;
+    // One DFT bin, the phasor turned by a fixed rotation each sample instead of a sine call.
     let amplitude = |k: f64| {
+        let (step_sin, step_cos) = (2.0 * PI * k / n).sin_cos();
+        let (mut c, mut s) = (1.0f64, 0.0f64);
         let (mut re, mut im) = (0.0, 0.0);
-        for (i, p) in probes.iter().enumerate() {
-            let phase = 2.0 * PI * k * i as f64 / n;
-            re += p.v_out * phase.cos();
-            im += p.v_out * phase.sin();
+        for p in probes {
+            re += p.v_out * c;
+            im += p.v_out * s;
+            (c, s) = (c * step_cos - s * step_sin, s * step_cos + c * step_sin);
         }
         (re * re + im * im).sqrt()
     };

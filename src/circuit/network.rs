@@ -269,6 +269,75 @@ impl Network {
             edges: [f64::NAN; EDGES],
         }
     }
+
+    /// The circuit at `t` seconds with capacitor voltages `x`: fills dV/dt and, when asked,
+    /// the probe; the switching functions are always filled.
+    fn run(&self, t: f64, x: &[f64], dx: &mut [f64], want_probe: bool) -> Probe {
+        let e = self.emf(t);
+        if self.reservoirs.is_empty() {
+            return self.unfiltered(e);
+        }
+        let base = self.nodes(x, [0.0; 2]);
+        let mut path_i = [0.0; 2];
+        let mut charge = [0.0; 2];
+        let mut v_source = f64::NEG_INFINITY;
+        let mut edges = [f64::NAN; EDGES];
+        for (j, p) in self.paths.iter().enumerate() {
+            let s = self.path_source(p, e);
+            let k = p.reservoir;
+            let others: f64 =
+                base.terminal[..self.reservoirs.len()].iter().sum::<f64>() - base.terminal[k];
+            v_source = v_source.max(s + others);
+            let open = s - base.terminal[k];
+            if let DiodeLaw::Fixed { drop_v, .. } = self.diode {
+                edges[j] = open - p.diodes as f64 * drop_v;
+            }
+            if open <= 0.0 {
+                continue;
+            }
+            // The terminal voltage is affine in this path's current: its slope is the
+            // resistance the diode sees looking into the filter.
+            let mut unit = [0.0; 2];
+            unit[k] = 1.0;
+            let slope = self.nodes(x, unit).terminal[k] - base.terminal[k];
+            let ohms = (p.ohms + slope).max(self.min_path_ohms);
+            let i = self.diode.string_current(open, ohms, p.diodes);
+            path_i[j] = i;
+            charge[k] += i;
+        }
+        // With every diode off the network is as it was at zero charging current.
+        let nodes = if charge == [0.0; 2] {
+            base
+        } else {
+            self.nodes(x, charge)
+        };
+        for (i, r) in self.reservoirs.iter().enumerate() {
+            dx[i] = (charge[i] - nodes.i_out) / r.farads;
+        }
+        if let Some(s) = self.second {
+            dx[self.reservoirs.len()] = (nodes.i_out - nodes.i_load) / s.farads;
+        }
+        if let LoadLaw::Current { knee_v, .. } = self.load {
+            edges[2] = nodes.v_out - knee_v;
+        }
+        if !want_probe {
+            return Probe {
+                edges,
+                ..Probe::default()
+            };
+        }
+        let mut probe = self.probe(
+            e,
+            path_i,
+            nodes.v_out,
+            nodes.terminal[0],
+            charge[0] - nodes.i_out,
+            nodes.i_load,
+            v_source.max(0.0),
+        );
+        probe.edges = edges;
+        probe
+    }
 }
 
 impl PeriodicCircuit for Network {
@@ -327,80 +396,49 @@ impl PeriodicCircuit for Network {
     }
 
     fn evaluate(&self, t: f64, x: &[f64], dx: &mut [f64]) -> Probe {
-        let e = self.emf(t);
-        if self.reservoirs.is_empty() {
-            return self.unfiltered(e);
-        }
-        let base = self.nodes(x, [0.0; 2]);
-        let mut path_i = [0.0; 2];
-        let mut charge = [0.0; 2];
-        let mut v_source = f64::NEG_INFINITY;
-        let mut edges = [f64::NAN; EDGES];
-        for (j, p) in self.paths.iter().enumerate() {
-            let s = self.path_source(p, e);
-            let k = p.reservoir;
-            let others: f64 =
-                base.terminal[..self.reservoirs.len()].iter().sum::<f64>() - base.terminal[k];
-            v_source = v_source.max(s + others);
-            let open = s - base.terminal[k];
-            if let DiodeLaw::Fixed { drop_v, .. } = self.diode {
-                edges[j] = open - p.diodes as f64 * drop_v;
-            }
-            if open <= 0.0 {
-                continue;
-            }
-            // The terminal voltage is affine in this path's current: its slope is the
-            // resistance the diode sees looking into the filter.
-            let mut unit = [0.0; 2];
-            unit[k] = 1.0;
-            let slope = self.nodes(x, unit).terminal[k] - base.terminal[k];
-            let ohms = (p.ohms + slope).max(self.min_path_ohms);
-            let i = self.diode.string_current(open, ohms, p.diodes);
-            path_i[j] = i;
-            charge[k] += i;
-        }
-        let nodes = self.nodes(x, charge);
-        for (i, r) in self.reservoirs.iter().enumerate() {
-            dx[i] = (charge[i] - nodes.i_out) / r.farads;
-        }
-        if let Some(s) = self.second {
-            dx[self.reservoirs.len()] = (nodes.i_out - nodes.i_load) / s.farads;
-        }
-        let mut probe = self.probe(
-            e,
-            path_i,
-            nodes.v_out,
-            nodes.terminal[0],
-            charge[0] - nodes.i_out,
-            nodes.i_load,
-            v_source.max(0.0),
-        );
-        if let LoadLaw::Current { knee_v, .. } = self.load {
-            edges[2] = nodes.v_out - knee_v;
-        }
-        probe.edges = edges;
-        probe
+        self.run(t, x, dx, true)
+    }
+
+    fn derivatives(&self, t: f64, x: &[f64], dx: &mut [f64]) -> [f64; EDGES] {
+        self.run(t, x, dx, false).edges
     }
 
     fn initial_guess(&self, x: &mut [f64]) {
-        // The hand estimate: the winding's peak less the diode drops, then the load's share.
+        // The constant-capacitor-voltage solution (the large omega-C-R limit of Schade's
+        // curves): the capacitor sits at E cos(phi), and the charging current through the path
+        // resistance over the conduction angle 2 phi, n pulses a period, averages
+        // n E (sin phi - phi cos phi) / (pi R). Matching it to the load gives phi; half the
+        // paper ripple below that is where a period starts.
         let peak = self.emf_rms_v * self.wave.crest();
         let mut working = 0.0;
+        let stacked = self.reservoirs.len() as f64;
         for (i, r) in self.reservoirs.iter().enumerate() {
             let p = self
                 .paths
                 .iter()
                 .find(|p| p.reservoir == i)
                 .unwrap_or(&self.paths[0]);
-            let w = (p.emf_share * peak - p.diodes as f64 * 0.7).max(0.0);
-            let i_load = self.load.current_at(w * self.reservoirs.len() as f64);
+            let e = (p.emf_share * peak - p.diodes as f64 * 0.75).max(0.0);
             let pulses = if p.polarity == Polarity::Rectified {
                 2.0
             } else {
                 1.0
             };
+            let ohms = (p.ohms + r.esr_ohms).max(self.min_path_ohms).max(1e-9);
+            let charging = |phi: f64| pulses * e * (phi.sin() - phi * phi.cos()) / (PI * ohms);
+            let (mut lo, mut hi) = (0.0f64, PI / 2.0);
+            for _ in 0..40 {
+                let mid = 0.5 * (lo + hi);
+                if charging(mid) < self.load.current_at(stacked * e * mid.cos()) {
+                    lo = mid;
+                } else {
+                    hi = mid;
+                }
+            }
+            let v = e * (0.5 * (lo + hi)).cos();
+            let i_load = self.load.current_at(stacked * v);
             let droop = i_load / (pulses * self.line_hz * r.farads);
-            x[i] = (w - 0.5 * droop.min(w)).max(0.0);
+            x[i] = (v - 0.5 * droop.min(v)).max(0.0);
             working += x[i];
         }
         if let Some(s) = self.second {

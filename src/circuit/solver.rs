@@ -41,6 +41,23 @@ pub struct Probe {
     pub edges: [f64; EDGES],
 }
 
+impl Probe {
+    /// The probe a fraction `s` of the way from `self` to `other`, each value drawn straight.
+    pub fn towards(&self, other: &Probe, s: f64) -> Probe {
+        let mix = |a: f64, b: f64| a + (b - a) * s;
+        Probe {
+            v_out: mix(self.v_out, other.v_out),
+            v_source: mix(self.v_source, other.v_source),
+            i_diode: mix(self.i_diode, other.i_diode),
+            v_reverse: mix(self.v_reverse, other.v_reverse),
+            i_winding: mix(self.i_winding, other.i_winding),
+            i_cap: mix(self.i_cap, other.i_cap),
+            i_load: mix(self.i_load, other.i_load),
+            edges: self.edges,
+        }
+    }
+}
+
 /// A circuit the solver can bring to its periodic steady state.
 pub trait PeriodicCircuit {
     /// Number of capacitor voltages (0 for an unfiltered rectifier), at most [`MAX_STATES`].
@@ -58,6 +75,11 @@ pub trait PeriodicCircuit {
     fn breakpoints_s(&self) -> Vec<f64>;
     /// Fills `dx` with dV/dt of each capacitor (V/s) at `t` seconds and returns the probe.
     fn evaluate(&self, t: f64, x: &[f64], dx: &mut [f64]) -> Probe;
+    /// As [`PeriodicCircuit::evaluate`], for when only the derivatives and the switching
+    /// functions are wanted (the Newton iterations), which a circuit may compute for less.
+    fn derivatives(&self, t: f64, x: &[f64], dx: &mut [f64]) -> [f64; EDGES] {
+        self.evaluate(t, x, dx).edges
+    }
     /// A start for Newton, volts; a hand estimate is close enough.
     fn initial_guess(&self, x: &mut [f64]);
 }
@@ -115,7 +137,7 @@ pub const SAMPLES: usize = 256;
 const RTOL: f64 = 1e-6;
 const MAX_STEPS: usize = 200_000;
 /// Fewest steps in one integration: a pulse shorter than a step could be stepped over unseen.
-const MIN_STEPS: f64 = 48.0;
+const MIN_STEPS: f64 = 24.0;
 
 // Dormand-Prince 5(4) tableau (Dormand & Prince 1980; as in Hairer, Norsett & Wanner).
 const C: [f64; 7] = [0.0, 0.2, 0.3, 0.8, 8.0 / 9.0, 1.0, 1.0];
@@ -170,7 +192,8 @@ enum Steps<'a> {
 
 /// Integrates dy/dt = f(t, y) from t0 to t1, adapting steps so that the first `controlled`
 /// components stay within RTOL (relative) and `atol` (absolute, per component); `on_step` sees each
-/// accepted step as (t, h, y_start, f_start, y_end, f_end).
+/// accepted step as (t, h, (y, dy/dt at its start, y, dy/dt at its end), probe at its start,
+/// probe at its end).
 #[allow(clippy::too_many_arguments)]
 fn integrate<F, S>(
     n: usize,
@@ -187,15 +210,15 @@ fn integrate<F, S>(
     mut on_step: S,
 ) -> Result<(), SolveError>
 where
-    F: FnMut(f64, &Vector, &mut Vector) -> [f64; EDGES],
-    S: FnMut(f64, f64, &Vector, &Vector, &Vector, &Vector),
+    F: FnMut(f64, &Vector, &mut Vector) -> Probe,
+    S: FnMut(f64, f64, (&Vector, &Vector, &Vector, &Vector), &Probe, &Probe),
 {
     let mut k: [Vector; 7] = [[0.0; WIDTH]; 7];
     let mut t = t0;
     let h_max = (t1 - t0) / MIN_STEPS;
     let mut h = h0.min(h_max);
-    let mut edges_start = f(t, y, &mut k[0]);
-    let mut edges_end = [f64::NAN; EDGES];
+    let mut probe_start = f(t, y, &mut k[0]);
+    let mut probe_end = probe_start;
     let mut uncut: Option<f64> = None;
     let mut refinements = 0;
     let mut steps = 0;
@@ -236,9 +259,10 @@ where
                 stage[i] = y[i] + h * acc;
             }
             let (_, rest) = k.split_at_mut(s);
-            let edges = f(t + C[s] * h, &stage, &mut rest[0]);
+            let probe = f(t + C[s] * h, &stage, &mut rest[0]);
             if s == 6 {
-                edges_end = edges;
+                // The last stage is evaluated at the step's end on the accepted solution.
+                probe_end = probe;
             }
         }
         // stage now holds the 5th-order solution (the 7th stage's argument, FSAL).
@@ -264,7 +288,7 @@ where
             // A diode law with a corner (a fixed drop) kinks the solution where a path starts
             // or stops conducting; like a source kink it must fall on a step's end. The
             // crossing is found by the secant on the path's overdrive.
-            if let Some(s) = first_crossing(&edges_start, &edges_end)
+            if let Some(s) = first_crossing(&probe_start.edges, &probe_end.edges)
                 && s > 1e-3
                 && s < 0.999
             {
@@ -276,11 +300,11 @@ where
         }
         if err <= 1.0 {
             refinements = 0;
-            edges_start = edges_end;
             if let Steps::Adaptive(record) = &mut steps_of {
                 record.push(h);
             }
-            on_step(t, h, y, &k[0], &stage, &k[6]);
+            on_step(t, h, (y, &k[0], &stage, &k[6]), &probe_start, &probe_end);
+            probe_start = probe_end;
             t = if last { t1 } else { t + h };
             y[..n].copy_from_slice(&stage[..n]);
             k[0] = k[6];
@@ -315,8 +339,7 @@ fn first_crossing(start: &[f64; EDGES], end: &[f64; EDGES]) -> Option<f64> {
     first
 }
 
-/// Cubic Hermite value at fraction `s` of a step of length `h` (third-order accurate; enough
-/// for samples and for finding a crest between steps).
+/// Cubic Hermite value at fraction `s` of a step of length `h` (third-order accurate).
 #[inline]
 fn hermite(y0: f64, f0: f64, y1: f64, f1: f64, h: f64, s: f64) -> f64 {
     let s2 = s * s;
@@ -337,7 +360,10 @@ fn period_map<Ckt: PeriodicCircuit + ?Sized>(
     let n = c.states();
     let mut y = [0.0; WIDTH];
     y[..n].copy_from_slice(x);
-    let mut f = |t: f64, y: &Vector, dy: &mut Vector| c.evaluate(t, &y[..n], &mut dy[..n]).edges;
+    let mut f = |t: f64, y: &Vector, dy: &mut Vector| Probe {
+        edges: c.derivatives(t, &y[..n], &mut dy[..n]),
+        ..Probe::default()
+    };
     let atol = [tolerance_v(c); WIDTH];
     let breaks = c.breakpoints_s();
     integrate(
@@ -352,7 +378,7 @@ fn period_map<Ckt: PeriodicCircuit + ?Sized>(
         &atol,
         &breaks,
         steps,
-        |_, _, _, _, _, _| {},
+        |_, _, _, _, _| {},
     )?;
     Ok(y[..n].to_vec())
 }
@@ -438,19 +464,14 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
             }
             // The replayed map is smooth, so Newton is quadratic on it and is run to well below
             // the tolerance. But the replayed steps were chosen for an earlier state, so the
-            // answer is confirmed by a period with steps chosen for itself. Its local errors
-            // add up over a period's hundred-odd steps (a lightly loaded capacitor forgets
-            // little), so it must come back to within 300 tolerances of where it started:
-            // 3e-4 of the ripple, a charge balance good to 0.03 %.
+            // answer is confirmed by the final pass, with steps chosen for itself (below).
+            // Local errors add up over a period's hundred-odd steps (a lightly loaded
+            // capacitor forgets little), so an error-controlled period must come back to
+            // within 300 tolerances of where it started: 3e-4 of the ripple, a charge balance
+            // good to 0.03 %.
             let worst_g = g.iter().fold(0.0f64, |m, v| m.max(v.abs()));
             if (fresh && worst_g <= 300.0 * tol) || (!fresh && longest <= 1e-2 * tol) {
-                if fresh {
-                    break;
-                }
-                g = sub(&period_map(c, &x, &mut h0, Steps::Adaptive(&mut grid))?, &x);
-                integrations += 1;
-                fresh = true;
-                continue;
+                break;
             }
             let mut x_new: Vec<f64> = x.iter().zip(&step).map(|(a, b)| a + b).collect();
             // A long step moves the conduction pulses: let the integrator find its steps anew.
@@ -552,6 +573,23 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
     Ok(state)
 }
 
+/// What the final pass integrates over the period: the rail, its ripple about `ripple_ref_v`
+/// squared, the diode current and its square, the winding's and capacitor's squares, the
+/// load current and the capacitor current.
+fn integrands(p: &Probe, ripple_ref_v: f64) -> [f64; QUADRATURES] {
+    let r = p.v_out - ripple_ref_v;
+    [
+        p.v_out,
+        r * r,
+        p.i_diode,
+        p.i_diode * p.i_diode,
+        p.i_winding * p.i_winding,
+        p.i_cap * p.i_cap,
+        p.i_load,
+        p.i_cap,
+    ]
+}
+
 /// Absolute tolerance on the capacitor voltages, volts: 1e-5 of the ripple keeps the charge
 /// balance of a period within 1e-4, bounded to 1e-10..1e-7 of the winding's peak.
 fn tolerance_v<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> f64 {
@@ -579,17 +617,8 @@ fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     y[..n].copy_from_slice(x);
     let mut f = |t: f64, y: &Vector, dy: &mut Vector| {
         let p = c.evaluate(t, &y[..n], &mut dy[..n]);
-        let q = &mut dy[n..n + QUADRATURES];
-        let r = p.v_out - ripple_ref_v;
-        q[0] = p.v_out;
-        q[1] = r * r;
-        q[2] = p.i_diode;
-        q[3] = p.i_diode * p.i_diode;
-        q[4] = p.i_winding * p.i_winding;
-        q[5] = p.i_cap * p.i_cap;
-        q[6] = p.i_load;
-        q[7] = p.i_cap;
-        p.edges
+        dy[n..n + QUADRATURES].copy_from_slice(&integrands(&p, ripple_ref_v));
+        p
     };
     let mut t_s = Vec::with_capacity(SAMPLES);
     let mut probes = Vec::with_capacity(SAMPLES);
@@ -599,14 +628,13 @@ fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     let dt = period / SAMPLES as f64;
     if n == 0 {
         // Nothing to integrate but the averages: Simpson's rule on a fine fixed grid.
-        let fine = 16 * SAMPLES;
+        // Simpson's rule with every sample instant a node.
+        let fine = SAMPLES;
         let h = period / fine as f64;
-        let mut dy = [0.0; WIDTH];
         let mut acc = [0.0; QUADRATURES];
-        let y0 = [0.0; WIDTH];
         for i in 0..=fine {
             let t = i as f64 * h;
-            f(t, &y0, &mut dy);
+            let p = c.evaluate(t, &[], &mut []);
             let w = if i == 0 || i == fine {
                 1.0
             } else if i % 2 == 1 {
@@ -614,12 +642,11 @@ fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
             } else {
                 2.0
             };
-            for q in 0..QUADRATURES {
-                acc[q] += w * dy[q] * h / 3.0;
+            for (a, v) in acc.iter_mut().zip(integrands(&p, ripple_ref_v)) {
+                *a += w * v * h / 3.0;
             }
-            let p = c.evaluate(t, &[], &mut []);
             extremes.push(p);
-            if i % 16 == 0 && i < fine {
+            if i < fine {
                 t_s.push(t);
                 probes.push(p);
             }
@@ -631,7 +658,7 @@ fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         // mean squares need no control of their own.
         let mut atol = [f64::INFINITY; WIDTH];
         atol[..n].fill(tolerance_v(c));
-        let charge = 1e-7 * first.i_load.abs().max(1e-9) * period;
+        let charge = 1e-6 * first.i_load.abs().max(1e-9) * period;
         atol[n] = tolerance_v(c) * period;
         for q in [2, 6, 7] {
             atol[n + q] = charge;
@@ -649,24 +676,30 @@ fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
             &atol,
             &c.breakpoints_s(),
             Steps::Adaptive(&mut Vec::new()),
-            |t, h, y0, f0, y1, f1| {
-                let mut at = [0.0; MAX_STATES];
-                let mut dx = [0.0; MAX_STATES];
+            |t, h, (y0, f0, y1, f1), start, end| {
+                // Steps are short wherever the waveform bends (the pulses), so the even
+                // samples are drawn straight between step ends; the extremes come from the
+                // step ends themselves.
                 while next < SAMPLES && (next as f64) * dt < t + h {
                     let ts = next as f64 * dt;
                     let s = ((ts - t) / h).clamp(0.0, 1.0);
-                    for i in 0..n {
-                        at[i] = hermite(y0[i], f0[i], y1[i], f1[i], h, s);
-                    }
                     t_s.push(ts);
-                    probes.push(c.evaluate(ts, &at[..n], &mut dx[..n]));
+                    probes.push(start.towards(end, s));
                     next += 1;
                 }
-                at[..n].copy_from_slice(&y1[..n]);
-                extremes.push(c.evaluate(t + h, &at[..n], &mut dx[..n]));
+                extremes.push(*end);
+                // A pulse's crest lies between step ends: look at the middle of each step in
+                // which a diode conducts, from the interpolated state.
+                if start.i_diode > 0.0 || end.i_diode > 0.0 {
+                    let mut mid = [0.0; MAX_STATES];
+                    for i in 0..n {
+                        mid[i] = hermite(y0[i], f0[i], y1[i], f1[i], h, 0.5);
+                    }
+                    let mut dx = [0.0; MAX_STATES];
+                    extremes.push(c.evaluate(t + 0.5 * h, &mid[..n], &mut dx[..n]));
+                }
             },
         )?;
-        extremes.extend_from_slice(&probes);
         end = y[..n].to_vec();
         let q: Vec<f64> = y[n..n + QUADRATURES].to_vec();
         y[..QUADRATURES].copy_from_slice(&q);
