@@ -29,21 +29,19 @@ enum Command {
     },
 }
 
-/// Bad input: the message goes to stderr and the exit status is 2.
-struct BadInput(anyhow::Error);
-
 fn main() -> ExitCode {
     let cli = Cli::parse();
     match try_main(cli) {
         Ok(code) => code,
-        Err(BadInput(e)) => {
+        // Bad input or I/O trouble: the message goes to stderr and the exit status is 2.
+        Err(e) => {
             eprintln!("railcheck: {e:#}");
             ExitCode::from(2)
         }
     }
 }
 
-fn try_main(cli: Cli) -> Result<ExitCode, BadInput> {
+fn try_main(cli: Cli) -> Result<ExitCode> {
     match cli.command {
         None => {
             use clap::CommandFactory;
@@ -61,7 +59,9 @@ fn load(path: &std::path::Path) -> Result<Supply> {
     Supply::from_toml_str(&text).map_err(|e| anyhow::anyhow!("{}: {e}", path.display()))
 }
 
-fn run_report(files: &[std::path::PathBuf], json: bool) -> Result<ExitCode, BadInput> {
+/// Reports each file in turn; a file that cannot be read or solved is named on stderr and the
+/// rest still report (exit status 2 if any failed).
+fn run_report(files: &[std::path::PathBuf], json: bool) -> Result<ExitCode> {
     let mut failed = false;
     let mut first = true;
     for path in files {
@@ -83,9 +83,6 @@ fn run_report(files: &[std::path::PathBuf], json: bool) -> Result<ExitCode, BadI
             }
         }
         first = false;
-    }
-    if failed && files.len() == 1 {
-        return Err(BadInput(anyhow::anyhow!("no report")));
     }
     Ok(if failed {
         ExitCode::from(2)

@@ -780,7 +780,13 @@ fn syntax_error(text: &str, e: &toml::de::Error) -> SupplyError {
             let before = &text[..start];
             let line = before.matches('\n').count() + 1;
             let column = before.chars().rev().take_while(|&c| c != '\n').count() + 1;
-            (Some(line), Some(column), key_at_line(text, line))
+            // A missing key has no line of its own: the span is the table it should be in.
+            let key = if e.message().starts_with("missing field") {
+                None
+            } else {
+                key_at_line(text, line)
+            };
+            (Some(line), Some(column), key)
         }
         None => (None, None, None),
     };

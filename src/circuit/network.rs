@@ -188,6 +188,16 @@ impl Network {
         }
     }
 
+    /// A doubler with both legs working: e(t + T/2) = -e(t) turns each capacitor's half cycle
+    /// into the other's.
+    fn is_symmetric_doubler(&self) -> bool {
+        self.paths.len() == 2
+            && self.reservoirs.len() == 2
+            && self.paths[0].polarity == Polarity::Forward
+            && self.paths[1].polarity == Polarity::Inverted
+            && self.reservoirs[0] == self.reservoirs[1]
+    }
+
     /// A rectifier with no filter capacitor: the rail is wherever the diode and load agree.
     fn unfiltered(&self, e: f64) -> Probe {
         let p = &self.paths[0];
@@ -346,11 +356,18 @@ impl PeriodicCircuit for Network {
     }
 
     fn period_s(&self) -> f64 {
-        let symmetric = self.paths.len() == 1 && self.paths[0].polarity == Polarity::Rectified;
-        if symmetric {
+        let full_wave = self.paths.len() == 1 && self.paths[0].polarity == Polarity::Rectified;
+        if full_wave || self.is_symmetric_doubler() {
             0.5 / self.line_hz
         } else {
             1.0 / self.line_hz
+        }
+    }
+
+    fn after_period(&self, x: &mut [f64]) {
+        // Half a cycle on, a doubler's two capacitors have traded places.
+        if self.is_symmetric_doubler() {
+            x.swap(0, 1);
         }
     }
 
@@ -374,7 +391,7 @@ impl PeriodicCircuit for Network {
         if !farads.is_finite() {
             return peak;
         }
-        let pulses = if self.period_s() < 0.75 / self.line_hz {
+        let pulses = if self.paths[0].polarity == Polarity::Rectified {
             2.0
         } else {
             1.0

@@ -64,6 +64,10 @@ pub trait PeriodicCircuit {
     fn states(&self) -> usize;
     /// The circuit's own period in seconds (half the mains period for a symmetric full-wave).
     fn period_s(&self) -> f64;
+    /// Maps the state at the end of [`PeriodicCircuit::period_s`] onto the state the circuit
+    /// starts its next period from: a circuit that repeats after half a cycle with its
+    /// capacitors traded (a doubler) swaps them here. Most circuits need nothing.
+    fn after_period(&self, _x: &mut [f64]) {}
     /// The mains period in seconds, over which the figures are taken.
     fn line_period_s(&self) -> f64;
     /// Volts that set the scale of the tolerances (the winding's peak).
@@ -380,6 +384,7 @@ fn period_map<Ckt: PeriodicCircuit + ?Sized>(
         steps,
         |_, _, _, _, _| {},
     )?;
+    c.after_period(&mut y[..n]);
     Ok(y[..n].to_vec())
 }
 
@@ -475,7 +480,7 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
             }
             let mut x_new: Vec<f64> = x.iter().zip(&step).map(|(a, b)| a + b).collect();
             // A long step moves the conduction pulses: let the integrator find its steps anew.
-            fresh = longest > 1e-3 * scale;
+            fresh = longest > 1e-4 * scale;
             let steps = if fresh {
                 Steps::Adaptive(&mut grid)
             } else {

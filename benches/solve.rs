@@ -1,0 +1,79 @@
+//! Speed of the engine: one steady-state solve (capacitor input, unfiltered, across load time
+//! constants, the doubler and CRC with two states) and a 20-file report in one process.
+//! Run: cargo bench --bench solve
+
+use criterion::{BenchmarkId, Criterion, criterion_group, criterion_main};
+use railcheck::{Conditions, Supply, report, solve};
+use std::hint::black_box;
+use std::path::Path;
+
+fn load(path: &str) -> Supply {
+    let full = Path::new(env!("CARGO_MANIFEST_DIR")).join(path);
+    Supply::from_toml_str(&std::fs::read_to_string(full).unwrap()).unwrap()
+}
+
+fn single_solves(c: &mut Criterion) {
+    let mut g = c.benchmark_group("solve");
+    let bridge = load("examples/pump-house-relay-rail.toml");
+    g.bench_function("capacitor_input_bridge", |b| {
+        b.iter(|| solve(black_box(&bridge), &Conditions::default()).unwrap())
+    });
+    let bare = load("examples/float-switch-lamps.toml");
+    g.bench_function("unfiltered_bridge", |b| {
+        b.iter(|| solve(black_box(&bare), &Conditions::default()).unwrap())
+    });
+    let doubler = load("examples/chart-recorder-ht.toml");
+    g.bench_function("doubler_two_states", |b| {
+        b.iter(|| solve(black_box(&doubler), &Conditions::default()).unwrap())
+    });
+    let crc = load("examples/intercom-preamp.toml");
+    g.bench_function("crc_two_states", |b| {
+        b.iter(|| solve(black_box(&crc), &Conditions::default()).unwrap())
+    });
+    g.finish();
+}
+
+fn time_constants(c: &mut Criterion) {
+    // The same 2200 uF bridge with a resistive load from 10 ohm to 10 kohm: R C from 22 ms
+    // (one period) to 22 s (a thousand periods).
+    let mut g = c.benchmark_group("load_time_constant");
+    let base = load("examples/pump-house-relay-rail.toml");
+    for ohms in [10.0, 100.0, 1000.0, 10000.0] {
+        let mut s = base.clone();
+        s.load.amps = None;
+        s.load.min_amps = None;
+        s.load.max_amps = None;
+        s.load.ohms = Some(ohms);
+        let rc_ms = ohms * 2200e-6 * 1e3;
+        g.bench_with_input(BenchmarkId::new("rc_ms", rc_ms as u64), &s, |b, s| {
+            b.iter(|| solve(black_box(s), &Conditions::default()).unwrap())
+        });
+    }
+    g.finish();
+}
+
+fn twenty_reports(c: &mut Criterion) {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let mut files: Vec<_> = std::fs::read_dir(root.join("examples"))
+        .unwrap()
+        .chain(std::fs::read_dir(root.join("tests/reference/supplies")).unwrap())
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
+        .collect();
+    files.sort();
+    files.truncate(20);
+    assert_eq!(files.len(), 20);
+    c.bench_function("report_20_files", |b| {
+        b.iter(|| {
+            for f in &files {
+                let text = std::fs::read_to_string(f).unwrap();
+                let s = Supply::from_toml_str(&text).unwrap();
+                let r = report::build(s, &f.display().to_string()).unwrap();
+                black_box(r.json().to_string());
+            }
+        })
+    });
+}
+
+criterion_group!(benches, single_solves, time_constants, twenty_reports);
+criterion_main!(benches);

@@ -1,0 +1,215 @@
+//! The command line as a technician uses it: reports of the example supplies, JSON for
+//! scripts, and clear refusals (exit status 2) for bad files.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn railcheck(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_railcheck"))
+        .args(args)
+        .output()
+        .expect("railcheck runs")
+}
+
+fn examples() -> Vec<PathBuf> {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
+    let mut files: Vec<PathBuf> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
+        .collect();
+    files.sort();
+    files
+}
+
+const FIGURES: [&str; 16] = [
+    "dc_v",
+    "max_v",
+    "min_v",
+    "ripple_pp_v",
+    "ripple_rms_v",
+    "ripple_hz",
+    "load_a",
+    "diode_peak_a",
+    "diode_avg_a",
+    "diode_rms_a",
+    "diode_piv_v",
+    "winding_rms_a",
+    "winding_va",
+    "cap_ripple_rms_a",
+    "conduction_deg",
+    "inrush_peak_a",
+];
+
+#[test]
+fn examples_cover_every_topology_and_report() {
+    let files = examples();
+    let mut topologies = std::collections::BTreeSet::new();
+    let args: Vec<String> = files.iter().map(|p| p.display().to_string()).collect();
+    let mut argv = vec!["report", "--json"];
+    argv.extend(args.iter().map(String::as_str));
+    let out = railcheck(&argv);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8(out.stdout).unwrap();
+    let lines: Vec<&str> = text.lines().collect();
+    assert_eq!(lines.len(), files.len(), "one JSON line per file");
+    for line in lines {
+        let v: serde_json::Value = serde_json::from_str(line).expect("each line parses");
+        topologies.insert(v["topology"].as_str().unwrap().to_string());
+        for key in FIGURES {
+            assert!(
+                v["nominal"].get(key).is_some(),
+                "{key} missing for {}",
+                v["name"]
+            );
+        }
+        let wave = &v["nominal"]["waveform"];
+        assert!(wave["v_out"].as_array().unwrap().len() >= 200);
+        assert!(v["hand_estimate"]["dc_v"].as_f64().unwrap() > 0.0);
+        assert!(
+            v["cautions"]
+                .as_array()
+                .unwrap()
+                .iter()
+                .any(|c| c.as_str().unwrap().contains("local codes"))
+        );
+        for key in ["name", "file", "worst_case", "checks"] {
+            assert!(v.get(key).is_some(), "{key} missing");
+        }
+    }
+    for t in ["half-wave", "center-tap", "bridge", "doubler", "split-rail"] {
+        assert!(topologies.contains(t), "no example of {t}");
+    }
+}
+
+#[test]
+fn text_report_names_figures_with_units() {
+    let file = examples()[0].display().to_string();
+    let out = railcheck(&["report", &file]);
+    assert!(out.status.success());
+    let text = String::from_utf8(out.stdout).unwrap();
+    for needle in [
+        "DC (meter, average)",
+        "Ripple peak-peak",
+        "Hand estimate",
+        "Cautions",
+        " V",
+    ] {
+        assert!(text.contains(needle), "{needle:?} not in:\n{text}");
+    }
+}
+
+fn write_temp(name: &str, text: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("railcheck-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let path = dir.join(name);
+    std::fs::write(&path, text).unwrap();
+    path
+}
+
+const GOOD: &str = r#"format = 1
+name = "cli test"
+[mains]
+vrms = 230.0
+hz = 50.0
+[transformer]
+ratio = 9.58
+secondary_ohms = 1.8
+[rectifier]
+topology = "bridge"
+[filter]
+kind = "capacitor"
+uf = 2200.0
+[load]
+amps = 0.35
+"#;
+
+#[test]
+fn bad_files_are_refused_with_file_key_value_and_range() {
+    let cases = [
+        (
+            "missing.toml",
+            GOOD.replace("amps = 0.35\n", ""),
+            vec!["load.amps"],
+        ),
+        (
+            "negative.toml",
+            GOOD.replace("uf = 2200.0", "uf = -47.0"),
+            vec!["filter.uf", "-47", "above 0"],
+        ),
+        (
+            "topology.toml",
+            GOOD.replace("\"bridge\"", "\"triple\""),
+            vec!["rectifier.topology", "triple", "half-wave"],
+        ),
+        (
+            "ratio.toml",
+            GOOD.replace("ratio = 9.58", "ratio = 0.0"),
+            vec!["transformer.ratio", "got 0"],
+        ),
+        (
+            "text.toml",
+            GOOD.replace("hz = 50.0", "hz = \"fifty\""),
+            vec!["mains.hz", "line 5"],
+        ),
+        (
+            "nottoml.toml",
+            "this is [not toml".to_string(),
+            vec!["line 1"],
+        ),
+    ];
+    for (name, text, needles) in cases {
+        let path = write_temp(name, &text);
+        let out = railcheck(&["report", &path.display().to_string()]);
+        assert_eq!(out.status.code(), Some(2), "{name} should exit 2");
+        let err = String::from_utf8(out.stderr).unwrap();
+        assert!(
+            err.contains(name),
+            "{name}: the message names the file: {err}"
+        );
+        for n in needles {
+            assert!(err.contains(n), "{name}: {n:?} not in {err}");
+        }
+        assert!(!err.contains("panicked"), "{name}: {err}");
+    }
+}
+
+#[test]
+fn absurd_but_legal_values_solve_or_are_refused_with_a_reason() {
+    // A 1 F reservoir and a 10 kV secondary: legal, extreme, and must not hang or panic.
+    for (name, text) in [
+        (
+            "one_farad.toml",
+            GOOD.replace("uf = 2200.0", "uf = 1000000.0"),
+        ),
+        (
+            "ten_kv.toml",
+            GOOD.replace("vrms = 230.0", "vrms = 1000.0")
+                .replace("ratio = 9.58", "ratio = 0.1"),
+        ),
+    ] {
+        let path = write_temp(name, &text);
+        let out = railcheck(&["report", "--json", &path.display().to_string()]);
+        let code = out.status.code();
+        assert!(code == Some(0) || code == Some(2), "{name}: {code:?}");
+        if code == Some(0) {
+            let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+            assert!(v["nominal"]["dc_v"].as_f64().unwrap().is_finite());
+        } else {
+            assert!(!out.stderr.is_empty());
+        }
+    }
+}
+
+#[test]
+fn one_bad_file_among_good_ones_still_reports_the_rest() {
+    let bad = write_temp("bad_among.toml", "format = 1\n");
+    let good = examples()[0].display().to_string();
+    let out = railcheck(&["report", "--json", &good, &bad.display().to_string()]);
+    assert_eq!(out.status.code(), Some(2));
+    assert_eq!(String::from_utf8(out.stdout).unwrap().lines().count(), 1);
+}
