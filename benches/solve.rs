@@ -68,7 +68,7 @@ fn twenty_reports(c: &mut Criterion) {
             for f in &files {
                 let text = std::fs::read_to_string(f).unwrap();
                 let s = Supply::from_toml_str(&text).unwrap();
-                let r = report::build(s, &f.display().to_string()).unwrap();
+                let r = report::build_default(s, &f.display().to_string()).unwrap();
                 black_box(r.json().to_string());
             }
         })

@@ -1,7 +1,9 @@
 //! The report of one supply, as aligned text and as one JSON object. Pure formatting: the
 //! command line prints it, the tests read it.
 
-use crate::analysis::cautions::cautions;
+use crate::analysis::cautions::{SAFE_TOUCH_V, cautions};
+use crate::analysis::checks::{self, Check, Status};
+use crate::analysis::worst_case::{self, WorstCase};
 use crate::circuit::{self, CircuitError, Figures, HandEstimate, Operating};
 use crate::supply::{Supply, Topology};
 use crate::units::format_si;
@@ -15,22 +17,41 @@ pub struct Report {
     pub nominal: Operating,
     pub hand: HandEstimate,
     pub differences: Vec<String>,
+    pub worst: WorstCase,
+    pub checks: Vec<Check>,
+    /// Checks skipped because the file gives no rating for them.
+    pub not_rated: Vec<&'static str>,
+    /// Whether the voltage checks assumed no load (none stated).
+    pub stress_no_load: bool,
     pub cautions: Vec<String>,
 }
 
-/// Solves `supply` (read from `file`) and gathers what its report shows.
-pub fn build(supply: Supply, file: &str) -> Result<Report, CircuitError> {
+/// Solves `supply` (read from `file`) at nominal and over its tolerance box and gathers what
+/// its report shows; `touch_v` is the voltage taken as safe to touch (volts).
+pub fn build(supply: Supply, file: &str, touch_v: f64) -> Result<Report, CircuitError> {
     let (nominal, hand) = circuit::solve_nominal(&supply)?;
     let differences = circuit::hand_differences(&supply, &nominal, &hand);
-    let cautions = cautions(&supply, nominal.figures.max_v);
+    let worst = worst_case::worst_case(&supply)?;
+    let (stress, stress_no_load) = worst_case::voltage_stress(&supply)?;
+    let (checks, not_rated) = checks::checks(&supply, &worst, &stress, stress_no_load);
+    let cautions = cautions(&supply, stress.max_v, touch_v);
     Ok(Report {
         supply,
         file: file.to_string(),
         nominal,
         hand,
         differences,
+        worst,
+        checks,
+        not_rated,
+        stress_no_load,
         cautions,
     })
+}
+
+/// [`build`] with the usual 60 V touch limit.
+pub fn build_default(supply: Supply, file: &str) -> Result<Report, CircuitError> {
+    build(supply, file, SAFE_TOUCH_V)
 }
 
 /// Each figure's label, JSON name, value and unit, in the report's order.
@@ -67,6 +88,7 @@ pub fn figure_rows(f: &Figures) -> Vec<(&'static str, &'static str, Option<f64>,
             "deg",
         ),
         ("Switch-on surge", "inrush_peak_a", f.inrush_peak_a, "A"),
+        ("Capacitor peak", "cap_peak_v", Some(f.cap_peak_v), "V"),
     ]
 }
 
@@ -80,6 +102,11 @@ fn show(value: Option<f64>, unit: &str) -> String {
 }
 
 impl Report {
+    /// Whether any rating check failed (the command's exit status 1).
+    pub fn any_failed(&self) -> bool {
+        self.checks.iter().any(|c| c.status == Status::Fail)
+    }
+
     /// The aligned text report.
     pub fn text(&self) -> String {
         let s = &self.supply;
@@ -108,10 +135,53 @@ impl Report {
                 s.transformer.rated_va.unwrap_or(0.0)
             ));
         }
+        out.push_str(&format!(
+            "  tolerances: {}\n",
+            self.worst.tolerances.join("; ")
+        ));
         out.push('\n');
-        out.push_str(&format!("  {:<24}{:>12}\n", "Figure", "Nominal"));
-        for (label, _, value, unit) in figure_rows(&self.nominal.figures) {
-            out.push_str(&format!("  {:<24}{:>12}\n", label, show(value, unit)));
+        // Corners are long in words: the table names them by letter, the legend spells them.
+        let mut legend: Vec<String> = Vec::new();
+        let mut letter = |words: &str| -> String {
+            let i = match legend.iter().position(|w| w == words) {
+                Some(i) => i,
+                None => {
+                    legend.push(words.to_string());
+                    legend.len() - 1
+                }
+            };
+            char::from(b'A' + (i % 26) as u8).to_string()
+        };
+        out.push_str(&format!(
+            "  {:<22}{:>10}{:>12}{:>4}{:>12}{:>4}\n",
+            "Figure", "Nominal", "Worst min", "", "Worst max", ""
+        ));
+        for (label, name, value, unit) in figure_rows(&self.nominal.figures) {
+            let (lo, lo_at, hi, hi_at) = match self.worst.extent(name) {
+                Some(e) => (
+                    show(Some(e.min), unit),
+                    letter(&e.min_at),
+                    show(Some(e.max), unit),
+                    letter(&e.max_at),
+                ),
+                None => ("--".into(), String::new(), "--".into(), String::new()),
+            };
+            out.push_str(&format!(
+                "  {:<22}{:>10}{:>12} {:<3}{:>12} {:<3}\n",
+                label,
+                show(value, unit),
+                lo,
+                lo_at,
+                hi,
+                hi_at
+            ));
+        }
+        for (i, words) in legend.iter().enumerate() {
+            out.push_str(&format!(
+                "   {}: {}\n",
+                char::from(b'A' + (i % 26) as u8),
+                words
+            ));
         }
         let h = &self.hand;
         out.push_str("\n  Hand estimate (paper method)\n");
@@ -132,6 +202,21 @@ impl Report {
                 out.push_str(&format!("  - {d}\n"));
             }
         }
+        out.push_str("\n  Checks\n");
+        for c in &self.checks {
+            out.push_str(&format!(
+                "  {:<5} {:<22} {}\n",
+                c.status.word(),
+                c.id,
+                c.message
+            ));
+        }
+        if !self.not_rated.is_empty() {
+            out.push_str(&format!(
+                "  not rated (no rating in the file): {}\n",
+                self.not_rated.join(", ")
+            ));
+        }
         out.push_str("\n  Cautions\n");
         for c in &self.cautions {
             out.push_str(&format!("  ! {c}\n"));
@@ -144,6 +229,12 @@ impl Report {
         let mut nominal = serde_json::to_value(&self.nominal.figures).expect("figures serialise");
         nominal["waveform"] =
             serde_json::to_value(&self.nominal.waveform).expect("waveform serialises");
+        let worst: serde_json::Map<String, Value> = self
+            .worst
+            .extents
+            .iter()
+            .map(|(name, e)| (name.to_string(), serde_json::to_value(e).expect("extent")))
+            .collect();
         json!({
             "name": self.supply.name,
             "file": self.file,
@@ -152,8 +243,15 @@ impl Report {
             "nominal": nominal,
             "hand_estimate": self.hand,
             "hand_differences": self.differences,
-            "worst_case": {},
-            "checks": [],
+            "tolerances": self.worst.tolerances,
+            "worst_case": worst,
+            "checks": self.checks,
+            "not_rated": self.not_rated,
+            "voltage_checks_at": if self.stress_no_load {
+                "high line, no load (no minimum load stated)"
+            } else {
+                "high line, lightest load"
+            },
             "cautions": self.cautions,
         })
     }

@@ -213,3 +213,60 @@ fn one_bad_file_among_good_ones_still_reports_the_rest() {
     assert_eq!(out.status.code(), Some(2));
     assert_eq!(String::from_utf8(out.stdout).unwrap().lines().count(), 1);
 }
+
+#[test]
+fn size_answers_for_every_example() {
+    for file in examples() {
+        let f = file.display().to_string();
+        for target in [["--ripple-pp", "1.0"], ["--headroom", "2.0"]] {
+            let out = railcheck(&["size", &f, target[0], target[1], "--json"]);
+            let err = String::from_utf8_lossy(&out.stderr);
+            if out.status.code() == Some(2) {
+                // A target a winding cannot reach is refused with its reason, not a guess.
+                assert!(
+                    err.contains("no capacitance up to 1 F"),
+                    "{f} {target:?}: {err}"
+                );
+                continue;
+            }
+            assert!(out.status.success(), "{f} {target:?}: {err}");
+            let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+            let caps = v["capacitors"].as_array().unwrap();
+            assert_eq!(caps.len(), 2, "E12 and E6");
+            for c in caps {
+                let uf = c["uf"].as_f64().unwrap();
+                assert!((1.0..=1e6).contains(&uf));
+                if target[0] == "--ripple-pp" {
+                    assert!(c["worst_ripple_pp_v"].as_f64().unwrap() <= 1.0);
+                }
+                if let Some(r) = c["rated_v"].as_f64() {
+                    assert!(r * 0.8 >= c["worst_peak_v"].as_f64().unwrap());
+                }
+            }
+            // E6 is a subset of E12, so its answer is never smaller.
+            assert!(caps[1]["uf"].as_f64().unwrap() >= caps[0]["uf"].as_f64().unwrap());
+        }
+    }
+}
+
+#[test]
+fn size_is_the_smallest_preferred_value_that_meets_the_target() {
+    let f = examples()
+        .into_iter()
+        .find(|p| p.ends_with("pump-house-relay-rail.toml"))
+        .unwrap()
+        .display()
+        .to_string();
+    let out = railcheck(&["size", &f, "--ripple-pp", "0.5", "--json"]);
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let e12 = v["capacitors"][0]["uf"].as_f64().unwrap();
+    // The next E12 value down must miss the target.
+    let e12_values: Vec<f64> =
+        railcheck::analysis::sizing::preferred_uf(&railcheck::analysis::sizing::E12);
+    let i = e12_values.iter().position(|&x| x == e12).unwrap();
+    let text = std::fs::read_to_string(&f).unwrap();
+    let mut s = railcheck::supply::Supply::from_toml_str(&text).unwrap();
+    s.filter.uf = Some(e12_values[i - 1]);
+    let wc = railcheck::analysis::worst_case::worst_case(&s).unwrap();
+    assert!(wc.extent("ripple_pp_v").unwrap().max > 0.5);
+}

@@ -6,29 +6,35 @@ use crate::supply::{FilterKind, Supply, Topology};
 /// (60 V, from memory of the usual limit); below it a charged capacitor is taken as safe.
 pub const SAFE_TOUCH_V: f64 = 60.0;
 
-/// Energy stored in the filter capacitance at `volts`, joules: C V^2 / 2 (textbook).
-pub fn stored_energy_j(supply: &Supply, volts: f64) -> f64 {
+/// The filter capacitance seen across the rail at its highest tolerance, farads: a doubler's
+/// two capacitors in series, a CRC's two counted together.
+pub fn rail_farads(supply: &Supply) -> f64 {
     let f = &supply.filter;
     if f.kind == FilterKind::None {
         return 0.0;
     }
-    let c = f.uf.unwrap_or(0.0) * 1e-6;
+    let high = 1.0 + f.high_pct / 100.0;
+    let c = f.uf.unwrap_or(0.0) * 1e-6 * high;
     let c = if supply.rectifier.topology == Topology::Doubler {
-        // Two equal capacitors in series across the rail.
         c / 2.0
     } else {
         c
     };
     let second = if f.kind == FilterKind::Crc {
-        f.second_uf.unwrap_or(0.0) * 1e-6
+        f.second_uf.unwrap_or(0.0) * 1e-6 * high
     } else {
         0.0
     };
-    0.5 * (c + second) * volts * volts
+    c + second
 }
 
-/// Seconds for a capacitance of `farads` to fall from `from_v` to `to_v` through `ohms`:
-/// tau ln(V0/V), tau = R C (textbook RC discharge).
+/// Energy stored in `farads` at `volts`, joules: C V^2 / 2 (textbook).
+pub fn stored_energy_j(farads: f64, volts: f64) -> f64 {
+    0.5 * farads * volts * volts
+}
+
+/// Seconds for `farads` to fall from `from_v` to `to_v` through `ohms`: tau ln(V0/V),
+/// tau = R C (textbook RC discharge).
 pub fn discharge_s(farads: f64, ohms: f64, from_v: f64, to_v: f64) -> f64 {
     if from_v <= to_v {
         return 0.0;
@@ -36,38 +42,59 @@ pub fn discharge_s(farads: f64, ohms: f64, from_v: f64, to_v: f64) -> f64 {
     ohms * farads * (from_v / to_v).ln()
 }
 
-/// The cautions for `supply` whose rail peaks at `peak_v` volts, in plain words.
-pub fn cautions(supply: &Supply, peak_v: f64) -> Vec<String> {
+/// The cautions for `supply` whose rail reaches `peak_v` volts at high line, with `touch_v`
+/// the voltage taken as safe to touch (volts).
+pub fn cautions(supply: &Supply, peak_v: f64, touch_v: f64) -> Vec<String> {
     let mut out = vec![format!(
         "Mains hazard: the primary side runs at {:.0} V and can kill; work on it only isolated \
          and locked out.",
         supply.mains.vrms
     )];
-    let energy = stored_energy_j(supply, peak_v);
-    if energy > 0.0 {
+    let farads = rail_farads(supply);
+    if farads > 0.0 {
+        let energy = stored_energy_j(farads, peak_v);
         let mut line = format!(
-            "Stored energy: the filter holds {:.2} J at {:.1} V.",
-            energy, peak_v
+            "Stored energy: the filter holds up to {energy:.2} J at {peak_v:.1} V (high line)."
         );
-        if peak_v > SAFE_TOUCH_V {
+        if peak_v > touch_v {
             line.push_str(&format!(
-                " Above {SAFE_TOUCH_V:.0} V DC: discharge through a resistor and check with a meter \
+                " Above {touch_v:.0} V DC: discharge through a resistor and check with a meter \
                  before touching."
             ));
         }
         out.push(line);
-    }
-    if let (Some(r), Some(uf)) = (supply.filter.bleeder_ohms, supply.filter.uf)
-        && peak_v > SAFE_TOUCH_V
-    {
-        let t = discharge_s(uf * 1e-6, r, peak_v, SAFE_TOUCH_V);
-        out.push(format!(
-            "The {:.0} ohm bleeder takes {:.1} s to bring the rail below {SAFE_TOUCH_V:.0} V.",
-            r, t
-        ));
+        if peak_v > touch_v {
+            out.push(discharge_line(supply, farads, peak_v, touch_v));
+        }
     }
     out.push(
         "Verify with a meter before touching; follow local codes and licensed practice.".into(),
     );
     out
+}
+
+fn discharge_line(supply: &Supply, farads: f64, peak_v: f64, touch_v: f64) -> String {
+    if let Some(r) = supply.filter.bleeder_ohms {
+        let t = discharge_s(farads, r, peak_v, touch_v);
+        return format!(
+            "Discharge: the {r:.0} ohm bleeder brings the rail below {touch_v:.0} V in about \
+             {t:.1} s after switch-off."
+        );
+    }
+    match (supply.load.ohms, supply.load.amps, &supply.regulator) {
+        (Some(r), _, None) => format!(
+            "Discharge: no bleeder; the {r:.0} ohm load, if it stays connected, brings the rail \
+             below {touch_v:.0} V in about {:.1} s.",
+            discharge_s(farads, r, peak_v, touch_v)
+        ),
+        (_, Some(a), None) if a > 0.0 => format!(
+            "Discharge: no bleeder; the {a} A load, if it stays connected and keeps drawing, \
+             brings the rail below {touch_v:.0} V in about {:.1} s.",
+            farads * (peak_v - touch_v) / a
+        ),
+        _ => format!(
+            "Discharge: no bleeder is given, and the capacitor may hold above {touch_v:.0} V for \
+             minutes or days after switch-off."
+        ),
+    }
 }

@@ -1,4 +1,7 @@
-//! What follows from the solved circuit: cautions now; worst case, rating checks and sizing
-//! build on the same solves.
+//! What follows from the solved circuit: the worst case over tolerances, rating checks,
+//! capacitor sizing, and safety cautions.
 
 pub mod cautions;
+pub mod checks;
+pub mod sizing;
+pub mod worst_case;

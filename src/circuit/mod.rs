@@ -246,6 +246,33 @@ pub struct Figures {
     /// Switch-on at the mains peak into an empty capacitor; None when nothing but the diodes
     /// limits it (no winding resistance or ESR given).
     pub inrush_peak_a: Option<f64>,
+    /// Highest voltage across the first filter capacitor (one of a doubler's two).
+    pub cap_peak_v: f64,
+}
+
+impl Figures {
+    /// Every figure with its JSON name, in the report's order.
+    pub fn named(&self) -> [(&'static str, Option<f64>); 17] {
+        [
+            ("dc_v", Some(self.dc_v)),
+            ("max_v", Some(self.max_v)),
+            ("min_v", Some(self.min_v)),
+            ("ripple_pp_v", Some(self.ripple_pp_v)),
+            ("ripple_rms_v", Some(self.ripple_rms_v)),
+            ("ripple_hz", Some(self.ripple_hz)),
+            ("load_a", Some(self.load_a)),
+            ("diode_peak_a", Some(self.diode_peak_a)),
+            ("diode_avg_a", Some(self.diode_avg_a)),
+            ("diode_rms_a", Some(self.diode_rms_a)),
+            ("diode_piv_v", Some(self.diode_piv_v)),
+            ("winding_rms_a", Some(self.winding_rms_a)),
+            ("winding_va", Some(self.winding_va)),
+            ("cap_ripple_rms_a", Some(self.cap_ripple_rms_a)),
+            ("conduction_deg", Some(self.conduction_deg)),
+            ("inrush_peak_a", self.inrush_peak_a),
+            ("cap_peak_v", Some(self.cap_peak_v)),
+        ]
+    }
 }
 
 /// One mains period of the rail, the rectified source and one diode's current (ms, V, V, A).
@@ -316,6 +343,7 @@ fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figures {
         cap_ripple_rms_a: s.mean_sq_i_cap.max(0.0).sqrt(),
         conduction_deg: 360.0 * on as f64 / s.probes.len().max(1) as f64,
         inrush_peak_a: inrush(net),
+        cap_peak_v: s.v_cap_max,
     }
 }
 

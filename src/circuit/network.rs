@@ -270,6 +270,7 @@ impl Network {
         };
         Probe {
             v_out,
+            v_cap: rail0,
             v_source,
             i_diode,
             v_reverse,

@@ -24,6 +24,8 @@ type Vector = [f64; WIDTH];
 pub struct Probe {
     /// The rail, across the load.
     pub v_out: f64,
+    /// Across the first filter capacitor (one of a doubler's two; a CRC's input side).
+    pub v_cap: f64,
     /// The level the rectified winding pulls the rail towards while a diode conducts.
     pub v_source: f64,
     /// One diode's forward current.
@@ -47,6 +49,7 @@ impl Probe {
         let mix = |a: f64, b: f64| a + (b - a) * s;
         Probe {
             v_out: mix(self.v_out, other.v_out),
+            v_cap: mix(self.v_cap, other.v_cap),
             v_source: mix(self.v_source, other.v_source),
             i_diode: mix(self.i_diode, other.i_diode),
             v_reverse: mix(self.v_reverse, other.v_reverse),
@@ -115,6 +118,7 @@ pub struct SteadyState {
     /// the sample instants and at every integration step.
     pub v_out_max: f64,
     pub v_out_min: f64,
+    pub v_cap_max: f64,
     pub i_diode_peak: f64,
     pub v_reverse_max: f64,
     /// Period averages: rail, diode current, load current; mean squares: ripple (about
@@ -710,10 +714,12 @@ fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         y[..QUADRATURES].copy_from_slice(&q);
     }
     let (mut v_max, mut v_min) = (f64::NEG_INFINITY, f64::INFINITY);
+    let mut v_cap_max = f64::NEG_INFINITY;
     let (mut i_peak, mut vr_max) = (0.0f64, f64::NEG_INFINITY);
     for p in &extremes {
         v_max = v_max.max(p.v_out);
         v_min = v_min.min(p.v_out);
+        v_cap_max = v_cap_max.max(p.v_cap);
         i_peak = i_peak.max(p.i_diode);
         vr_max = vr_max.max(p.v_reverse);
     }
@@ -726,6 +732,7 @@ fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         probes,
         v_out_max: v_max,
         v_out_min: v_min,
+        v_cap_max,
         i_diode_peak: i_peak,
         v_reverse_max: vr_max,
         mean_v_out,

@@ -1,0 +1,224 @@
+//! Rating checks: each part's rating against the worst it sees over the tolerance box.
+
+use super::worst_case::WorstCase;
+use crate::circuit::Figures;
+use crate::supply::{Supply, Topology};
+use serde::Serialize;
+
+/// A limit within this fraction counts as a warning: too close for comfort in the field.
+pub const WARN_MARGIN: f64 = 0.05;
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Status {
+    Ok,
+    Warn,
+    Fail,
+}
+
+impl Status {
+    /// The word shown beside the check, so that meaning never rests on colour.
+    pub fn word(self) -> &'static str {
+        match self {
+            Status::Ok => "OK",
+            Status::Warn => "WARN",
+            Status::Fail => "FAIL",
+        }
+    }
+}
+
+/// One rating check.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Check {
+    pub id: &'static str,
+    pub status: Status,
+    /// What the part sees at its worst (volts, amps, volt-amperes or watts).
+    pub value: f64,
+    /// Its rating, or for headroom the voltage the regulator needs.
+    pub limit: f64,
+    pub message: String,
+}
+
+/// A value that must stay at or below `limit` (a rating).
+fn at_most(id: &'static str, value: f64, limit: f64, what: &str, unit: &str, at: &str) -> Check {
+    let status = if value > limit {
+        Status::Fail
+    } else if value > limit * (1.0 - WARN_MARGIN) {
+        Status::Warn
+    } else {
+        Status::Ok
+    };
+    let verb = match status {
+        Status::Fail => "exceeds",
+        Status::Warn => "is within 5 % of",
+        Status::Ok => "is within",
+    };
+    Check {
+        id,
+        status,
+        value,
+        limit,
+        message: format!("{what} {value:.3} {unit} ({at}) {verb} the {limit} {unit} rating"),
+    }
+}
+
+/// A value that must stay at or above `limit` (the headroom a regulator needs).
+fn at_least(id: &'static str, value: f64, limit: f64, what: &str, unit: &str, at: &str) -> Check {
+    let status = if value < limit {
+        Status::Fail
+    } else if value < limit * (1.0 + WARN_MARGIN) {
+        Status::Warn
+    } else {
+        Status::Ok
+    };
+    let verb = match status {
+        Status::Fail => "is below",
+        Status::Warn => "is within 5 % of",
+        Status::Ok => "clears",
+    };
+    Check {
+        id,
+        status,
+        value,
+        limit,
+        message: format!("{what} {value:.3} {unit} ({at}) {verb} the {limit:.3} {unit} needed"),
+    }
+}
+
+/// The rating checks of `supply` over its worst case; `stress` is the voltage-stress solve
+/// (high line, lightest load, or no load when `no_load` says none was stated). Returns the
+/// checks made and the ids of those skipped for want of a rating.
+pub fn checks(
+    supply: &Supply,
+    wc: &WorstCase,
+    stress: &Figures,
+    no_load: bool,
+) -> (Vec<Check>, Vec<&'static str>) {
+    let mut out = Vec::new();
+    let mut not_rated = Vec::new();
+    let stress_words = if no_load {
+        "high line, no load: no minimum load is stated"
+    } else {
+        "high line, lightest load"
+    };
+    let max_of = |name: &str| wc.extent(name).map(|e| (e.max, e.max_at.clone()));
+    let f = &supply.filter;
+    let filtered = f.kind != crate::supply::FilterKind::None;
+    if filtered {
+        match f.rated_v {
+            Some(rated) => {
+                let what = if supply.rectifier.topology == Topology::Doubler {
+                    "each capacitor's peak"
+                } else {
+                    "capacitor peak"
+                };
+                out.push(at_most(
+                    "cap-voltage",
+                    stress.cap_peak_v,
+                    rated,
+                    what,
+                    "V",
+                    stress_words,
+                ));
+            }
+            None => not_rated.push("cap-voltage"),
+        }
+        match (f.rated_ripple_a, max_of("cap_ripple_rms_a")) {
+            (Some(rated), Some((v, at))) => out.push(at_most(
+                "cap-ripple-current",
+                v,
+                rated,
+                "capacitor ripple current",
+                "A RMS",
+                &at,
+            )),
+            _ => not_rated.push("cap-ripple-current"),
+        }
+    }
+    let r = &supply.rectifier;
+    match r.rated_piv_v {
+        Some(rated) => {
+            let piv = stress
+                .diode_piv_v
+                .max(max_of("diode_piv_v").map_or(0.0, |m| m.0));
+            out.push(at_most(
+                "diode-piv",
+                piv,
+                rated,
+                "diode reverse peak",
+                "V",
+                stress_words,
+            ));
+        }
+        None => not_rated.push("diode-piv"),
+    }
+    match (r.rated_a, max_of("diode_avg_a")) {
+        (Some(rated), Some((v, at))) => out.push(at_most(
+            "diode-current",
+            v,
+            rated,
+            "diode average current",
+            "A",
+            &at,
+        )),
+        _ => not_rated.push("diode-current"),
+    }
+    match (r.surge_a, stress.inrush_peak_a) {
+        (Some(rated), Some(surge)) => out.push(at_most(
+            "diode-surge",
+            surge,
+            rated,
+            "switch-on surge at the mains crest",
+            "A",
+            "high line, empty capacitor",
+        )),
+        // With no winding resistance or ESR given nothing bounds the surge to check against.
+        (Some(_), None) | (None, _) => not_rated.push("diode-surge"),
+    }
+    match (supply.transformer.rated_va, max_of("winding_va")) {
+        (Some(rated), Some((v, at))) => out.push(at_most(
+            "transformer-va",
+            v,
+            rated,
+            "winding volt-amperes",
+            "VA",
+            &at,
+        )),
+        _ => not_rated.push("transformer-va"),
+    }
+    if let Some(reg) = &supply.regulator {
+        let need = reg.output_v + reg.dropout_v;
+        if let Some(e) = wc.extent("min_v") {
+            out.push(at_least(
+                "regulator-headroom",
+                e.min,
+                need,
+                "lowest ripple valley",
+                "V",
+                &e.min_at,
+            ));
+        }
+        match reg.rated_w {
+            Some(rated) => {
+                // (input DC - output) times the load current, the regulator's heat.
+                let worst = wc
+                    .solved
+                    .iter()
+                    .map(|(w, f)| ((f.dc_v - reg.output_v).max(0.0) * f.load_a, w))
+                    .max_by(|a, b| a.0.total_cmp(&b.0));
+                if let Some((w, at)) = worst {
+                    out.push(at_most(
+                        "regulator-dissipation",
+                        w,
+                        rated,
+                        "regulator dissipation",
+                        "W",
+                        at,
+                    ));
+                }
+            }
+            None => not_rated.push("regulator-dissipation"),
+        }
+    }
+    (out, not_rated)
+}

@@ -1,0 +1,200 @@
+//! Sizing a replacement filter capacitor: the smallest preferred value that meets a ripple or
+//! headroom target at the worst case, with the voltage rating and ripple current it needs.
+
+use super::worst_case::{voltage_stress, worst_case};
+use crate::circuit::CircuitError;
+use crate::supply::{FilterKind, Supply};
+use serde::Serialize;
+
+/// IEC 60063 E6 preferred numbers (from memory of the standard).
+pub const E6: [f64; 6] = [1.0, 1.5, 2.2, 3.3, 4.7, 6.8];
+/// IEC 60063 E12 preferred numbers (from memory of the standard).
+pub const E12: [f64; 12] = [1.0, 1.2, 1.5, 1.8, 2.2, 2.7, 3.3, 3.9, 4.7, 5.6, 6.8, 8.2];
+/// Standard aluminium electrolytic voltage ratings, volts (common practice).
+pub const VOLTAGE_RATINGS: [f64; 15] = [
+    6.3, 10.0, 16.0, 25.0, 35.0, 50.0, 63.0, 80.0, 100.0, 160.0, 200.0, 250.0, 350.0, 400.0, 450.0,
+];
+/// The working peak may use this share of a capacitor's rating: the usual 80 % derating that
+/// keeps an electrolytic's life and covers surges the model does not see (practice).
+pub const DERATING: f64 = 0.8;
+
+/// What the capacitor must achieve at the worst case.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Target {
+    /// Worst-case ripple peak to peak at most this, volts.
+    RipplePp(f64),
+    /// Worst-case valley at least this far above the regulator's output plus dropout, volts;
+    /// with no regulator, the valley itself at least this, volts.
+    Headroom(f64),
+}
+
+/// One recommended capacitor.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Sized {
+    pub series: &'static str,
+    pub uf: f64,
+    pub worst_ripple_pp_v: f64,
+    pub worst_valley_v: f64,
+    /// Highest voltage across it (high line, lightest or no load).
+    pub worst_peak_v: f64,
+    /// The standard rating it needs, or None above 450 V.
+    pub rated_v: Option<f64>,
+    /// The RMS ripple current it must carry at the worst case, amps.
+    pub ripple_a: f64,
+}
+
+/// Why no capacitor was sized.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum SizingError {
+    #[error("{0}")]
+    Circuit(#[from] CircuitError),
+    #[error("target must be above 0 V (got {0})")]
+    BadTarget(f64),
+    #[error(
+        "no capacitance up to 1 F meets the target: at 1 F the worst ripple is {ripple:.3} V \
+         and the worst valley {valley:.2} V; the winding, not the capacitor, limits this rail"
+    )]
+    Unreachable { ripple: f64, valley: f64 },
+}
+
+/// Preferred values of `series` from 1 uF to 1 F, microfarads, ascending.
+pub fn preferred_uf(series: &[f64]) -> Vec<f64> {
+    let mut out = Vec::new();
+    for decade in 0..6 {
+        let scale = 10f64.powi(decade);
+        for &m in series {
+            // Round to the series' two significant figures so 4.7 * 1000 stays 4700.
+            out.push(((m * scale) * 100.0).round() / 100.0);
+        }
+    }
+    out.push(1e6);
+    out
+}
+
+/// The smallest standard rating at or above `peak_v / DERATING`, volts.
+pub fn voltage_rating_for(peak_v: f64) -> Option<f64> {
+    VOLTAGE_RATINGS
+        .iter()
+        .copied()
+        .find(|&r| r * DERATING >= peak_v)
+}
+
+/// Sizes the filter capacitor of `supply` (its `uf`; a doubler's two each; a CRC's first) for
+/// `target`, from E12 and from E6; for an unfiltered supply, the capacitor to add.
+pub fn size(supply: &Supply, target: Target) -> Result<Vec<Sized>, SizingError> {
+    // An unfiltered supply is sized for the capacitor that would be added to it.
+    let mut supply = supply.clone();
+    if supply.filter.kind == FilterKind::None {
+        supply.filter.kind = FilterKind::Capacitor;
+    }
+    let supply = &supply;
+    let goal = match target {
+        Target::RipplePp(v) | Target::Headroom(v) => v,
+    };
+    if !(goal.is_finite() && goal > 0.0) {
+        return Err(SizingError::BadTarget(goal));
+    }
+    let need_valley = match (&supply.regulator, target) {
+        (Some(r), Target::Headroom(h)) => r.output_v + r.dropout_v + h,
+        (None, Target::Headroom(h)) => h,
+        _ => f64::NEG_INFINITY,
+    };
+    let evaluate = |uf: f64| -> Result<(bool, Sized), SizingError> {
+        let mut s = supply.clone();
+        s.filter.uf = Some(uf);
+        let wc = worst_case(&s)?;
+        let ripple = wc.extent("ripple_pp_v").map_or(f64::INFINITY, |e| e.max);
+        let valley = wc.extent("min_v").map_or(0.0, |e| e.min);
+        let ripple_a = wc.extent("cap_ripple_rms_a").map_or(0.0, |e| e.max);
+        let meets = match target {
+            Target::RipplePp(v) => ripple <= v,
+            Target::Headroom(_) => valley >= need_valley,
+        };
+        Ok((
+            meets,
+            Sized {
+                series: "",
+                uf,
+                worst_ripple_pp_v: ripple,
+                worst_valley_v: valley,
+                worst_peak_v: 0.0,
+                rated_v: None,
+                ripple_a,
+            },
+        ))
+    };
+    let mut out = Vec::new();
+    for (name, series) in [("E12", &E12[..]), ("E6", &E6[..])] {
+        let values = preferred_uf(series);
+        let (top_meets, top) = evaluate(*values.last().expect("values"))?;
+        if !top_meets {
+            return Err(SizingError::Unreachable {
+                ripple: top.worst_ripple_pp_v,
+                valley: top.worst_valley_v,
+            });
+        }
+        // More capacitance never raises the ripple nor lowers the valley: bisect the list.
+        let (mut lo, mut hi) = (0usize, values.len() - 1);
+        let mut best = top;
+        while lo < hi {
+            let mid = (lo + hi) / 2;
+            let (meets, sized) = evaluate(values[mid])?;
+            if meets {
+                hi = mid;
+                best = sized;
+            } else {
+                lo = mid + 1;
+            }
+        }
+        if best.uf != values[hi] {
+            best = evaluate(values[hi])?.1;
+        }
+        let mut s = supply.clone();
+        s.filter.uf = Some(best.uf);
+        let (stress, _) = voltage_stress(&s)?;
+        best.worst_peak_v = stress.cap_peak_v;
+        best.rated_v = voltage_rating_for(stress.cap_peak_v);
+        best.series = name;
+        out.push(best);
+    }
+    Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn e_series_are_the_iec_60063_numbers() {
+        // IEC 60063, from memory of the standard: E6 and the six E12 values between them.
+        assert_eq!(E6, [1.0, 1.5, 2.2, 3.3, 4.7, 6.8]);
+        for v in E6 {
+            assert!(E12.contains(&v), "E6 {v} is in E12");
+        }
+        let extra: Vec<f64> = E12.iter().copied().filter(|v| !E6.contains(v)).collect();
+        assert_eq!(extra, vec![1.2, 1.8, 2.7, 3.9, 5.6, 8.2]);
+        // Each E12 step is about the twelfth root of ten (1.21), within rounding.
+        for w in E12.windows(2) {
+            let r = w[1] / w[0];
+            assert!((1.1..1.3).contains(&r), "{w:?}");
+        }
+    }
+
+    #[test]
+    fn preferred_values_span_one_microfarad_to_one_farad() {
+        let v = preferred_uf(&E12);
+        assert_eq!(v[0], 1.0);
+        assert!(v.contains(&4700.0) && v.contains(&2200.0) && v.contains(&82.0));
+        assert_eq!(*v.last().unwrap(), 1e6);
+        assert!(v.windows(2).all(|w| w[0] < w[1]));
+    }
+
+    #[test]
+    fn voltage_rating_leaves_the_derating_margin() {
+        assert_eq!(voltage_rating_for(12.0), Some(16.0));
+        assert_eq!(voltage_rating_for(13.0), Some(25.0));
+        assert_eq!(voltage_rating_for(39.0), Some(50.0));
+        assert_eq!(voltage_rating_for(400.0), None);
+    }
+}

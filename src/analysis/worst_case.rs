@@ -1,0 +1,368 @@
+//! The worst case over the stated tolerances: every corner of the tolerance box plus points
+//! along each axis, each a full steady-state solve, and for each figure the lowest and highest
+//! value with the point that gives it, in words.
+
+use crate::circuit::{self, CircuitError, Conditions, Figures, LoadOverride};
+use crate::supply::Supply;
+use serde::Serialize;
+
+/// One axis of the tolerance box: a factor (or a load) from its low end to its high end.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Axis {
+    pub kind: AxisKind,
+    /// The ends of the axis as factors on the nominal (mains, capacitance, drop, ratio) or as
+    /// the load in amps or ohms.
+    pub low: f64,
+    pub high: f64,
+    pub nominal: f64,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum AxisKind {
+    Mains,
+    Capacitance,
+    /// Constant-current load, amps.
+    LoadAmps,
+    /// Resistive load, ohms.
+    LoadOhms,
+    DiodeDrop,
+    Ratio,
+}
+
+/// The tolerances a worst case spans, exactly as the supply file states them.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ToleranceBox {
+    pub axes: Vec<Axis>,
+}
+
+impl ToleranceBox {
+    /// The box of `supply`: mains and capacitance always (with their defaults); load range,
+    /// diode spread, capacitor ageing and ratio spread when the file states them.
+    pub fn of(supply: &Supply) -> ToleranceBox {
+        let mut axes = vec![Axis {
+            kind: AxisKind::Mains,
+            low: 1.0 - supply.mains.low_pct / 100.0,
+            high: 1.0 + supply.mains.high_pct / 100.0,
+            nominal: 1.0,
+        }];
+        let f = &supply.filter;
+        if f.kind != crate::supply::FilterKind::None {
+            let aged = f.aged_pct.unwrap_or(0.0);
+            axes.push(Axis {
+                kind: AxisKind::Capacitance,
+                low: (1.0 - (f.low_pct + aged) / 100.0).max(0.01),
+                high: 1.0 + f.high_pct / 100.0,
+                nominal: 1.0,
+            });
+        }
+        let l = &supply.load;
+        if let Some(a) = l.amps
+            && (l.min_amps.is_some() || l.max_amps.is_some())
+        {
+            axes.push(Axis {
+                kind: AxisKind::LoadAmps,
+                low: l.min_amps.unwrap_or(a).min(a),
+                high: l.max_amps.unwrap_or(a).max(a),
+                nominal: a,
+            });
+        }
+        if let Some(r) = l.ohms
+            && (l.min_ohms.is_some() || l.max_ohms.is_some())
+        {
+            axes.push(Axis {
+                kind: AxisKind::LoadOhms,
+                low: l.min_ohms.unwrap_or(r).min(r),
+                high: l.max_ohms.unwrap_or(r).max(r),
+                nominal: r,
+            });
+        }
+        if let Some(p) = supply.rectifier.drop_spread_pct {
+            axes.push(Axis {
+                kind: AxisKind::DiodeDrop,
+                low: 1.0 - p / 100.0,
+                high: 1.0 + p / 100.0,
+                nominal: 1.0,
+            });
+        }
+        if let Some(p) = supply.transformer.ratio_pct {
+            axes.push(Axis {
+                kind: AxisKind::Ratio,
+                low: 1.0 - p / 100.0,
+                high: 1.0 + p / 100.0,
+                nominal: 1.0,
+            });
+        }
+        ToleranceBox { axes }
+    }
+
+    /// The tolerances in words, for the report ("mains -10 % / +10 %", ...).
+    pub fn describe(&self) -> Vec<String> {
+        self.axes
+            .iter()
+            .map(|a| match a.kind {
+                AxisKind::Mains => format!("mains {}", pct_span(a)),
+                AxisKind::Capacitance => format!("capacitance {}", pct_span(a)),
+                AxisKind::DiodeDrop => format!("diode drop {}", pct_span(a)),
+                AxisKind::Ratio => format!("turns ratio {}", pct_span(a)),
+                AxisKind::LoadAmps => format!("load {} A to {} A", a.low, a.high),
+                AxisKind::LoadOhms => format!("load {} ohm to {} ohm", a.low, a.high),
+            })
+            .collect()
+    }
+}
+
+fn pct_span(a: &Axis) -> String {
+    format!(
+        "{:+.0} % / {:+.0} %",
+        (a.low - 1.0) * 100.0,
+        (a.high - 1.0) * 100.0
+    )
+}
+
+/// A point of the box: where each axis stands, from 0 (its low end) to 1 (its high end).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Corner {
+    pub positions: Vec<f64>,
+}
+
+impl Corner {
+    /// The departures from the supply this point means.
+    pub fn conditions(&self, tbox: &ToleranceBox) -> Conditions {
+        let mut c = Conditions::default();
+        for (axis, &s) in tbox.axes.iter().zip(&self.positions) {
+            let v = axis.value_at(s);
+            match axis.kind {
+                AxisKind::Mains => c.mains_factor = v,
+                AxisKind::Capacitance => c.cap_factor = v,
+                AxisKind::LoadAmps => c.load = Some(LoadOverride::Amps(v)),
+                AxisKind::LoadOhms => c.load = Some(LoadOverride::Ohms(v)),
+                AxisKind::DiodeDrop => c.drop_factor = v,
+                // A larger ratio is a lower secondary.
+                AxisKind::Ratio => c.ratio_factor = v,
+            }
+        }
+        c
+    }
+
+    /// The point in a technician's words: "mains -10 %, capacitor -20 %, load heaviest";
+    /// axes at nominal are left out.
+    pub fn describe(&self, tbox: &ToleranceBox) -> String {
+        let mut parts = Vec::new();
+        for (axis, &s) in tbox.axes.iter().zip(&self.positions) {
+            let v = axis.value_at(s);
+            if (v - axis.nominal).abs() <= 1e-12 * axis.nominal.abs().max(1.0) {
+                continue;
+            }
+            let pct = (v / axis.nominal - 1.0) * 100.0;
+            parts.push(match axis.kind {
+                AxisKind::Mains => format!("mains {pct:+.0} %"),
+                AxisKind::Capacitance => format!("capacitor {pct:+.0} %"),
+                AxisKind::DiodeDrop => format!("diode drop {pct:+.0} %"),
+                AxisKind::Ratio => format!("turns ratio {pct:+.0} %"),
+                AxisKind::LoadAmps => match s {
+                    s if s >= 1.0 => "load heaviest".to_string(),
+                    s if s <= 0.0 => "load lightest".to_string(),
+                    _ => format!("load {v:.3} A"),
+                },
+                AxisKind::LoadOhms => match s {
+                    s if s >= 1.0 => "load lightest".to_string(),
+                    s if s <= 0.0 => "load heaviest".to_string(),
+                    _ => format!("load {v:.1} ohm"),
+                },
+            });
+        }
+        if parts.is_empty() {
+            "nominal".to_string()
+        } else {
+            parts.join(", ")
+        }
+    }
+}
+
+impl Axis {
+    /// The axis value at position `s` (0 = low end, 1 = high end); the nominal sits wherever
+    /// it falls, so the interior points are spread on each side of it.
+    pub fn value_at(&self, s: f64) -> f64 {
+        if s <= 0.5 {
+            self.low + (self.nominal - self.low) * (s / 0.5)
+        } else {
+            self.nominal + (self.high - self.nominal) * ((s - 0.5) / 0.5)
+        }
+    }
+}
+
+/// The points a worst case solves: every corner, and along each axis its quarter points with
+/// the other axes at nominal (a figure that is not monotonic along an axis peaks inside).
+pub fn points(tbox: &ToleranceBox) -> Vec<Corner> {
+    let k = tbox.axes.len();
+    let mut out = vec![Corner {
+        positions: vec![0.5; k],
+    }];
+    for mask in 0..(1u32 << k) {
+        out.push(Corner {
+            positions: (0..k)
+                .map(|i| if mask & (1 << i) != 0 { 1.0 } else { 0.0 })
+                .collect(),
+        });
+    }
+    for i in 0..k {
+        for s in [0.25, 0.75] {
+            let mut positions = vec![0.5; k];
+            positions[i] = s;
+            out.push(Corner { positions });
+        }
+        for s in [0.0, 1.0] {
+            let mut positions = vec![0.5; k];
+            positions[i] = s;
+            out.push(Corner { positions });
+        }
+    }
+    out
+}
+
+/// The lowest and highest value of one figure over the box, with where each occurs.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Extent {
+    pub min: f64,
+    pub max: f64,
+    pub min_at: String,
+    pub max_at: String,
+}
+
+/// The worst case of a supply: each figure's extent, and the figures at every point solved.
+#[derive(Debug, Clone, PartialEq)]
+pub struct WorstCase {
+    pub tolerances: Vec<String>,
+    pub extents: Vec<(&'static str, Extent)>,
+    /// Each point solved, its words and its figures.
+    pub solved: Vec<(String, Figures)>,
+}
+
+impl WorstCase {
+    /// The extent of the figure named `name` (a [`Figures::named`] name).
+    pub fn extent(&self, name: &str) -> Option<&Extent> {
+        self.extents
+            .iter()
+            .find(|(n, _)| *n == name)
+            .map(|(_, e)| e)
+    }
+}
+
+/// Solves `supply` at every point of its tolerance box (volts, amps as in [`Figures`]).
+pub fn worst_case(supply: &Supply) -> Result<WorstCase, CircuitError> {
+    let tbox = ToleranceBox::of(supply);
+    worst_case_in(supply, &tbox, &Conditions::default())
+}
+
+/// As [`worst_case`] over `tbox`, each point's conditions laid over `base` (a reading of the
+/// mains, say).
+pub fn worst_case_in(
+    supply: &Supply,
+    tbox: &ToleranceBox,
+    base: &Conditions,
+) -> Result<WorstCase, CircuitError> {
+    let mut solved = Vec::new();
+    for p in points(tbox) {
+        let mut cond = p.conditions(tbox);
+        cond.mains_vrms = base.mains_vrms;
+        cond.leg_open = base.leg_open;
+        cond.capacitor_open = base.capacitor_open;
+        if base.esr_ohms.is_some() {
+            cond.esr_ohms = base.esr_ohms;
+        }
+        let op = circuit::solve(supply, &cond)?;
+        solved.push((p.describe(tbox), op.figures));
+    }
+    let names = solved[0].1.named().map(|(n, _)| n);
+    let mut extents = Vec::new();
+    for (i, name) in names.iter().enumerate() {
+        let mut ext: Option<Extent> = None;
+        for (words, f) in &solved {
+            let Some(v) = f.named()[i].1 else { continue };
+            let e = ext.get_or_insert_with(|| Extent {
+                min: v,
+                max: v,
+                min_at: words.clone(),
+                max_at: words.clone(),
+            });
+            if v < e.min {
+                e.min = v;
+                e.min_at = words.clone();
+            }
+            if v > e.max {
+                e.max = v;
+                e.max_at = words.clone();
+            }
+        }
+        if let Some(e) = ext {
+            extents.push((*name, e));
+        }
+    }
+    Ok(WorstCase {
+        tolerances: tbox.describe(),
+        extents,
+        solved,
+    })
+}
+
+/// The stress point for voltage ratings: high mains, the secondary at its highest, the diode
+/// drop at its lowest, and the lightest stated load, or no load at all when none is stated.
+/// Returns the figures and whether the no-load assumption was made.
+pub fn voltage_stress(supply: &Supply) -> Result<(Figures, bool), CircuitError> {
+    let tbox = ToleranceBox::of(supply);
+    let mut cond = Conditions::default();
+    let mut assumed_no_load = true;
+    for axis in &tbox.axes {
+        match axis.kind {
+            AxisKind::Mains => cond.mains_factor = axis.high,
+            AxisKind::Ratio => cond.ratio_factor = axis.low,
+            AxisKind::DiodeDrop => cond.drop_factor = axis.low,
+            AxisKind::LoadAmps => {
+                cond.load = Some(LoadOverride::Amps(axis.low));
+                assumed_no_load = false;
+            }
+            AxisKind::LoadOhms => {
+                cond.load = Some(LoadOverride::Ohms(axis.high));
+                assumed_no_load = false;
+            }
+            AxisKind::Capacitance => {}
+        }
+    }
+    if assumed_no_load {
+        cond.load = Some(LoadOverride::Amps(0.0));
+    }
+    let op = circuit::solve(supply, &cond)?;
+    Ok((op.figures, assumed_no_load))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn box_has_every_corner_and_axis_points() {
+        let tbox = ToleranceBox {
+            axes: vec![
+                Axis {
+                    kind: AxisKind::Mains,
+                    low: 0.9,
+                    high: 1.1,
+                    nominal: 1.0,
+                },
+                Axis {
+                    kind: AxisKind::Capacitance,
+                    low: 0.8,
+                    high: 1.2,
+                    nominal: 1.0,
+                },
+            ],
+        };
+        let pts = points(&tbox);
+        // nominal + 4 corners + 4 points per axis
+        assert_eq!(pts.len(), 1 + 4 + 8);
+        let words: Vec<String> = pts.iter().map(|p| p.describe(&tbox)).collect();
+        assert!(words.contains(&"mains -10 %, capacitor -20 %".to_string()));
+        assert!(words.contains(&"mains +5 %".to_string()));
+        assert!(words.contains(&"nominal".to_string()));
+    }
+}
