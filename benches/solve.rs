@@ -75,5 +75,25 @@ fn twenty_reports(c: &mut Criterion) {
     });
 }
 
-criterion_group!(benches, single_solves, time_constants, twenty_reports);
+fn worst_case_and_sizing(c: &mut Criterion) {
+    use railcheck::analysis::{sizing, worst_case};
+    let s = load("examples/pump-house-relay-rail.toml");
+    c.bench_function("worst_case_pump_house_21_points", |b| {
+        b.iter(|| worst_case::worst_case(black_box(&s)).unwrap())
+    });
+    let mut g = c.benchmark_group("size");
+    g.sample_size(10);
+    g.bench_function("ripple_target_e12_e6", |b| {
+        b.iter(|| sizing::size(black_box(&s), sizing::Target::RipplePp(0.5)).unwrap())
+    });
+    g.finish();
+}
+
+criterion_group!(
+    benches,
+    single_solves,
+    time_constants,
+    twenty_reports,
+    worst_case_and_sizing
+);
 criterion_main!(benches);
