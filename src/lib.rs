@@ -5,8 +5,10 @@
 pub mod circuit;
 pub mod supply;
 pub mod units;
+pub mod visit;
 
 pub use circuit::{Conditions, Figures, HandEstimate, Operating, solve, solve_nominal};
 pub use supply::{Supply, SupplyError, Topology};
 pub mod analysis;
+pub mod library;
 pub mod report;

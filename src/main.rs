@@ -4,11 +4,32 @@ use anyhow::{Context, Result, bail};
 use clap::{Parser, Subcommand};
 use railcheck::analysis::cautions::SAFE_TOUCH_V;
 use railcheck::analysis::sizing::{self, Target};
+use railcheck::library::{EntryState, Library};
 use railcheck::report;
 use railcheck::supply::Supply;
 use railcheck::units::format_si;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
+
+/// Print to stdout; a reader that went away (`railcheck list | head`) ends the program
+/// quietly instead of with a panic, as Unix tools do.
+macro_rules! outln {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        if writeln!(std::io::stdout(), $($t)*).is_err() {
+            std::process::exit(0);
+        }
+    }};
+}
+
+macro_rules! out {
+    ($($t:tt)*) => {{
+        use std::io::Write as _;
+        if write!(std::io::stdout(), $($t)*).is_err() {
+            std::process::exit(0);
+        }
+    }};
+}
 
 const EXIT_STATUS: &str = "Exit status: 0 success; 1 a rating check failed (report); \
                            2 bad input or I/O trouble.\n\
@@ -19,6 +40,12 @@ const EXIT_STATUS: &str = "Exit status: 0 success; 1 a rating check failed (repo
 #[derive(Parser)]
 #[command(name = "railcheck", version, after_help = EXIT_STATUS)]
 struct Cli {
+    /// The library folder (default: RAILCHECK_LIBRARY, else the platform's data folder).
+    #[arg(long, global = true, value_name = "DIR")]
+    library: Option<PathBuf>,
+    /// On first use, create an empty library instead of one with the demo supplies.
+    #[arg(long, global = true)]
+    no_demo: bool,
     #[command(subcommand)]
     command: Option<Command>,
 }
@@ -27,9 +54,9 @@ struct Cli {
 enum Command {
     /// Solve supplies: nominal and worst-case figures, hand estimate, rating checks, cautions.
     Report {
-        /// Supply files (TOML).
-        #[arg(required = true)]
-        files: Vec<PathBuf>,
+        /// Supply files (TOML), or names of supplies in the library.
+        #[arg(required = true, value_name = "NAME_OR_FILE")]
+        files: Vec<String>,
         /// One JSON object per line per file instead of text.
         #[arg(long)]
         json: bool,
@@ -39,8 +66,9 @@ enum Command {
     },
     /// The smallest E6 and E12 filter capacitor meeting a target at the worst case.
     Size {
-        /// Supply file (TOML).
-        file: PathBuf,
+        /// Supply file (TOML), or the name of a supply in the library.
+        #[arg(value_name = "NAME_OR_FILE")]
+        file: String,
         /// Worst-case ripple peak-peak at most this (volts).
         #[arg(
             long,
@@ -56,6 +84,58 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// List the library's supplies (unreadable files too, with their error).
+    List {
+        /// One JSON object per line: name, file, status, error, visits, last_visit.
+        #[arg(long)]
+        json: bool,
+    },
+    /// Validate supply files and copy them into the library.
+    Import {
+        #[arg(required = true)]
+        files: Vec<PathBuf>,
+        /// Keep both when the name is already in the library, giving the copy a new name.
+        #[arg(long)]
+        rename: bool,
+    },
+    /// Write a supply's file (with its visits and comments) to stdout or a file.
+    Export {
+        #[arg(value_name = "NAME_OR_FILE")]
+        name: String,
+        #[arg(short, long, value_name = "FILE")]
+        output: Option<PathBuf>,
+    },
+    /// A supply's visits, newest first, with their readings.
+    Log {
+        #[arg(value_name = "NAME_OR_FILE")]
+        name: String,
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+/// The library the command line works on: --library, RAILCHECK_LIBRARY, or the default.
+fn library(cli_dir: &Option<PathBuf>, no_demo: bool) -> Result<Library> {
+    let dir = match (cli_dir, std::env::var_os("RAILCHECK_LIBRARY")) {
+        (Some(d), _) => d.clone(),
+        (None, Some(d)) if !d.is_empty() => PathBuf::from(d),
+        _ => Library::default_dir().context("no data folder on this system: give --library DIR")?,
+    };
+    Ok(Library::open(&dir, !no_demo)?)
+}
+
+/// A supply named on the command line: an existing file, or a name in the library.
+fn resolve(arg: &str, cli_dir: &Option<PathBuf>, no_demo: bool) -> Result<(Supply, String)> {
+    let path = Path::new(arg);
+    if path.is_file() {
+        return Ok((load(path)?, path.display().to_string()));
+    }
+    let lib = library(cli_dir, no_demo)?;
+    let entry = lib.find(arg)?;
+    match entry.state {
+        EntryState::Ok { supply, .. } => Ok((*supply, entry.file.display().to_string())),
+        EntryState::Unreadable { error } => bail!("{}: {error}", entry.file.display()),
+    }
 }
 
 fn main() -> ExitCode {
@@ -75,20 +155,57 @@ fn try_main(cli: Cli) -> Result<ExitCode> {
         None => {
             use clap::CommandFactory;
             Cli::command().print_help().ok();
-            println!();
+            outln!("");
             Ok(ExitCode::SUCCESS)
         }
         Some(Command::Report {
             files,
             json,
             touch_v,
-        }) => run_report(&files, json, touch_v),
+        }) => run_report(&files, json, touch_v, &cli.library, cli.no_demo),
         Some(Command::Size {
             file,
             ripple_pp,
             headroom,
             json,
-        }) => run_size(&file, ripple_pp, headroom, json),
+        }) => {
+            let (supply, file) = resolve(&file, &cli.library, cli.no_demo)?;
+            run_size(supply, &file, ripple_pp, headroom, json)
+        }
+        Some(Command::List { json }) => run_list(&library(&cli.library, cli.no_demo)?, json),
+        Some(Command::Import { files, rename }) => {
+            let lib = library(&cli.library, cli.no_demo)?;
+            let mut bad = false;
+            for f in &files {
+                match lib.import(f, rename) {
+                    Ok(path) => outln!("imported {} as {}", f.display(), path.display()),
+                    Err(e) => {
+                        eprintln!("railcheck: {e}");
+                        bad = true;
+                    }
+                }
+            }
+            Ok(if bad {
+                ExitCode::from(2)
+            } else {
+                ExitCode::SUCCESS
+            })
+        }
+        Some(Command::Export { name, output }) => {
+            let text = export_text(&name, &cli.library, cli.no_demo)?;
+            match output {
+                None => out!("{text}"),
+                Some(out) => {
+                    railcheck::library::store::write_atomic(&out, text.as_bytes(), &|| Ok(()))
+                        .with_context(|| format!("{}: cannot write", out.display()))?;
+                }
+            }
+            Ok(ExitCode::SUCCESS)
+        }
+        Some(Command::Log { name, json }) => {
+            let (supply, _) = resolve(&name, &cli.library, cli.no_demo)?;
+            run_log(&supply, json)
+        }
     }
 }
 
@@ -100,27 +217,32 @@ fn load(path: &Path) -> Result<Supply> {
 
 /// Reports each file in turn; a file that cannot be read or solved is named on stderr and the
 /// rest still report (exit status 2 if any failed, else 1 if a rating check failed).
-fn run_report(files: &[PathBuf], json: bool, touch_v: f64) -> Result<ExitCode> {
+fn run_report(
+    files: &[String],
+    json: bool,
+    touch_v: f64,
+    cli_dir: &Option<PathBuf>,
+    no_demo: bool,
+) -> Result<ExitCode> {
     if !(touch_v.is_finite() && touch_v > 0.0 && touch_v <= 1000.0) {
         bail!("--touch-v must be between 0 and 1000 V (got {touch_v})");
     }
     let mut bad = false;
     let mut check_failed = false;
     for (i, path) in files.iter().enumerate() {
-        let outcome = load(path).and_then(|supply| {
-            report::build(supply, &path.display().to_string(), touch_v)
-                .map_err(|e| anyhow::anyhow!("{}: {e}", path.display()))
+        let outcome = resolve(path, cli_dir, no_demo).and_then(|(supply, file)| {
+            report::build(supply, &file, touch_v).map_err(|e| anyhow::anyhow!("{file}: {e}"))
         });
         match outcome {
             Ok(r) => {
                 check_failed |= r.any_failed();
                 if json {
-                    println!("{}", r.json());
+                    outln!("{}", r.json());
                 } else {
                     if i > 0 {
-                        println!();
+                        outln!("");
                     }
-                    print!("{}", r.text());
+                    out!("{}", r.text());
                 }
             }
             Err(e) => {
@@ -137,25 +259,24 @@ fn run_report(files: &[PathBuf], json: bool, touch_v: f64) -> Result<ExitCode> {
 }
 
 fn run_size(
-    path: &Path,
+    supply: Supply,
+    file: &str,
     ripple_pp: Option<f64>,
     headroom: Option<f64>,
     json: bool,
 ) -> Result<ExitCode> {
-    let supply = load(path)?;
     let target = match (ripple_pp, headroom) {
         (Some(v), _) => Target::RipplePp(v),
         (None, Some(v)) => Target::Headroom(v),
         (None, None) => bail!("give --ripple-pp V or --headroom V"),
     };
-    let sized =
-        sizing::size(&supply, target).map_err(|e| anyhow::anyhow!("{}: {e}", path.display()))?;
+    let sized = sizing::size(&supply, target).map_err(|e| anyhow::anyhow!("{file}: {e}"))?;
     if json {
-        println!(
+        outln!(
             "{}",
             serde_json::json!({
                 "name": supply.name,
-                "file": path.display().to_string(),
+                "file": file,
                 "target": target,
                 "derating": sizing::DERATING,
                 "capacitors": sized,
@@ -163,16 +284,16 @@ fn run_size(
         );
         return Ok(ExitCode::SUCCESS);
     }
-    println!("{}", supply.name);
+    outln!("{}", supply.name);
     if supply.filter.kind == railcheck::supply::FilterKind::None {
-        println!("  no filter capacitor now: sizing the capacitor to add across the rail");
+        outln!("  no filter capacitor now: sizing the capacitor to add across the rail");
     }
     match target {
-        Target::RipplePp(v) => println!(
+        Target::RipplePp(v) => outln!(
             "  target: worst-case ripple at most {}",
             format_si(v, "V p-p")
         ),
-        Target::Headroom(v) => println!(
+        Target::Headroom(v) => outln!(
             "  target: worst-case valley at least {} above what the regulator needs",
             format_si(v, "V")
         ),
@@ -182,7 +303,7 @@ fn run_size(
             Some(r) => format!("{r} V"),
             None => "above 450 V: use capacitors in series with balancing resistors".into(),
         };
-        println!(
+        outln!(
             "  {:<4} {:>9}  rated {}  ripple current {} RMS  (worst ripple {}, valley {}, peak {})",
             s.series,
             format_si(s.uf * 1e-6, "F"),
@@ -193,9 +314,104 @@ fn run_size(
             format_si(s.worst_peak_v, "V"),
         );
     }
-    println!(
+    outln!(
         "  voltage rating keeps the worst peak within {:.0} % of it (usual derating)",
         sizing::DERATING * 100.0
     );
+    Ok(ExitCode::SUCCESS)
+}
+
+fn run_list(lib: &Library, json: bool) -> Result<ExitCode> {
+    let entries = lib.load()?;
+    if !json {
+        outln!("Library: {}", lib.dir.display());
+    }
+    for e in &entries {
+        let file = e.file.display().to_string();
+        match &e.state {
+            EntryState::Ok { supply, .. } => {
+                let last = supply.visits.iter().map(|v| v.date_text()).max();
+                if json {
+                    outln!(
+                        "{}",
+                        serde_json::json!({"name": supply.name, "file": file, "status": "ok",
+                            "error": null, "visits": supply.visits.len(), "last_visit": last})
+                    );
+                } else {
+                    outln!(
+                        "  {:<40} {:>2} visits  last {:<10}  {}",
+                        supply.name,
+                        supply.visits.len(),
+                        last.unwrap_or_else(|| "-".into()),
+                        supply.rectifier.topology.key()
+                    );
+                }
+            }
+            EntryState::Unreadable { error } => {
+                if json {
+                    outln!(
+                        "{}",
+                        serde_json::json!({"name": e.name(), "file": file, "status": "unreadable",
+                            "error": error, "visits": null, "last_visit": null})
+                    );
+                } else {
+                    outln!("  {:<40} UNREADABLE (left untouched): {error}", e.name());
+                }
+            }
+        }
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+fn export_text(name: &str, cli_dir: &Option<PathBuf>, no_demo: bool) -> Result<String> {
+    let path = Path::new(name);
+    if path.is_file() {
+        return std::fs::read_to_string(path)
+            .with_context(|| format!("{}: cannot read", path.display()));
+    }
+    let entry = library(cli_dir, no_demo)?.find(name)?;
+    match entry.state {
+        EntryState::Ok { text, .. } => Ok(text),
+        EntryState::Unreadable { error } => bail!("{}: {error}", entry.file.display()),
+    }
+}
+
+fn run_log(supply: &Supply, json: bool) -> Result<ExitCode> {
+    let mut visits: Vec<_> = supply.visits.iter().collect();
+    visits.sort_by_key(|v| std::cmp::Reverse(v.date_text()));
+    if json {
+        let list: Vec<_> = visits
+            .iter()
+            .map(|v| {
+                let readings: serde_json::Map<String, serde_json::Value> = v
+                    .readings()
+                    .into_iter()
+                    .map(|(k, x)| (k.to_string(), x.into()))
+                    .collect();
+                serde_json::json!({"date": v.date_text(), "technician": v.technician,
+                    "readings": readings, "notes": v.notes, "replaced": v.replaced})
+            })
+            .collect();
+        outln!(
+            "{}",
+            serde_json::json!({"name": supply.name, "visits": list})
+        );
+        return Ok(ExitCode::SUCCESS);
+    }
+    outln!("{}: {} visits", supply.name, visits.len());
+    for v in visits {
+        let readings: Vec<String> = v
+            .readings()
+            .iter()
+            .map(|(k, x)| format!("{k} {x}"))
+            .collect();
+        outln!("  {}  {}", v.date_text(), readings.join(", "));
+        if !v.notes.is_empty() {
+            outln!("              {}", v.notes);
+        }
+        if !v.replaced.is_empty() {
+            outln!("              replaced: {}", v.replaced.join(", "));
+        }
+    }
     Ok(ExitCode::SUCCESS)
 }

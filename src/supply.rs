@@ -85,6 +85,9 @@ pub struct Supply {
     pub load: Load,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub regulator: Option<Regulator>,
+    /// The service history, oldest first as written (`[[visit]]` tables).
+    #[serde(default, rename = "visit", skip_serializing_if = "Vec::is_empty")]
+    pub visits: Vec<crate::visit::Visit>,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -539,6 +542,29 @@ impl Supply {
         for (key, v) in [("load.min_ohms", l.min_ohms), ("load.max_ohms", l.max_ohms)] {
             if let Some(v) = v {
                 check_above(key, v, 0.0, 1e12, "above 0 ohms")?;
+            }
+        }
+        for (i, v) in self.visits.iter().enumerate() {
+            if v.date.date.is_none() {
+                return Err(SupplyError::OutOfRange {
+                    key: "visit.date",
+                    value: format!("{} (visit {})", v.date, i + 1),
+                    allowed: "a calendar date such as 2026-11-30".into(),
+                });
+            }
+            for (key, value) in v.readings() {
+                let bad = !value.is_finite()
+                    || match key {
+                        "dc_v" => value.abs() > 1e5,
+                        _ => !(0.0..=1e5).contains(&value),
+                    };
+                if bad {
+                    return Err(SupplyError::OutOfRange {
+                        key: "visit reading",
+                        value: format!("{key} = {value} (visit {})", i + 1),
+                        allowed: "a finite reading, not negative (dc_v within 100 kV)".into(),
+                    });
+                }
             }
         }
         if let Some(reg) = &self.regulator {

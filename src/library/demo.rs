@@ -1,0 +1,170 @@
+//! The demo library a first run starts with: the example supplies of an invented scenario
+//! (the Larchmere Valley Water Co-op), some with years of visits in which a filter capacitor
+//! dries out. Every file says it is demo data in its notes.
+
+/// (file stem, file text) of each demo supply.
+pub fn supplies() -> Vec<(&'static str, String)> {
+    vec![
+        (
+            "pump-house-2-relay-rail",
+            format!(
+                "{}{}",
+                include_str!("../../examples/pump-house-relay-rail.toml"),
+                PUMP_HOUSE_VISITS
+            ),
+        ),
+        (
+            "chlorine-dosing-controller",
+            format!(
+                "{}{}",
+                include_str!("../../examples/dosing-controller.toml"),
+                DOSING_VISITS
+            ),
+        ),
+        (
+            "tank-telemetry-radio",
+            format!(
+                "{}{}",
+                include_str!("../../examples/telemetry-radio.toml"),
+                TELEMETRY_VISITS
+            ),
+        ),
+        (
+            "flow-chart-recorder-ht-rail",
+            format!(
+                "{}{}",
+                include_str!("../../examples/chart-recorder-ht.toml"),
+                RECORDER_VISITS
+            ),
+        ),
+        (
+            "valve-actuator-driver",
+            include_str!("../../examples/valve-actuator-split.toml").to_string(),
+        ),
+        (
+            "site-intercom-preamp",
+            include_str!("../../examples/intercom-preamp.toml").to_string(),
+        ),
+        (
+            "float-switch-indicator-lamps",
+            include_str!("../../examples/float-switch-lamps.toml").to_string(),
+        ),
+    ]
+}
+
+// Invented readings: the ripple grows as the 2200 uF can dries out, until it is replaced.
+const PUMP_HOUSE_VISITS: &str = r#"
+[[visit]]
+date = 2021-03-14
+technician = "R. Okafor"
+mains_vrms = 231.0
+dc_v = 28.3
+ripple_pp_v = 1.12
+load_a = 0.35
+notes = "Commissioning check (demo)."
+
+[[visit]]
+date = 2023-06-02
+technician = "R. Okafor"
+mains_vrms = 228.0
+dc_v = 27.9
+ripple_pp_v = 1.34
+load_a = 0.35
+notes = "Annual round (demo)."
+
+[[visit]]
+date = 2025-09-19
+technician = "J. Brandt"
+mains_vrms = 226.0
+dc_v = 27.4
+ripple_pp_v = 1.71
+ripple_hz = 100.0
+load_a = 0.34
+notes = "Relays chatter at pump start (demo)."
+
+[[visit]]
+date = 2026-11-30
+technician = "J. Brandt"
+mains_vrms = 226.0
+secondary_vac = 23.6
+dc_v = 26.9
+ripple_pp_v = 2.2
+ripple_hz = 100.0
+load_a = 0.34
+notes = "Capacitor top domed; replaced (demo)."
+replaced = ["C3 2200uF 50V 105C"]
+"#;
+
+const DOSING_VISITS: &str = r#"
+[[visit]]
+date = 2022-01-10
+dc_v = 17.4
+ripple_pp_v = 1.05
+notes = "Demo visit."
+
+[[visit]]
+date = 2024-02-21
+dc_v = 17.1
+ripple_pp_v = 1.38
+notes = "Demo visit."
+
+[[visit]]
+date = 2026-04-08
+dc_v = 16.6
+ripple_pp_v = 1.95
+notes = "Dosing pump stutters at low line (demo)."
+"#;
+
+const TELEMETRY_VISITS: &str = r#"
+[[visit]]
+date = 2023-05-05
+mains_vrms = 233.0
+dc_v = 10.8
+ripple_rms_v = 0.37
+notes = "Demo visit."
+
+[[visit]]
+date = 2025-05-12
+mains_vrms = 229.0
+dc_v = 10.5
+ripple_rms_v = 0.52
+notes = "Radio drops out on transmit (demo)."
+"#;
+
+const RECORDER_VISITS: &str = r#"
+[[visit]]
+date = 2020-10-01
+dc_v = 303.0
+ripple_pp_v = 7.1
+notes = "Restored; capacitors reformed (demo)."
+
+[[visit]]
+date = 2024-10-03
+dc_v = 299.0
+ripple_pp_v = 9.4
+notes = "Hum on the pen drive (demo)."
+"#;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::supply::Supply;
+
+    #[test]
+    fn demo_supplies_read_and_say_they_are_demo() {
+        let all = supplies();
+        assert!(all.len() >= 4);
+        let mut topologies = std::collections::BTreeSet::new();
+        for (stem, text) in &all {
+            let s = Supply::from_toml_str(text).unwrap_or_else(|e| panic!("{stem}: {e}"));
+            assert!(s.notes.to_lowercase().contains("demo"), "{stem}");
+            topologies.insert(s.rectifier.topology.key());
+        }
+        assert!(topologies.len() >= 4);
+        let with_history = all
+            .iter()
+            .filter(|(_, t)| Supply::from_toml_str(t).unwrap().visits.len() >= 2)
+            .count();
+        assert!(with_history >= 4);
+    }
+}
