@@ -4,6 +4,7 @@
 
 pub mod circuit;
 pub mod supply;
+pub mod tui;
 pub mod units;
 pub mod visit;
 

@@ -37,6 +37,7 @@ const EXIT_STATUS: &str = "Exit status: 0 success; 1 a rating check failed (repo
                            touching; follow local codes and licensed practice.";
 
 /// What a transformer-rectifier-capacitor DC supply should read, from the real circuit.
+/// With no command, opens the screen on the library.
 #[derive(Parser)]
 #[command(name = "railcheck", version, after_help = EXIT_STATUS)]
 struct Cli {
@@ -153,9 +154,9 @@ fn main() -> ExitCode {
 fn try_main(cli: Cli) -> Result<ExitCode> {
     match cli.command {
         None => {
-            use clap::CommandFactory;
-            Cli::command().print_help().ok();
-            outln!("");
+            let lib = library(&cli.library, cli.no_demo)?;
+            let app = railcheck::tui::app::App::new(lib)?;
+            railcheck::tui::run(app)?;
             Ok(ExitCode::SUCCESS)
         }
         Some(Command::Report {

@@ -236,9 +236,21 @@ pub struct WorstCase {
     pub extents: Vec<(&'static str, Extent)>,
     /// Each point solved, its words and its figures.
     pub solved: Vec<(String, Figures)>,
+    /// The conditions of each point, in the same order.
+    pub conditions: Vec<Conditions>,
 }
 
 impl WorstCase {
+    /// The conditions of the point where the rail dips lowest (the low corner).
+    pub fn low_corner(&self) -> Option<(&str, Conditions)> {
+        let (i, _) = self
+            .solved
+            .iter()
+            .enumerate()
+            .min_by(|a, b| a.1.1.min_v.total_cmp(&b.1.1.min_v))?;
+        Some((self.solved[i].0.as_str(), self.conditions[i]))
+    }
+
     /// The extent of the figure named `name` (a [`Figures::named`] name).
     pub fn extent(&self, name: &str) -> Option<&Extent> {
         self.extents
@@ -262,6 +274,7 @@ pub fn worst_case_in(
     base: &Conditions,
 ) -> Result<WorstCase, CircuitError> {
     let mut solved = Vec::new();
+    let mut conditions = Vec::new();
     for p in points(tbox) {
         let mut cond = p.conditions(tbox);
         cond.mains_vrms = base.mains_vrms;
@@ -272,6 +285,7 @@ pub fn worst_case_in(
         }
         let op = circuit::solve(supply, &cond)?;
         solved.push((p.describe(tbox), op.figures));
+        conditions.push(cond);
     }
     let names = solved[0].1.named().map(|(n, _)| n);
     let mut extents = Vec::new();
@@ -302,6 +316,7 @@ pub fn worst_case_in(
         tolerances: tbox.describe(),
         extents,
         solved,
+        conditions,
     })
 }
 

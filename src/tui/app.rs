@@ -1,0 +1,813 @@
+//! The screen's state (the model) and how messages change it (the update). Nothing here draws
+//! or reads the terminal, so key sequences are tested by calling `update`.
+
+use super::fields::FIELDS;
+use crate::analysis::cautions::{SAFE_TOUCH_V, cautions};
+use crate::analysis::checks::{self, Check};
+use crate::analysis::worst_case::{self, WorstCase};
+use crate::circuit::{self, HandEstimate, Operating};
+use crate::library::{Entry, EntryState, Library, LibraryError, read_entry};
+use crate::supply::{Supply, Topology};
+use crate::visit::Visit;
+
+/// The panel that has the keyboard.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Panel {
+    List,
+    Form,
+    Results,
+}
+
+/// What the keys are doing now.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Mode {
+    Normal,
+    /// Typing a new value into the form field.
+    Editing {
+        buffer: String,
+    },
+    /// Typing the list filter.
+    Filter,
+    Help,
+    /// Asking before something that cannot be taken back from the keyboard.
+    Confirm(Confirm),
+    /// Choosing a topology for a new supply.
+    NewSupply {
+        topology: usize,
+    },
+    /// Typing readings for a new visit.
+    Visit(VisitForm),
+    /// The save was refused: the file changed on disk since it was loaded.
+    Conflict,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Confirm {
+    Delete,
+    /// Leaving what-if: keep the scratch values or go back.
+    EndWhatIf,
+}
+
+/// The readings form of a visit being recorded.
+#[derive(Debug, Clone, PartialEq)]
+pub struct VisitForm {
+    pub field: usize,
+    pub values: Vec<String>,
+    pub error: Option<String>,
+}
+
+/// The readings a visit form asks for, in order, with their visit keys.
+pub const VISIT_FIELDS: [(&str, &str); 9] = [
+    ("Date (YYYY-MM-DD)", "date"),
+    ("Mains RMS V", "mains_vrms"),
+    ("Secondary AC V", "secondary_vac"),
+    ("DC V", "dc_v"),
+    ("Ripple p-p V (scope)", "ripple_pp_v"),
+    ("Ripple RMS V (meter)", "ripple_rms_v"),
+    ("Ripple Hz", "ripple_hz"),
+    ("Load A", "load_a"),
+    ("Notes", "notes"),
+];
+
+/// Everything the results panel and the sketch show for one supply.
+#[derive(Debug, Clone)]
+pub struct Solved {
+    pub nominal: Operating,
+    pub hand: HandEstimate,
+    pub worst: WorstCase,
+    pub checks: Vec<Check>,
+    pub not_rated: Vec<&'static str>,
+    pub cautions: Vec<String>,
+    /// The worst low corner, its words and its solve, for the sketch.
+    pub low: Option<(String, Operating)>,
+}
+
+/// Solves `supply` for the screen: nominal, worst case, checks, cautions, low corner.
+pub fn solve_for_screen(supply: &Supply) -> Result<Solved, String> {
+    let (nominal, hand) = circuit::solve_nominal(supply).map_err(|e| e.to_string())?;
+    let worst = worst_case::worst_case(supply).map_err(|e| e.to_string())?;
+    let (stress, no_load) = worst_case::voltage_stress(supply).map_err(|e| e.to_string())?;
+    let (checks, not_rated) = checks::checks(supply, &worst, &stress, no_load);
+    let cautions = cautions(supply, stress.max_v, SAFE_TOUCH_V);
+    let low = worst.low_corner().and_then(|(words, cond)| {
+        circuit::solve(supply, &cond)
+            .ok()
+            .map(|op| (words.to_string(), op))
+    });
+    Ok(Solved {
+        nominal,
+        hand,
+        worst,
+        checks,
+        not_rated,
+        cautions,
+        low,
+    })
+}
+
+/// The supply open in the form.
+#[derive(Debug, Clone)]
+pub struct Open {
+    pub entry: Entry,
+    /// The working copy the form edits.
+    pub supply: Supply,
+    /// As it is on disk.
+    pub saved: Supply,
+    pub field: usize,
+    /// A refused value: which field and why.
+    pub field_error: Option<(usize, String)>,
+    pub undo: Vec<Supply>,
+    pub redo: Vec<Supply>,
+    /// In what-if mode: the supply as it was before, and its solve, to compare against.
+    pub what_if: Option<(Supply, Box<Result<Solved, String>>)>,
+    pub solved: Box<Result<Solved, String>>,
+    /// The results panel shows the visits instead of the figures.
+    pub show_visits: bool,
+}
+
+impl Open {
+    fn new(entry: Entry, supply: Supply) -> Open {
+        let solved = Box::new(solve_for_screen(&supply));
+        Open {
+            entry,
+            saved: supply.clone(),
+            supply,
+            field: 0,
+            field_error: None,
+            undo: Vec::new(),
+            redo: Vec::new(),
+            what_if: None,
+            solved,
+            show_visits: false,
+        }
+    }
+
+    /// Edited and not saved (what-if changes do not count: they are scratch).
+    pub fn dirty(&self) -> bool {
+        let real = match &self.what_if {
+            Some((before, _)) => before,
+            None => &self.supply,
+        };
+        *real != self.saved
+    }
+
+    fn set(&mut self, next: Supply) {
+        if next != self.supply {
+            self.undo.push(std::mem::replace(&mut self.supply, next));
+            self.redo.clear();
+            *self.solved = solve_for_screen(&self.supply);
+        }
+    }
+}
+
+/// The whole screen state.
+pub struct App {
+    pub library: Library,
+    pub entries: Vec<Entry>,
+    pub filter: String,
+    /// Index into the filtered list.
+    pub selected: usize,
+    pub panel: Panel,
+    pub mode: Mode,
+    pub open: Option<Open>,
+    pub status: String,
+    pub quit: bool,
+    pub color: bool,
+    /// The sketch shows the worst low corner instead of nominal.
+    pub sketch_low: bool,
+    /// Esc was the last key: a `q` now quits from anywhere.
+    pub escaped: bool,
+}
+
+/// What a key asks for, once the mode has read it.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Msg {
+    Quit,
+    Up,
+    Down,
+    Left,
+    Right,
+    NextPanel,
+    PrevPanel,
+    Enter,
+    Escape,
+    Char(char),
+    Backspace,
+    Help,
+    Save,
+    Undo,
+    Redo,
+    WhatIf,
+    SketchToggle,
+    New,
+    Duplicate,
+    Delete,
+    Visits,
+    AddVisit,
+    Reload,
+}
+
+impl App {
+    /// The screen over `library`, its first supply open.
+    pub fn new(library: Library) -> Result<App, LibraryError> {
+        let entries = library.load()?;
+        let mut app = App {
+            library,
+            entries,
+            filter: String::new(),
+            selected: 0,
+            panel: Panel::List,
+            mode: Mode::Normal,
+            open: None,
+            status: "? help   Tab panels   Enter edit   q quit".into(),
+            quit: false,
+            color: std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty()),
+            sketch_low: false,
+            escaped: false,
+        };
+        app.open_selected();
+        Ok(app)
+    }
+
+    /// The entries the filter lets through, as indexes into `entries`.
+    pub fn visible(&self) -> Vec<usize> {
+        let f = self.filter.to_lowercase();
+        (0..self.entries.len())
+            .filter(|&i| f.is_empty() || self.entries[i].name().to_lowercase().contains(&f))
+            .collect()
+    }
+
+    fn open_selected(&mut self) {
+        let vis = self.visible();
+        let Some(&i) = vis.get(self.selected) else {
+            self.open = None;
+            return;
+        };
+        let entry = self.entries[i].clone();
+        self.open = match &entry.state {
+            EntryState::Ok { supply, .. } => {
+                let s = (**supply).clone();
+                Some(Open::new(entry, s))
+            }
+            EntryState::Unreadable { .. } => None,
+        };
+    }
+
+    /// Saves the open supply if it was edited; true if nothing is left unsaved.
+    pub fn save_open(&mut self) -> bool {
+        let Some(open) = &mut self.open else {
+            return true;
+        };
+        if !open.dirty() {
+            return true;
+        }
+        let to_save = match &open.what_if {
+            Some((before, _)) => before.clone(),
+            None => open.supply.clone(),
+        };
+        match self.library.save(&open.entry, &to_save) {
+            Ok(path) => {
+                open.entry = read_entry(&path);
+                open.saved = to_save;
+                self.status = format!("saved {}", path.display());
+                self.refresh_entries();
+                true
+            }
+            Err(LibraryError::ChangedOnDisk(_)) => {
+                self.mode = Mode::Conflict;
+                false
+            }
+            Err(e) => {
+                self.status = format!("not saved: {e}");
+                false
+            }
+        }
+    }
+
+    fn refresh_entries(&mut self) {
+        if let Ok(e) = self.library.load() {
+            self.entries = e;
+        }
+        let vis = self.visible();
+        if self.selected >= vis.len() {
+            self.selected = vis.len().saturating_sub(1);
+        }
+    }
+
+    fn select(&mut self, index: usize) {
+        if index == self.selected {
+            return;
+        }
+        // Leaving a supply saves it; a refused save keeps it open for the technician to decide.
+        if !self.save_open() {
+            return;
+        }
+        self.selected = index;
+        self.open_selected();
+    }
+
+    fn select_file(&mut self, path: &std::path::Path) {
+        self.refresh_entries();
+        let vis = self.visible();
+        if let Some(pos) = vis.iter().position(|&i| self.entries[i].file == path) {
+            self.selected = pos;
+        }
+        self.open_selected();
+    }
+
+    /// Applies one message (volts and the rest as the form's fields take them).
+    pub fn update(&mut self, msg: Msg) {
+        let was_escape = msg == Msg::Escape;
+        match self.mode.clone() {
+            Mode::Normal => self.normal(msg),
+            Mode::Editing { buffer } => self.editing(msg, buffer),
+            Mode::Filter => self.filtering(msg),
+            Mode::Help => {
+                if matches!(msg, Msg::Escape | Msg::Enter | Msg::Help | Msg::Char('q')) {
+                    self.mode = Mode::Normal;
+                }
+            }
+            Mode::Confirm(what) => self.confirm(what, msg),
+            Mode::NewSupply { topology } => self.new_supply(msg, topology),
+            Mode::Visit(form) => self.visit_form(msg, form),
+            Mode::Conflict => self.conflict(msg),
+        }
+        self.escaped = was_escape;
+    }
+
+    fn quit_now(&mut self) {
+        if let Some(open) = &mut self.open
+            && open.what_if.is_some()
+        {
+            // Scratch values are never saved by quitting; the real edits underneath are.
+            let (before, solved) = open.what_if.take().expect("what-if");
+            open.supply = before;
+            open.solved = solved;
+        }
+        if self.save_open() {
+            self.quit = true;
+        }
+    }
+
+    fn normal(&mut self, msg: Msg) {
+        match msg {
+            Msg::Quit => self.quit_now(),
+            Msg::Char('q') => self.quit_now(),
+            Msg::Help | Msg::Char('?') => self.mode = Mode::Help,
+            Msg::NextPanel => {
+                self.panel = match self.panel {
+                    Panel::List => Panel::Form,
+                    Panel::Form => Panel::Results,
+                    Panel::Results => Panel::List,
+                }
+            }
+            Msg::PrevPanel => {
+                self.panel = match self.panel {
+                    Panel::List => Panel::Results,
+                    Panel::Form => Panel::List,
+                    Panel::Results => Panel::Form,
+                }
+            }
+            Msg::Escape => {
+                if let Some(o) = &mut self.open {
+                    o.field_error = None;
+                }
+            }
+            Msg::Up | Msg::Char('k') => self.move_by(-1),
+            Msg::Down | Msg::Char('j') => self.move_by(1),
+            Msg::Left | Msg::Char('h') => self.cycle_choice(false),
+            Msg::Right | Msg::Char('l') => self.cycle_choice(true),
+            Msg::Enter => match self.panel {
+                Panel::List => self.panel = Panel::Form,
+                Panel::Form => {
+                    if let Some(o) = &self.open {
+                        let key = FIELDS[o.field].key;
+                        let text = key.show(&o.supply);
+                        let text = if text == "-" || text.ends_with("(nameplate)") {
+                            String::new()
+                        } else {
+                            text
+                        };
+                        self.mode = Mode::Editing { buffer: text };
+                    }
+                }
+                Panel::Results => {}
+            },
+            Msg::Char('/') => {
+                self.panel = Panel::List;
+                self.mode = Mode::Filter;
+            }
+            Msg::Save | Msg::Char('s') => self.save_now(),
+            Msg::Undo | Msg::Char('u') => self.undo(true),
+            Msg::Redo | Msg::Char('U') => self.undo(false),
+            Msg::WhatIf | Msg::Char('x') => self.what_if(),
+            Msg::SketchToggle | Msg::Char('w') => self.sketch_low = !self.sketch_low,
+            Msg::New | Msg::Char('n') => self.mode = Mode::NewSupply { topology: 2 },
+            Msg::Duplicate | Msg::Char('c') => self.duplicate(),
+            Msg::Delete | Msg::Char('D') if self.open.is_some() => {
+                self.mode = Mode::Confirm(Confirm::Delete);
+            }
+            Msg::Visits | Msg::Char('v') => {
+                if let Some(o) = &mut self.open {
+                    o.show_visits = !o.show_visits;
+                    self.panel = Panel::Results;
+                }
+            }
+            Msg::AddVisit | Msg::Char('a') if self.open.is_some() => {
+                let mut values = vec![String::new(); VISIT_FIELDS.len()];
+                values[0] = today();
+                self.mode = Mode::Visit(VisitForm {
+                    field: 1,
+                    values,
+                    error: None,
+                });
+            }
+            Msg::Reload | Msg::Char('R') => {
+                self.refresh_entries();
+                self.open_selected();
+                self.status = "reloaded from disk".into();
+            }
+            _ => {}
+        }
+    }
+
+    fn save_now(&mut self) {
+        if self.save_open() {
+            self.status = match &self.open {
+                Some(o) => format!("saved {}", o.entry.file.display()),
+                None => "nothing to save".into(),
+            };
+        }
+    }
+
+    fn move_by(&mut self, delta: i64) {
+        match self.panel {
+            Panel::List => {
+                let n = self.visible().len() as i64;
+                if n > 0 {
+                    let next = (self.selected as i64 + delta).clamp(0, n - 1) as usize;
+                    self.select(next);
+                }
+            }
+            Panel::Form => {
+                if let Some(o) = &mut self.open {
+                    let n = FIELDS.len() as i64;
+                    o.field = (o.field as i64 + delta).clamp(0, n - 1) as usize;
+                }
+            }
+            Panel::Results => {}
+        }
+    }
+
+    fn cycle_choice(&mut self, forward: bool) {
+        if self.panel != Panel::Form {
+            return;
+        }
+        let Some(o) = &mut self.open else { return };
+        let key = FIELDS[o.field].key;
+        if let Some(word) = key.cycle(&o.supply, forward) {
+            match key.apply(&o.supply, &word) {
+                Ok(next) => {
+                    o.field_error = None;
+                    o.set(next);
+                    self.autosave();
+                }
+                Err(e) => o.field_error = Some((o.field, e)),
+            }
+        }
+    }
+
+    /// Edits are saved as soon as they are applied, through the library's safe save, so a
+    /// closed terminal or a flat battery loses nothing; what-if values are scratch and wait.
+    fn autosave(&mut self) {
+        let scratch = self.open.as_ref().is_some_and(|o| o.what_if.is_some());
+        if !scratch {
+            self.save_open();
+        }
+    }
+
+    fn editing(&mut self, msg: Msg, mut buffer: String) {
+        match msg {
+            // Quitting while typing keeps what was typed, if it is a valid value.
+            Msg::Quit => {
+                self.editing(Msg::Enter, buffer);
+                self.mode = Mode::Normal;
+                self.quit_now();
+            }
+            Msg::Char(c) => {
+                buffer.push(c);
+                self.mode = Mode::Editing { buffer };
+            }
+            Msg::Backspace => {
+                buffer.pop();
+                self.mode = Mode::Editing { buffer };
+            }
+            Msg::Escape => self.mode = Mode::Normal,
+            Msg::Enter => {
+                self.mode = Mode::Normal;
+                let Some(o) = &mut self.open else { return };
+                let key = FIELDS[o.field].key;
+                match key.apply(&o.supply, &buffer) {
+                    Ok(next) => {
+                        o.field_error = None;
+                        o.set(next);
+                        let label = FIELDS[o.field].label;
+                        self.autosave();
+                        if self.mode == Mode::Normal {
+                            self.status = format!("{label} set to {} (saved)", buffer.trim());
+                        }
+                    }
+                    Err(e) => {
+                        // Refused: the old value stays, the reason shows beside the field.
+                        o.field_error = Some((o.field, e));
+                        self.mode = Mode::Editing { buffer };
+                    }
+                }
+            }
+            _ => self.mode = Mode::Editing { buffer },
+        }
+    }
+
+    fn filtering(&mut self, msg: Msg) {
+        match msg {
+            Msg::Char(c) => self.filter.push(c),
+            Msg::Backspace => {
+                self.filter.pop();
+            }
+            Msg::Enter | Msg::Escape | Msg::Down | Msg::Up => {
+                self.mode = Mode::Normal;
+                if msg == Msg::Escape {
+                    self.filter.clear();
+                }
+            }
+            _ => {}
+        }
+        if !self.save_open() {
+            return;
+        }
+        let vis = self.visible();
+        self.selected = self.selected.min(vis.len().saturating_sub(1));
+        let open_file = self.open.as_ref().map(|o| o.entry.file.clone());
+        let now = vis
+            .get(self.selected)
+            .map(|&i| self.entries[i].file.clone());
+        if open_file != now {
+            self.open_selected();
+        }
+    }
+
+    fn undo(&mut self, back: bool) {
+        let Some(o) = &mut self.open else { return };
+        let (from, to) = if back {
+            (&mut o.undo, &mut o.redo)
+        } else {
+            (&mut o.redo, &mut o.undo)
+        };
+        if let Some(prev) = from.pop() {
+            to.push(std::mem::replace(&mut o.supply, prev));
+            *o.solved = solve_for_screen(&o.supply);
+            self.autosave();
+            self.status = if back {
+                "undone (saved)".into()
+            } else {
+                "redone (saved)".into()
+            };
+        }
+    }
+
+    fn what_if(&mut self) {
+        let Some(o) = &mut self.open else { return };
+        if o.what_if.is_some() {
+            self.mode = Mode::Confirm(Confirm::EndWhatIf);
+        } else {
+            o.what_if = Some((o.supply.clone(), o.solved.clone()));
+            self.status = "WHAT-IF: changes are scratch; x to keep or discard".into();
+        }
+    }
+
+    fn confirm(&mut self, what: Confirm, msg: Msg) {
+        let yes = matches!(msg, Msg::Char('y') | Msg::Char('k') | Msg::Enter);
+        let no = matches!(msg, Msg::Char('n') | Msg::Char('d') | Msg::Escape);
+        if !(yes || no) {
+            return;
+        }
+        self.mode = Mode::Normal;
+        match what {
+            Confirm::Delete if yes => self.delete(),
+            Confirm::Delete => {}
+            Confirm::EndWhatIf => {
+                let Some(o) = &mut self.open else { return };
+                let Some((before, solved)) = o.what_if.take() else {
+                    return;
+                };
+                if yes {
+                    // Keep: the scratch values become edits, saved like any other.
+                    o.undo.push(before);
+                    self.autosave();
+                    self.status = "what-if kept as edits (saved)".into();
+                } else {
+                    o.supply = before;
+                    o.solved = solved;
+                    self.status = "what-if discarded".into();
+                }
+            }
+        }
+    }
+
+    fn delete(&mut self) {
+        let Some(o) = &self.open else { return };
+        // Recoverable: the file moves to the library's .trash folder, not away.
+        let trash = self.library.dir.join(".trash");
+        let name = o.entry.file.file_name().unwrap_or_default().to_owned();
+        let moved = std::fs::create_dir_all(&trash)
+            .and_then(|_| std::fs::rename(&o.entry.file, trash.join(&name)));
+        self.status = match moved {
+            Ok(()) => format!("moved to {} (recoverable)", trash.join(&name).display()),
+            Err(e) => format!("not deleted: {e}"),
+        };
+        self.open = None;
+        self.refresh_entries();
+        self.open_selected();
+    }
+
+    fn duplicate(&mut self) {
+        let Some(o) = &self.open else { return };
+        let mut copy = o.supply.clone();
+        copy.name = format!("{} (copy)", copy.name);
+        copy.visits.clear();
+        if !self.save_open() {
+            return;
+        }
+        match self.library.add(&copy, None) {
+            Ok(path) => {
+                self.status = format!("duplicated as {}", path.display());
+                self.select_file(&path);
+            }
+            Err(e) => self.status = format!("not duplicated: {e}"),
+        }
+    }
+
+    fn new_supply(&mut self, msg: Msg, topology: usize) {
+        let n = Topology::ALL.len();
+        match msg {
+            Msg::Up | Msg::Left | Msg::Char('k') => {
+                self.mode = Mode::NewSupply {
+                    topology: (topology + n - 1) % n,
+                }
+            }
+            Msg::Down | Msg::Right | Msg::Char('j') => {
+                self.mode = Mode::NewSupply {
+                    topology: (topology + 1) % n,
+                }
+            }
+            Msg::Escape => self.mode = Mode::Normal,
+            Msg::Enter => {
+                self.mode = Mode::Normal;
+                let t = Topology::ALL[topology];
+                let s = template(t);
+                if !self.save_open() {
+                    return;
+                }
+                match self.library.add(&s, None) {
+                    Ok(path) => {
+                        self.status = format!("new {} supply in {}", t.key(), path.display());
+                        self.select_file(&path);
+                        self.panel = Panel::Form;
+                    }
+                    Err(e) => self.status = format!("not created: {e}"),
+                }
+            }
+            _ => {}
+        }
+    }
+
+    fn visit_form(&mut self, msg: Msg, mut form: VisitForm) {
+        match msg {
+            Msg::Escape => {
+                self.mode = Mode::Normal;
+                return;
+            }
+            Msg::Up => form.field = form.field.saturating_sub(1),
+            Msg::Down | Msg::NextPanel => form.field = (form.field + 1).min(VISIT_FIELDS.len() - 1),
+            Msg::PrevPanel => form.field = form.field.saturating_sub(1),
+            Msg::Char(c) => form.values[form.field].push(c),
+            Msg::Backspace => {
+                form.values[form.field].pop();
+            }
+            Msg::Enter => match self.record_visit(&form) {
+                Ok(()) => {
+                    self.mode = Mode::Normal;
+                    return;
+                }
+                Err(e) => form.error = Some(e),
+            },
+            _ => {}
+        }
+        self.mode = Mode::Visit(form);
+    }
+
+    /// Adds the visit in `form` to the open supply and saves it at once: a visit is a record.
+    fn record_visit(&mut self, form: &VisitForm) -> Result<(), String> {
+        let mut table = toml::Table::new();
+        for ((label, key), text) in VISIT_FIELDS.iter().zip(&form.values) {
+            let text = text.trim();
+            if text.is_empty() {
+                continue;
+            }
+            let value = match *key {
+                "date" => toml::Value::Datetime(
+                    text.parse()
+                        .map_err(|_| format!("{label}: {text:?} is not a date like 2026-11-30"))?,
+                ),
+                "notes" => toml::Value::String(text.to_string()),
+                _ => toml::Value::Float(
+                    crate::units::parse_si(text).map_err(|e| format!("{label}: {e}"))?,
+                ),
+            };
+            table.insert(key.to_string(), value);
+        }
+        let visit: Visit = table
+            .try_into()
+            .map_err(|e: toml::de::Error| e.message().to_string())?;
+        let Some(o) = &mut self.open else {
+            return Err("no supply open".into());
+        };
+        let mut next = match &o.what_if {
+            Some((before, _)) => before.clone(),
+            None => o.supply.clone(),
+        };
+        next.visits.push(visit);
+        next.validate().map_err(|e| e.to_string())?;
+        if o.what_if.is_none() {
+            o.set(next);
+        } else if let Some((before, _)) = &mut o.what_if {
+            *before = next;
+        }
+        o.show_visits = true;
+        if self.save_open() {
+            self.status = "visit recorded and saved".into();
+        }
+        Ok(())
+    }
+
+    fn conflict(&mut self, msg: Msg) {
+        match msg {
+            // Reload: take the file as it is now on disk; the edits here are dropped.
+            Msg::Char('r') => {
+                self.mode = Mode::Normal;
+                self.refresh_entries();
+                self.open_selected();
+                self.status = "reloaded the file from disk; your edits were dropped".into();
+            }
+            // Keep mine: written as a new supply beside theirs, so nothing is lost.
+            Msg::Char('k') => {
+                self.mode = Mode::Normal;
+                let Some(o) = &self.open else { return };
+                let mut mine = o.supply.clone();
+                mine.name = format!("{} (mine)", mine.name);
+                match self.library.add(&mine, None) {
+                    Ok(path) => {
+                        self.status = format!("your version saved as {}", path.display());
+                        self.select_file(&path);
+                    }
+                    Err(e) => self.status = format!("not saved: {e}"),
+                }
+            }
+            Msg::Escape => self.mode = Mode::Normal,
+            _ => {}
+        }
+    }
+}
+
+/// A starting point for a new supply of `topology`: a 230 V, 50 Hz unit with round values.
+pub fn template(topology: Topology) -> Supply {
+    let text = format!(
+        "format = 1\nname = \"New {} supply\"\nnotes = \"\"\n[mains]\nvrms = 230.0\nhz = 50.0\n\
+         [transformer]\nratio = 10.0\nsecondary_ohms = 1.0\n[rectifier]\ntopology = \"{}\"\n\
+         [filter]\nkind = \"capacitor\"\nuf = 2200.0\nesr_ohms = 0.05\n[load]\namps = 0.2\n",
+        topology.key(),
+        topology.key()
+    );
+    Supply::from_toml_str(&text).expect("the template is valid")
+}
+
+/// Today's date as YYYY-MM-DD (UTC), from the system clock.
+pub fn today() -> String {
+    let secs = std::time::SystemTime::now()
+        .duration_since(std::time::UNIX_EPOCH)
+        .map(|d| d.as_secs())
+        .unwrap_or(0);
+    let days = (secs / 86_400) as i64;
+    // Civil date from days since 1970-01-01 (H. Hinnant's algorithm).
+    let z = days + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let y = yoe + era * 400;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let d = doy - (153 * mp + 2) / 5 + 1;
+    let m = if mp < 10 { mp + 3 } else { mp - 9 };
+    let y = if m <= 2 { y + 1 } else { y };
+    format!("{y:04}-{m:02}-{d:02}")
+}

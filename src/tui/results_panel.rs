@@ -1,0 +1,196 @@
+//! The results: each figure's nominal, worst-case min and max and the paper estimate, the
+//! checks with their status words; or the supply's visits.
+
+use super::app::{App, Panel};
+use super::style::Look;
+use crate::analysis::checks::Status;
+use crate::units::format_si;
+use ratatui::buffer::Buffer;
+use ratatui::layout::{Constraint, Rect};
+use ratatui::text::{Line, Span};
+use ratatui::widgets::{Cell, Paragraph, Row, Table, Widget, Wrap};
+
+pub struct ResultsPanel<'a>(pub &'a App);
+
+fn show(v: Option<f64>, unit: &str) -> String {
+    match (v, unit) {
+        (None, _) => "--".into(),
+        (Some(x), _) if !x.is_finite() => "--".into(),
+        (Some(x), "deg") => format!("{x:.0} deg"),
+        (Some(x), "Hz") => format!("{x:.0} Hz"),
+        (Some(x), u) => format_si(x, u),
+    }
+}
+
+/// The figures the panel lists, most asked-for first.
+const ROWS: [(&str, &str, &str); 12] = [
+    ("DC", "dc_v", "V"),
+    ("Ripple p-p", "ripple_pp_v", "V"),
+    ("Valley", "min_v", "V"),
+    ("Crest", "max_v", "V"),
+    ("Ripple RMS", "ripple_rms_v", "V"),
+    ("Load", "load_a", "A"),
+    ("Diode peak", "diode_peak_a", "A"),
+    ("Diode rev.", "diode_piv_v", "V"),
+    ("Winding RMS", "winding_rms_a", "A"),
+    ("Winding VA", "winding_va", "VA"),
+    ("Cap ripple", "cap_ripple_rms_a", "A"),
+    ("Surge", "inrush_peak_a", "A"),
+];
+
+impl Widget for &ResultsPanel<'_> {
+    fn render(self, area: Rect, buf: &mut Buffer) {
+        let app = self.0;
+        let look = Look::new(app.color);
+        let focused = app.panel == Panel::Results;
+        let Some(open) = &app.open else {
+            Paragraph::new("")
+                .block(look.panel("Results", focused))
+                .render(area, buf);
+            return;
+        };
+        if open.show_visits {
+            let mut lines: Vec<Line> = Vec::new();
+            let mut visits: Vec<_> = open.supply.visits.iter().collect();
+            visits.sort_by_key(|v| std::cmp::Reverse(v.date_text()));
+            if visits.is_empty() {
+                lines.push(Line::from("No visits yet: a records one."));
+            }
+            for v in visits {
+                let readings: Vec<String> = v
+                    .readings()
+                    .iter()
+                    .map(|(k, x)| {
+                        format!("{} {x}", k.trim_end_matches("_v").trim_end_matches("_a"))
+                    })
+                    .collect();
+                lines.push(Line::from(vec![
+                    Span::styled(v.date_text(), look.heading()),
+                    Span::raw(format!("  {}", readings.join(", "))),
+                ]));
+                if !v.notes.is_empty() {
+                    lines.push(Line::from(Span::styled(
+                        format!("  {}", v.notes),
+                        look.dim(),
+                    )));
+                }
+            }
+            Paragraph::new(lines)
+                .wrap(Wrap { trim: true })
+                .block(look.panel("Visits (v: back to results)", focused))
+                .render(area, buf);
+            return;
+        }
+        let solved = match open.solved.as_ref() {
+            Ok(s) => s,
+            Err(e) => {
+                Paragraph::new(format!("Cannot solve this supply: {e}"))
+                    .wrap(Wrap { trim: true })
+                    .style(look.fail())
+                    .block(look.panel("Results", focused))
+                    .render(area, buf);
+                return;
+            }
+        };
+        let before = open
+            .what_if
+            .as_ref()
+            .and_then(|(_, s)| s.as_ref().as_ref().ok());
+        let nominal = solved.nominal.figures.named();
+        let value_of = |name: &str| {
+            nominal
+                .iter()
+                .find(|(n, _)| *n == name)
+                .and_then(|(_, v)| *v)
+        };
+        let hand = |name: &str| match name {
+            "dc_v" => Some(solved.hand.dc_v),
+            "ripple_pp_v" => Some(solved.hand.ripple_pp_v),
+            "load_a" => Some(solved.hand.load_a),
+            "max_v" => Some(solved.hand.working_peak_v),
+            _ => None,
+        };
+        let mut rows: Vec<Row> = Vec::new();
+        for (label, name, unit) in ROWS {
+            let e = solved.worst.extent(name);
+            let mut cells = vec![
+                Cell::from(label),
+                Cell::from(show(value_of(name), unit)),
+                Cell::from(show(e.map(|e| e.min), unit)),
+                Cell::from(show(e.map(|e| e.max), unit)),
+            ];
+            let last = match before {
+                // What-if: the change against the saved supply.
+                Some(b) => {
+                    let was = b
+                        .nominal
+                        .figures
+                        .named()
+                        .iter()
+                        .find(|(n, _)| *n == name)
+                        .and_then(|(_, v)| *v);
+                    match (value_of(name), was) {
+                        (Some(now), Some(was)) if was.abs() > 1e-12 => {
+                            format!("{:+.1}%", 100.0 * (now - was) / was.abs())
+                        }
+                        _ => String::new(),
+                    }
+                }
+                None => hand(name).map(|h| show(Some(h), unit)).unwrap_or_default(),
+            };
+            cells.push(Cell::from(last));
+            rows.push(Row::new(cells));
+        }
+        let last_head = if before.is_some() { "Change" } else { "Paper" };
+        let header = Row::new(vec!["Figure", "Nominal", "Worst lo", "Worst hi", last_head])
+            .style(look.heading());
+        let table_height = (ROWS.len() as u16 + 1).min(area.height.saturating_sub(2));
+        let inner = area.inner(ratatui::layout::Margin::new(1, 1));
+        look.panel("Results", focused).render(area, buf);
+        let table_area = Rect {
+            height: table_height,
+            ..inner
+        };
+        Widget::render(
+            Table::new(
+                rows,
+                [
+                    Constraint::Length(12),
+                    Constraint::Length(8),
+                    Constraint::Length(9),
+                    Constraint::Length(9),
+                    Constraint::Min(8),
+                ],
+            )
+            .header(header),
+            table_area,
+            buf,
+        );
+        let mut lines: Vec<Line> = Vec::new();
+        for c in &solved.checks {
+            let style = match c.status {
+                Status::Fail => look.fail(),
+                Status::Warn => look.warn(),
+                Status::Ok => look.ok(),
+            };
+            lines.push(Line::from(vec![
+                Span::styled(format!("{:<4} ", c.status.word()), style),
+                Span::raw(format!("{} {:.3} / {}", c.id, c.value, c.limit)),
+            ]));
+        }
+        if !solved.not_rated.is_empty() {
+            lines.push(Line::from(Span::styled(
+                format!("not rated: {}", solved.not_rated.join(", ")),
+                look.dim(),
+            )));
+        }
+        let rest = Rect {
+            y: table_area.y + table_height,
+            height: inner.height.saturating_sub(table_height),
+            ..inner
+        };
+        Paragraph::new(lines)
+            .wrap(Wrap { trim: true })
+            .render(rest, buf);
+    }
+}

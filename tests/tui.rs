@@ -1,0 +1,327 @@
+//! The screen, driven through its update function and drawn on ratatui's TestBackend: key
+//! sequences that a technician would type, and snapshots of the main screens (insta).
+
+use railcheck::library::Library;
+use railcheck::supply::Supply;
+use railcheck::tui::app::{App, Mode, Msg};
+use railcheck::tui::fields::{FIELDS, Key};
+use ratatui::Terminal;
+use ratatui::backend::TestBackend;
+use std::path::PathBuf;
+
+/// A fresh demo library in a folder whose last two parts are fixed, so the title is stable.
+fn demo(tag: &str) -> (App, PathBuf) {
+    let dir = std::env::temp_dir()
+        .join(format!("railcheck-tui-{}", std::process::id()))
+        .join(tag)
+        .join("demo-lib");
+    let _ = std::fs::remove_dir_all(&dir);
+    let lib = Library::open(&dir, true).unwrap();
+    let mut app = App::new(lib).unwrap();
+    app.color = false;
+    (app, dir)
+}
+
+fn keys(app: &mut App, msgs: &[Msg]) {
+    for m in msgs {
+        app.update(m.clone());
+    }
+}
+
+fn typed(app: &mut App, text: &str) {
+    for c in text.chars() {
+        app.update(Msg::Char(c));
+    }
+}
+
+fn go_to_field(app: &mut App, key: Key) {
+    for _ in 0..3 {
+        if app.panel == railcheck::tui::app::Panel::Form {
+            break;
+        }
+        app.update(Msg::NextPanel);
+    }
+    let target = FIELDS.iter().position(|f| f.key == key).unwrap();
+    for _ in 0..FIELDS.len() {
+        app.update(Msg::Up);
+    }
+    for _ in 0..target {
+        app.update(Msg::Down);
+    }
+}
+
+fn select(app: &mut App, name: &str) {
+    let pos = app
+        .visible()
+        .iter()
+        .position(|&i| app.entries[i].name() == name)
+        .unwrap();
+    for _ in 0..app.entries.len() {
+        app.update(Msg::Up);
+    }
+    for _ in 0..pos {
+        app.update(Msg::Down);
+    }
+    assert_eq!(app.open.as_ref().unwrap().supply.name, name);
+}
+
+fn figure(app: &App, name: &str) -> f64 {
+    let solved = app.open.as_ref().unwrap().solved.as_ref().as_ref().unwrap();
+    solved
+        .nominal
+        .figures
+        .named()
+        .iter()
+        .find(|(n, _)| *n == name)
+        .unwrap()
+        .1
+        .unwrap()
+}
+
+fn screen(app: &App, w: u16, h: u16) -> String {
+    let mut t = Terminal::new(TestBackend::new(w, h)).unwrap();
+    t.draw(|f| railcheck::tui::view::view(app, f)).unwrap();
+    t.backend().to_string()
+}
+
+const PUMP: &str = "Pump-house 2, relay rail";
+
+#[test]
+fn editing_the_capacitance_changes_the_results_and_saves() {
+    let (mut app, _) = demo("edit");
+    select(&mut app, PUMP);
+    let ripple_before = figure(&app, "ripple_pp_v");
+    go_to_field(&mut app, Key::Uf);
+    app.update(Msg::Enter);
+    for _ in 0..10 {
+        app.update(Msg::Backspace);
+    }
+    typed(&mut app, "1m");
+    app.update(Msg::Enter);
+    let o = app.open.as_ref().unwrap();
+    assert_eq!(o.supply.filter.uf, Some(1000.0), "1m is 1 mF, 1000 uF");
+    let ripple_after = figure(&app, "ripple_pp_v");
+    // Half the capacitance, about twice the ripple.
+    assert!(
+        ripple_after > 1.8 * ripple_before,
+        "{ripple_before} -> {ripple_after}"
+    );
+    // Saved at once through the library.
+    let on_disk = Supply::from_toml_str(&std::fs::read_to_string(&o.entry.file).unwrap()).unwrap();
+    assert_eq!(on_disk.filter.uf, Some(1000.0));
+    // Undo brings it back, and saves that too.
+    app.update(Msg::Char('u'));
+    assert_eq!(app.open.as_ref().unwrap().supply.filter.uf, Some(2200.0));
+    let file = app.open.as_ref().unwrap().entry.file.clone();
+    let on_disk = Supply::from_toml_str(&std::fs::read_to_string(file).unwrap()).unwrap();
+    assert_eq!(on_disk.filter.uf, Some(2200.0));
+}
+
+#[test]
+fn an_invalid_value_shows_why_and_keeps_the_old_value() {
+    let (mut app, _) = demo("invalid");
+    select(&mut app, PUMP);
+    go_to_field(&mut app, Key::Uf);
+    app.update(Msg::Enter);
+    for _ in 0..10 {
+        app.update(Msg::Backspace);
+    }
+    typed(&mut app, "-47");
+    app.update(Msg::Enter);
+    let o = app.open.as_ref().unwrap();
+    assert_eq!(o.supply.filter.uf, Some(2200.0));
+    let (_, why) = o.field_error.as_ref().expect("a reason is shown");
+    assert!(why.contains("filter.uf") && why.contains("-47"), "{why}");
+    assert!(
+        matches!(app.mode, Mode::Editing { .. }),
+        "the typed text stays to be corrected"
+    );
+    let shown = screen(&app, 120, 40);
+    assert!(shown.contains("! `filter.uf` must be"), "{shown}");
+    // Text that is not a number at all.
+    for _ in 0..10 {
+        app.update(Msg::Backspace);
+    }
+    typed(&mut app, "abc");
+    app.update(Msg::Enter);
+    assert_eq!(app.open.as_ref().unwrap().supply.filter.uf, Some(2200.0));
+    app.update(Msg::Escape);
+    assert_eq!(app.mode, Mode::Normal);
+}
+
+#[test]
+fn what_if_discard_leaves_the_file_as_it_was() {
+    let (mut app, _) = demo("whatif");
+    select(&mut app, PUMP);
+    let file = app.open.as_ref().unwrap().entry.file.clone();
+    let before = std::fs::read(&file).unwrap();
+    app.update(Msg::Char('x'));
+    go_to_field(&mut app, Key::Uf);
+    app.update(Msg::Enter);
+    for _ in 0..10 {
+        app.update(Msg::Backspace);
+    }
+    typed(&mut app, "470");
+    app.update(Msg::Enter);
+    assert_eq!(app.open.as_ref().unwrap().supply.filter.uf, Some(470.0));
+    // The screen shows the change against the saved supply.
+    let shown = screen(&app, 120, 40);
+    assert!(
+        shown.contains("WHAT-IF") && shown.contains("Change") && shown.contains("(was 2200)"),
+        "{shown}"
+    );
+    assert_eq!(
+        std::fs::read(&file).unwrap(),
+        before,
+        "scratch values are not saved"
+    );
+    app.update(Msg::Char('x'));
+    assert!(matches!(app.mode, Mode::Confirm(_)));
+    app.update(Msg::Char('d'));
+    assert_eq!(app.open.as_ref().unwrap().supply.filter.uf, Some(2200.0));
+    keys(&mut app, &[Msg::Escape, Msg::Char('q')]);
+    assert!(app.quit);
+    assert_eq!(std::fs::read(&file).unwrap(), before);
+}
+
+#[test]
+fn quitting_with_an_edit_in_progress_loses_nothing() {
+    let (mut app, _) = demo("quit");
+    select(&mut app, PUMP);
+    go_to_field(&mut app, Key::EsrOhms);
+    app.update(Msg::Enter);
+    for _ in 0..10 {
+        app.update(Msg::Backspace);
+    }
+    typed(&mut app, "0.2");
+    // Ctrl-C while still typing.
+    app.update(Msg::Quit);
+    assert!(app.quit);
+    let file = app.open.as_ref().unwrap().entry.file.clone();
+    let on_disk = Supply::from_toml_str(&std::fs::read_to_string(file).unwrap()).unwrap();
+    assert_eq!(on_disk.filter.esr_ohms, 0.2);
+}
+
+#[test]
+fn esc_then_q_always_quits_and_help_lists_the_keys() {
+    let (mut app, _) = demo("keys");
+    app.update(Msg::Char('?'));
+    assert_eq!(app.mode, Mode::Help);
+    let shown = screen(&app, 80, 24);
+    assert!(
+        shown.contains("Keys (Esc closes)") && shown.contains("what-if"),
+        "{shown}"
+    );
+    // From the middle of typing a filter: Esc, then q.
+    keys(
+        &mut app,
+        &[
+            Msg::Escape,
+            Msg::Char('/'),
+            Msg::Char('p'),
+            Msg::Escape,
+            Msg::Char('q'),
+        ],
+    );
+    assert!(app.quit);
+}
+
+#[test]
+fn filter_new_duplicate_delete_and_visits() {
+    let (mut app, dir) = demo("library-work");
+    let n = app.entries.len();
+    keys(&mut app, &[Msg::Char('/')]);
+    typed(&mut app, "tank");
+    assert_eq!(app.visible().len(), 1);
+    keys(&mut app, &[Msg::Enter]);
+    assert_eq!(
+        app.open.as_ref().unwrap().supply.name,
+        "Tank telemetry radio"
+    );
+    keys(&mut app, &[Msg::Char('/'), Msg::Escape]);
+    assert_eq!(app.visible().len(), n);
+    // New from a template.
+    keys(&mut app, &[Msg::Char('n'), Msg::Down, Msg::Enter]);
+    assert_eq!(app.entries.len(), n + 1);
+    assert!(app.open.as_ref().unwrap().supply.name.starts_with("New "));
+    // Duplicate, then delete the copy: it goes to .trash, not away.
+    keys(&mut app, &[Msg::Char('c')]);
+    assert_eq!(app.entries.len(), n + 2);
+    let copy = app.open.as_ref().unwrap().entry.file.clone();
+    keys(&mut app, &[Msg::Char('D'), Msg::Char('y')]);
+    assert_eq!(app.entries.len(), n + 1);
+    assert!(!copy.exists());
+    assert!(dir.join(".trash").join(copy.file_name().unwrap()).exists());
+    // A visit: readings typed, saved into the file.
+    select(&mut app, PUMP);
+    let visits = app.open.as_ref().unwrap().supply.visits.len();
+    keys(&mut app, &[Msg::Char('a'), Msg::Down, Msg::Down]);
+    typed(&mut app, "27.1");
+    keys(&mut app, &[Msg::Down]);
+    typed(&mut app, "1.9");
+    keys(&mut app, &[Msg::Enter]);
+    assert_eq!(app.mode, Mode::Normal, "{:?}", app.mode);
+    let o = app.open.as_ref().unwrap();
+    assert_eq!(o.supply.visits.len(), visits + 1);
+    let on_disk = Supply::from_toml_str(&std::fs::read_to_string(&o.entry.file).unwrap()).unwrap();
+    let last = on_disk.visits.last().unwrap();
+    assert_eq!((last.dc_v, last.ripple_pp_v), (Some(27.1), Some(1.9)));
+    assert!(screen(&app, 100, 30).contains("Visits"));
+    // A bad reading is refused with its reason.
+    keys(&mut app, &[Msg::Char('a')]);
+    typed(&mut app, "lots");
+    keys(&mut app, &[Msg::Enter]);
+    match &app.mode {
+        Mode::Visit(f) => assert!(f.error.as_ref().unwrap().contains("Mains")),
+        other => panic!("{other:?}"),
+    }
+}
+
+#[test]
+fn an_unreadable_file_is_listed_and_left_alone() {
+    let (_, dir) = demo("unreadable");
+    let bad = b"format = 1\nname = \"half\"\n[mains\n";
+    std::fs::write(dir.join("broken.toml"), bad).unwrap();
+    let mut app = App::new(Library::open(&dir, true).unwrap()).unwrap();
+    app.color = false;
+    let shown = screen(&app, 100, 30);
+    assert!(shown.contains("broken.toml unreadable"), "{shown}");
+    let pos = app
+        .visible()
+        .iter()
+        .position(|&i| app.entries[i].name() == "broken.toml")
+        .unwrap();
+    for _ in 0..pos {
+        app.update(Msg::Down);
+    }
+    assert!(app.open.is_none());
+    assert!(screen(&app, 100, 30).contains("Unreadable file, left as it is"));
+    keys(&mut app, &[Msg::Char('s'), Msg::Char('q')]);
+    assert_eq!(std::fs::read(dir.join("broken.toml")).unwrap(), bad);
+}
+
+#[test]
+fn screens_at_80x24_and_120x40() {
+    for (w, h) in [(80u16, 24u16), (120, 40)] {
+        let (mut app, _) = demo(&format!("snap-{w}"));
+        select(&mut app, PUMP);
+        insta::assert_snapshot!(format!("main_{w}x{h}"), screen(&app, w, h));
+        app.update(Msg::Char('w'));
+        insta::assert_snapshot!(format!("low_corner_{w}x{h}"), screen(&app, w, h));
+        app.update(Msg::Char('w'));
+        app.update(Msg::Char('?'));
+        insta::assert_snapshot!(format!("help_{w}x{h}"), screen(&app, w, h));
+        app.update(Msg::Escape);
+        app.update(Msg::Char('v'));
+        insta::assert_snapshot!(format!("visits_{w}x{h}"), screen(&app, w, h));
+        app.update(Msg::Char('v'));
+        go_to_field(&mut app, Key::Uf);
+        app.update(Msg::Enter);
+        for _ in 0..10 {
+            app.update(Msg::Backspace);
+        }
+        typed(&mut app, "-47");
+        app.update(Msg::Enter);
+        insta::assert_snapshot!(format!("refused_value_{w}x{h}"), screen(&app, w, h));
+    }
+}
