@@ -512,9 +512,14 @@ impl App {
                         o.field_error = None;
                         o.set(next);
                         let label = FIELDS[o.field].label;
+                        let scratch = o.what_if.is_some();
                         self.autosave();
                         if self.mode == Mode::Normal {
-                            self.status = format!("{label} set to {} (saved)", buffer.trim());
+                            self.status = if scratch {
+                                format!("{label} set to {} (what-if: not saved)", buffer.trim())
+                            } else {
+                                format!("{label} set to {} (saved)", buffer.trim())
+                            };
                         }
                     }
                     Err(e) => {
