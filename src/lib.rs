@@ -3,6 +3,7 @@
 //! are thin shells around these functions.
 
 pub mod circuit;
+pub mod diagnose;
 pub mod supply;
 pub mod tui;
 pub mod units;

@@ -4,6 +4,7 @@ use anyhow::{Context, Result, bail};
 use clap::{Parser, Subcommand};
 use railcheck::analysis::cautions::SAFE_TOUCH_V;
 use railcheck::analysis::sizing::{self, Target};
+use railcheck::diagnose::{self, Readings};
 use railcheck::library::{EntryState, Library};
 use railcheck::report;
 use railcheck::supply::Supply;
@@ -106,7 +107,38 @@ enum Command {
         #[arg(short, long, value_name = "FILE")]
         output: Option<PathBuf>,
     },
-    /// A supply's visits, newest first, with their readings.
+    /// Compare readings with what the supply should read and rank the faults that fit.
+    Diagnose {
+        #[arg(value_name = "NAME_OR_FILE")]
+        name: String,
+        /// Mains RMS volts at the outlet.
+        #[arg(long, value_name = "V")]
+        mains: Option<f64>,
+        /// Secondary AC volts, whole winding (RMS).
+        #[arg(long, value_name = "V")]
+        secondary: Option<f64>,
+        /// DC volts on the rail.
+        #[arg(long, value_name = "V")]
+        dc: Option<f64>,
+        /// Ripple peak-peak, scope AC coupled (volts).
+        #[arg(long, value_name = "V", conflicts_with = "ripple_rms")]
+        ripple_pp: Option<f64>,
+        /// Ripple RMS, true-RMS meter on AC volts across the rail.
+        #[arg(long, value_name = "V")]
+        ripple_rms: Option<f64>,
+        /// Ripple frequency (hertz).
+        #[arg(long, value_name = "HZ")]
+        ripple_hz: Option<f64>,
+        /// Load current (amps).
+        #[arg(long, value_name = "A")]
+        load: Option<f64>,
+        #[arg(long)]
+        json: bool,
+        /// Record the readings and the verdict as a visit in the library.
+        #[arg(long)]
+        save: bool,
+    },
+    /// A supply's visits, newest first, with their readings and the capacitance trend.
     Log {
         #[arg(value_name = "NAME_OR_FILE")]
         name: String,
@@ -202,6 +234,29 @@ fn try_main(cli: Cli) -> Result<ExitCode> {
                 }
             }
             Ok(ExitCode::SUCCESS)
+        }
+        Some(Command::Diagnose {
+            name,
+            mains,
+            secondary,
+            dc,
+            ripple_pp,
+            ripple_rms,
+            ripple_hz,
+            load,
+            json,
+            save,
+        }) => {
+            let readings = Readings {
+                mains_vrms: mains,
+                secondary_vac: secondary,
+                dc_v: dc,
+                ripple_pp_v: ripple_pp,
+                ripple_rms_v: ripple_rms,
+                ripple_hz,
+                load_a: load,
+            };
+            run_diagnose(&name, readings, json, save, &cli.library, cli.no_demo)
         }
         Some(Command::Log { name, json }) => {
             let (supply, _) = resolve(&name, &cli.library, cli.no_demo)?;
@@ -378,6 +433,7 @@ fn export_text(name: &str, cli_dir: &Option<PathBuf>, no_demo: bool) -> Result<S
 }
 
 fn run_log(supply: &Supply, json: bool) -> Result<ExitCode> {
+    let trend = diagnose::trend::trend(supply);
     let mut visits: Vec<_> = supply.visits.iter().collect();
     visits.sort_by_key(|v| std::cmp::Reverse(v.date_text()));
     if json {
@@ -414,5 +470,90 @@ fn run_log(supply: &Supply, json: bool) -> Result<ExitCode> {
             outln!("              replaced: {}", v.replaced.join(", "));
         }
     }
+    outln!("  Capacitance the readings imply:");
+    for p in &trend.points {
+        match p.uf {
+            Some(uf) => outln!("    {}  {:>8.0} uF", p.date, uf),
+            None => outln!("    {}  (no ripple or DC reading)", p.date),
+        }
+    }
+    if let Some(s) = trend.uf_per_year {
+        outln!(
+            "  Drift {s:+.0} uF a year; limit {:.0} uF ({})",
+            trend.limit_uf,
+            trend.limit
+        );
+    }
+    if let Some(c) = &trend.crossing {
+        let range = match (&c.earliest, &c.latest) {
+            (Some(a), Some(b)) => format!(" (between {a} and {b})"),
+            _ => String::new(),
+        };
+        outln!("  Projected to cross the limit about {}{range}", c.date);
+    }
+    outln!("  {}", trend.note);
+    Ok(ExitCode::SUCCESS)
+}
+
+fn run_diagnose(
+    name: &str,
+    readings: Readings,
+    json: bool,
+    save: bool,
+    cli_dir: &Option<PathBuf>,
+    no_demo: bool,
+) -> Result<ExitCode> {
+    let (supply, file) = resolve(name, cli_dir, no_demo)?;
+    let d = diagnose::diagnose(&supply, &readings).map_err(|e| anyhow::anyhow!("{e}"))?;
+    if save {
+        let lib = library(cli_dir, no_demo)?;
+        let entry = lib.find(&file).or_else(|_| lib.find(&supply.name))?;
+        if entry.file.parent() != Some(lib.dir.as_path()) {
+            bail!(
+                "--save records a visit in the library, and {} is not in it (railcheck import it first)",
+                entry.file.display()
+            );
+        }
+        let mut next = entry
+            .supply()
+            .context("the supply file is unreadable")?
+            .clone();
+        next.visits.push(diagnose::visit_of(
+            &readings,
+            &d,
+            &railcheck::tui::app::today(),
+        ));
+        lib.save(&entry, &next)?;
+        if !json {
+            outln!("recorded as a visit in {}", entry.file.display());
+        }
+    }
+    if json {
+        outln!("{}", diagnose::json(&supply, &d));
+        return Ok(ExitCode::SUCCESS);
+    }
+    outln!("{}: {}", supply.name, d.verdict.to_uppercase());
+    for e in &d.expectations {
+        outln!(
+            "  {:<14} {:>10}  expected {:.3} ({:.3} .. {:.3})  {}",
+            e.reading,
+            format!("{}", e.value),
+            e.nominal,
+            e.min,
+            e.max,
+            e.status.to_uppercase()
+        );
+    }
+    outln!("  Most likely first:");
+    for h in d.hypotheses.iter().take(5) {
+        let est = match h.estimate {
+            Some((k, v)) if !k.is_empty() => format!(" [{k} {v:.3}]"),
+            _ => String::new(),
+        };
+        outln!("  {:>5.1} %  {}{}", 100.0 * h.score, h.fault.key(), est);
+        outln!("           {}", h.why);
+        outln!("           next: {}", h.next_check);
+    }
+    outln!("  Caution: discharge the filter and verify with a meter before touching.");
     Ok(ExitCode::SUCCESS)
 }

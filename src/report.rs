@@ -89,6 +89,12 @@ pub fn figure_rows(f: &Figures) -> Vec<(&'static str, &'static str, Option<f64>,
         ),
         ("Switch-on surge", "inrush_peak_a", f.inrush_peak_a, "A"),
         ("Capacitor peak", "cap_peak_v", Some(f.cap_peak_v), "V"),
+        (
+            "Secondary AC (meter)",
+            "secondary_rms_v",
+            Some(f.secondary_rms_v),
+            "V",
+        ),
     ]
 }
 

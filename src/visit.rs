@@ -35,6 +35,21 @@ pub struct Visit {
     pub notes: String,
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub replaced: Vec<String>,
+    /// The verdict railcheck gave on these readings, when it was asked.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub diagnosis: Option<VisitDiagnosis>,
+}
+
+/// A diagnosis as kept with its visit.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct VisitDiagnosis {
+    /// healthy, suspect or fault.
+    pub verdict: String,
+    /// The top-ranked fault.
+    pub fault: String,
+    pub score: f64,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub estimate: Option<String>,
 }
 
 impl Visit {
@@ -60,5 +75,56 @@ impl Visit {
         .into_iter()
         .filter_map(|(k, v)| v.map(|v| (k, v)))
         .collect()
+    }
+}
+
+/// Days since 1970-01-01 of a calendar date (H. Hinnant's days_from_civil).
+pub fn days_from_civil(y: i64, m: i64, d: i64) -> i64 {
+    let y = if m <= 2 { y - 1 } else { y };
+    let era = y.div_euclid(400);
+    let yoe = y - era * 400;
+    let mp = (m + 9) % 12;
+    let doy = (153 * mp + 2) / 5 + d - 1;
+    let doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
+    era * 146_097 + doe - 719_468
+}
+
+/// The calendar date `days` after 1970-01-01, as YYYY-MM-DD (H. Hinnant's civil_from_days).
+pub fn civil_from_days(days: i64) -> String {
+    let z = days + 719_468;
+    let era = z.div_euclid(146_097);
+    let doe = z - era * 146_097;
+    let yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    let y = yoe + era * 400;
+    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    let mp = (5 * doy + 2) / 153;
+    let d = doy - (153 * mp + 2) / 5 + 1;
+    let m = if mp < 10 { mp + 3 } else { mp - 9 };
+    let y = if m <= 2 { y + 1 } else { y };
+    format!("{y:04}-{m:02}-{d:02}")
+}
+
+impl Visit {
+    /// The visit's date in days since 1970-01-01.
+    pub fn days(&self) -> Option<i64> {
+        self.date
+            .date
+            .map(|d| days_from_civil(d.year as i64, d.month as i64, d.day as i64))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn calendar_round_trip() {
+        assert_eq!(days_from_civil(1970, 1, 1), 0);
+        assert_eq!(civil_from_days(days_from_civil(2026, 11, 30)), "2026-11-30");
+        assert_eq!(civil_from_days(days_from_civil(2024, 2, 29)), "2024-02-29");
+        assert_eq!(
+            days_from_civil(2000, 3, 1) - days_from_civil(2000, 2, 28),
+            2
+        );
     }
 }

@@ -248,11 +248,13 @@ pub struct Figures {
     pub inrush_peak_a: Option<f64>,
     /// Highest voltage across the first filter capacitor (one of a doubler's two).
     pub cap_peak_v: f64,
+    /// What an AC meter across the whole secondary reads under this load (RMS volts).
+    pub secondary_rms_v: f64,
 }
 
 impl Figures {
     /// Every figure with its JSON name, in the report's order.
-    pub fn named(&self) -> [(&'static str, Option<f64>); 17] {
+    pub fn named(&self) -> [(&'static str, Option<f64>); 18] {
         [
             ("dc_v", Some(self.dc_v)),
             ("max_v", Some(self.max_v)),
@@ -271,6 +273,7 @@ impl Figures {
             ("conduction_deg", Some(self.conduction_deg)),
             ("inrush_peak_a", self.inrush_peak_a),
             ("cap_peak_v", Some(self.cap_peak_v)),
+            ("secondary_rms_v", Some(self.secondary_rms_v)),
         ]
     }
 }
@@ -344,6 +347,13 @@ fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figures {
         conduction_deg: 360.0 * on as f64 / s.probes.len().max(1) as f64,
         inrush_peak_a: inrush(net),
         cap_peak_v: s.v_cap_max,
+        secondary_rms_v: (s
+            .probes
+            .iter()
+            .map(|p| p.v_secondary * p.v_secondary)
+            .sum::<f64>()
+            / s.probes.len().max(1) as f64)
+            .sqrt(),
     }
 }
 

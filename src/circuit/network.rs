@@ -251,6 +251,13 @@ impl Network {
             _ => (path_i[0], path_i[0] - path_i[1]),
         };
         let share = first.emf_share;
+        // The whole secondary's terminal voltage, as an AC meter across it reads: the EMF less
+        // the drop of the current through it (both halves' drops for a center tap).
+        let signed = match first.polarity {
+            Polarity::Rectified | Polarity::OneLegOpen => path_i[0] * e.signum(),
+            _ => path_i[0] - path_i[1],
+        };
+        let v_secondary = e - first.ohms / share * signed;
         let v_reverse = match self.arrangement {
             Arrangement::Bridge if path_i[0] > 0.0 => {
                 let fwd = self.diode.forward_v(path_i[0]);
@@ -270,6 +277,7 @@ impl Network {
         };
         Probe {
             v_out,
+            v_secondary,
             v_cap: rail0,
             v_source,
             i_diode,

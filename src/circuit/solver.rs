@@ -26,6 +26,8 @@ pub struct Probe {
     pub v_out: f64,
     /// Across the first filter capacitor (one of a doubler's two; a CRC's input side).
     pub v_cap: f64,
+    /// Across the whole secondary winding, at its terminals.
+    pub v_secondary: f64,
     /// The level the rectified winding pulls the rail towards while a diode conducts.
     pub v_source: f64,
     /// One diode's forward current.
@@ -50,6 +52,7 @@ impl Probe {
         Probe {
             v_out: mix(self.v_out, other.v_out),
             v_cap: mix(self.v_cap, other.v_cap),
+            v_secondary: mix(self.v_secondary, other.v_secondary),
             v_source: mix(self.v_source, other.v_source),
             i_diode: mix(self.i_diode, other.i_diode),
             v_reverse: mix(self.v_reverse, other.v_reverse),

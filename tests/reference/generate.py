@@ -161,12 +161,15 @@ def netlist(c, tstop, tstart, tmax, out_file, options=".options reltol=1e-4 meth
             # capacitance so its nodes do not jump at each diode's turn-off: 1 Gohm and 1 nF
             # draw microamps at the mains frequency, nothing a figure can see.
             lines += ["RFLOAT b 0 1e9", "CFLOAT a b 1n"]
+    open_leg = c.get("open_leg", False)
     if top == "half-wave":
         lines += ["VB b 0 0", "D1 a d1 DREF", "VD1 d1 out 0"]
     elif top == "center-tap":
-        lines += ["D1 a d1 DREF", "VD1 d1 out 0", "D2 b out DREF"]
+        lines += ["D1 a d1 DREF", "VD1 d1 out 0"] + ([] if open_leg else ["D2 b out DREF"])
     elif top == "bridge":
-        lines += ["D1 a d1 DREF", "VD1 d1 out 0", "D2 0 a DREF", "D3 b out DREF", "D4 0 b DREF"]
+        # An open leg: the diode that carries the negative half cycle to the rail is missing.
+        lines += ["D1 a d1 DREF", "VD1 d1 out 0", "D2 0 a DREF", "D4 0 b DREF"]
+        lines += [] if open_leg else ["D3 b out DREF"]
     elif top == "doubler":
         # Winding between a and the capacitor junction b; D1 charges the top, D2 the bottom.
         lines += ["D1 a d1 DREF", "VD1 d1 out 0", "D2 0 a DREF"]
@@ -215,7 +218,7 @@ def netlist(c, tstop, tstart, tmax, out_file, options=".options reltol=1e-4 meth
     wind = "i(VSA)"
     # Columns: rail, one diode's current, winding current, reverse voltage on that diode, and
     # the first capacitor's current when there is one.
-    vectors = f"{probe_out} i(VD1) {wind} v(out)-v(a)"
+    vectors = f"{probe_out} i(VD1) {wind} v(out)-v(a) v(a)-v(b)"
     if c["kind"] != "none":
         vectors += " i(VCS)"
     lines += [options,
@@ -259,13 +262,33 @@ def figures(rows, t0, t1, load_amps, load_ohms):
         diode_rms_a=math.sqrt(integ(lambda r: r[2] ** 2)),
         winding_rms_a=math.sqrt(integ(lambda r: r[3] ** 2)),
         diode_piv_v=max(r[4] for r in seg),
-        cap_ripple_rms_a=math.sqrt(integ(lambda r: r[5] ** 2)) if len(seg[0]) > 5 else 0.0,
+        secondary_vac=math.sqrt(integ(lambda r: r[5] ** 2)),
+        cap_ripple_rms_a=math.sqrt(integ(lambda r: r[6] ** 2)) if len(seg[0]) > 6 else 0.0,
+        ripple_hz=dominant_ripple(seg, 1.0 / T),
         load_a=load_amps if load_amps is not None else dc / load_ohms,
     )
 
 
 OPTION_SETS = [".options reltol=1e-4 method=trap", ".options reltol=1e-4 method=gear",
-               ".options reltol=2e-4 method=trap gmin=1e-10"]
+               ".options reltol=2e-4 method=trap gmin=1e-10",
+               ".options reltol=1e-4 method=trap rshunt=1e10",
+               ".options reltol=3e-4 method=gear rshunt=1e9"]
+
+def dominant_ripple(seg, f):
+    """The stronger of the line-frequency and twice-line components of the rail."""
+    t0 = seg[0][0]
+    T = seg[-1][0] - t0
+    def amp(k):
+        re = im = 0.0
+        for a, b in zip(seg, seg[1:]):
+            t = 0.5 * (a[0] + b[0]) - t0
+            v = 0.5 * (a[1] + b[1])
+            w = 2 * math.pi * k * t / T
+            re += v * math.cos(w) * (b[0] - a[0])
+            im += v * math.sin(w) * (b[0] - a[0])
+        return math.hypot(re, im)
+    return f if amp(1) >= amp(2) else 2 * f
+
 
 COLUMNS = ["dc_v", "max_v", "min_v", "ripple_pp_v", "ripple_rms_v", "diode_peak_a",
            "diode_avg_a", "diode_rms_a", "diode_piv_v", "winding_rms_a", "cap_ripple_rms_a",
@@ -334,6 +357,76 @@ def corner_rows(work):
     return rows
 
 
+# Faulted circuits for the diagnosis test: (base case, fault, parameter). The readings a
+# technician would take come from the simulation; the mains is "read" except where the fault
+# is the mains itself.
+FAULTS = [
+    ("br_cc_50", "capacitance-low", 0.35),
+    ("br_cc_50", "capacitance-low", 0.5),
+    ("br_cc_50", "esr-high", 2.5),
+    ("br_cc_50", "capacitor-open", None),
+    ("br_cc_50", "rectifier-leg-open", None),
+    ("br_cc_50", "mains-low", 0.8),
+    ("br_cc_50", "secondary-low", 1.25),
+    ("br_cc_50", "load-heavy", 2.2),
+    ("br_cc_50", "healthy-low-mains", 0.93),
+    ("ct_r_60", "capacitance-low", 0.4),
+    ("ct_r_60", "rectifier-leg-open", None),
+    ("ct_r_60", "load-light", 0.3),
+    ("ct_r_60", "mains-high", 1.2),
+    ("hw_r_50", "capacitance-low", 0.3),
+    ("hw_r_50", "esr-high", 4.0),
+    ("hw_r_50", "load-heavy", 2.5),
+    ("sr_r_50", "capacitance-low", 0.45),
+    ("sr_r_50", "secondary-low", 1.3),
+    ("dbl_cc_60", "capacitance-low", 0.4),
+    ("dbl_cc_60", "load-heavy", 2.0),
+]
+
+
+def faulted(base, fault, x):
+    c = dict(base)
+    c["name"] = f"{base['name']}_{fault}_{x}"
+    if fault == "capacitance-low":
+        c["uf"] = c["uf"] * x
+    elif fault == "esr-high":
+        c["esr"] = x
+    elif fault == "capacitor-open":
+        c["kind"] = "none"
+    elif fault == "rectifier-leg-open":
+        c["open_leg"] = True
+    elif fault in ("mains-low", "mains-high", "healthy-low-mains"):
+        c["vrms"] = c["vrms"] * x
+    elif fault == "secondary-low":
+        c["ratio"] = c["ratio"] * x
+    elif fault in ("load-heavy", "load-light"):
+        if c["amps"] is not None:
+            c["amps"] = c["amps"] * x
+        else:
+            c["ohms"] = c["ohms"] / x
+    return c
+
+
+def fault_rows(work):
+    by_name = {c["name"]: c for c in MATRIX}
+    rows = []
+    for name, fault, x in FAULTS:
+        base = by_name[name]
+        c = faulted(base, fault, x)
+        if c["kind"] == "none" and c["amps"] is not None:
+            # A current source cannot feed an unfiltered rail in a simulator; the load that
+            # draws that current at the working voltage stands in (a real load is a resistance
+            # once starved).
+            c["ohms"] = 0.9 * c["vrms"] / c["ratio"] * math.sqrt(2) / c["amps"]
+            c["amps"] = None
+        fig, drift, periods = run_case(c, work)
+        mains = None if fault in ("mains-low", "mains-high") else c["vrms"]
+        print(f"{c['name']}: dc {fig['dc_v']:.3f} V ripple {fig['ripple_pp_v']:.3f} V {fig['ripple_hz']} Hz",
+              file=sys.stderr)
+        rows.append((name, fault, x, mains, fig))
+    return rows
+
+
 def main():
     version = subprocess.run(["ngspice", "-v"], capture_output=True, text=True).stdout
     version = next((l.strip("* ").strip() for l in version.splitlines() if "ngspice-" in l),
@@ -349,6 +442,14 @@ def main():
                   file=sys.stderr)
             rows.append((c["name"], fig))
         corners = corner_rows(work)
+        faults = fault_rows(work)
+    with open(os.path.join(HERE, "ngspice_faults.csv"), "w") as fh:
+        fh.write(f"# {version}; written by tests/reference/generate.py; faulted circuits and the readings they give\n")
+        fh.write("case,fault,parameter,mains_vrms,secondary_vac,dc_v,ripple_pp_v,ripple_rms_v,ripple_hz,load_a\n")
+        for name, fault, x, mains, fig in faults:
+            cells = [name, fault, "" if x is None else str(x), "" if mains is None else f"{mains:.6g}"]
+            cells += [f"{fig[k]:.6g}" for k in ("secondary_vac", "dc_v", "ripple_pp_v", "ripple_rms_v", "ripple_hz", "load_a")]
+            fh.write(",".join(cells) + "\n")
     with open(os.path.join(HERE, "ngspice_corners.csv"), "w") as fh:
         fh.write(f"# {version}; written by tests/reference/generate.py; the tolerance-box corners\n")
         fh.write("case,mains_factor,cap_factor," + ",".join(COLUMNS) + "\n")
