@@ -89,11 +89,34 @@ fn worst_case_and_sizing(c: &mut Criterion) {
     g.finish();
 }
 
+fn diagnosis(c: &mut Criterion) {
+    use railcheck::diagnose::{Readings, diagnose, trend};
+    let s = load("examples/pump-house-relay-rail.toml");
+    let r = Readings {
+        mains_vrms: Some(226.0),
+        secondary_vac: Some(23.6),
+        dc_v: Some(26.9),
+        ripple_pp_v: Some(2.2),
+        ripple_rms_v: None,
+        ripple_hz: Some(100.0),
+        load_a: Some(0.34),
+    };
+    let mut g = c.benchmark_group("diagnose");
+    g.sample_size(20);
+    g.bench_function("every_fault_model_fitted", |b| {
+        b.iter(|| diagnose(black_box(&s), black_box(&r)).unwrap())
+    });
+    let demo = Supply::from_toml_str(&railcheck::library::demo::supplies()[1].1).unwrap();
+    g.bench_function("trend_three_visits", |b| b.iter(|| trend::trend(black_box(&demo))));
+    g.finish();
+}
+
 criterion_group!(
     benches,
     single_solves,
     time_constants,
     twenty_reports,
-    worst_case_and_sizing
+    worst_case_and_sizing,
+    diagnosis
 );
 criterion_main!(benches);

@@ -112,25 +112,30 @@ enum Command {
         #[arg(value_name = "NAME_OR_FILE")]
         name: String,
         /// Mains RMS volts at the outlet.
-        #[arg(long, value_name = "V")]
+        #[arg(long, value_name = "V", allow_negative_numbers = true)]
         mains: Option<f64>,
         /// Secondary AC volts, whole winding (RMS).
-        #[arg(long, value_name = "V")]
+        #[arg(long, value_name = "V", allow_negative_numbers = true)]
         secondary: Option<f64>,
         /// DC volts on the rail.
-        #[arg(long, value_name = "V")]
+        #[arg(long, value_name = "V", allow_negative_numbers = true)]
         dc: Option<f64>,
         /// Ripple peak-peak, scope AC coupled (volts).
-        #[arg(long, value_name = "V", conflicts_with = "ripple_rms")]
+        #[arg(
+            long,
+            value_name = "V",
+            conflicts_with = "ripple_rms",
+            allow_negative_numbers = true
+        )]
         ripple_pp: Option<f64>,
         /// Ripple RMS, true-RMS meter on AC volts across the rail.
-        #[arg(long, value_name = "V")]
+        #[arg(long, value_name = "V", allow_negative_numbers = true)]
         ripple_rms: Option<f64>,
         /// Ripple frequency (hertz).
-        #[arg(long, value_name = "HZ")]
+        #[arg(long, value_name = "HZ", allow_negative_numbers = true)]
         ripple_hz: Option<f64>,
         /// Load current (amps).
-        #[arg(long, value_name = "A")]
+        #[arg(long, value_name = "A", allow_negative_numbers = true)]
         load: Option<f64>,
         #[arg(long)]
         json: bool,
@@ -451,7 +456,7 @@ fn run_log(supply: &Supply, json: bool) -> Result<ExitCode> {
             .collect();
         outln!(
             "{}",
-            serde_json::json!({"name": supply.name, "visits": list})
+            serde_json::json!({"name": supply.name, "visits": list, "trend": trend})
         );
         return Ok(ExitCode::SUCCESS);
     }
@@ -489,7 +494,14 @@ fn run_log(supply: &Supply, json: bool) -> Result<ExitCode> {
             (Some(a), Some(b)) => format!(" (between {a} and {b})"),
             _ => String::new(),
         };
-        outln!("  Projected to cross the limit about {}{range}", c.date);
+        if c.already {
+            outln!(
+                "  Below the limit since about {}{range}: replace the capacitor",
+                c.date
+            );
+        } else {
+            outln!("  Projected to cross the limit about {}{range}", c.date);
+        }
     }
     outln!("  {}", trend.note);
     Ok(ExitCode::SUCCESS)

@@ -270,3 +270,86 @@ fn size_is_the_smallest_preferred_value_that_meets_the_target() {
     let wc = railcheck::analysis::worst_case::worst_case(&s).unwrap();
     assert!(wc.extent("ripple_pp_v").unwrap().max > 0.5);
 }
+
+#[test]
+fn diagnose_answers_for_every_example_and_saves_a_visit() {
+    for file in examples() {
+        let f = file.display().to_string();
+        // Readings of our own invention: a little low DC and half as much ripple again.
+        let report = railcheck(&["report", "--json", &f]);
+        let v: serde_json::Value = serde_json::from_slice(&report.stdout).unwrap();
+        let dc = v["nominal"]["dc_v"].as_f64().unwrap() * 0.97;
+        let pp = v["nominal"]["ripple_pp_v"].as_f64().unwrap() * 1.5;
+        let hz = v["nominal"]["ripple_hz"].as_f64().unwrap();
+        let out = railcheck(&[
+            "diagnose",
+            &f,
+            "--dc",
+            &format!("{dc:.3}"),
+            "--ripple-pp",
+            &format!("{pp:.3}"),
+            "--ripple-hz",
+            &format!("{hz}"),
+            "--json",
+        ]);
+        assert!(
+            out.status.success(),
+            "{f}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        assert!(["healthy", "suspect", "fault"].contains(&d["verdict"].as_str().unwrap()));
+        let hyps = d["hypotheses"].as_array().unwrap();
+        let total: f64 = hyps.iter().map(|h| h["score"].as_f64().unwrap()).sum();
+        assert!((total - 1.0).abs() < 1e-9);
+        let scores: Vec<f64> = hyps.iter().map(|h| h["score"].as_f64().unwrap()).collect();
+        assert!(scores.windows(2).all(|w| w[0] >= w[1]), "best first");
+        for h in hyps {
+            for k in ["fault", "score", "estimate", "why", "next_check"] {
+                assert!(h.get(k).is_some(), "{k}");
+            }
+        }
+        assert_eq!(d["readings"].as_array().unwrap().len(), 3);
+    }
+    // --save records a visit with the verdict; log shows it and the trend.
+    let dir = std::env::temp_dir().join(format!("railcheck-cli-diag-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    let d = dir.display().to_string();
+    let name = "Pump-house 2, relay rail";
+    let before = railcheck(&["--library", &d, "log", name, "--json"]);
+    let before: serde_json::Value = serde_json::from_slice(&before.stdout).unwrap();
+    let n = before["visits"].as_array().unwrap().len();
+    let out = railcheck(&[
+        "--library",
+        &d,
+        "diagnose",
+        name,
+        "--dc",
+        "26.0",
+        "--ripple-pp",
+        "2.6",
+        "--ripple-hz",
+        "100",
+        "--save",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let after = railcheck(&["--library", &d, "log", name, "--json"]);
+    let after: serde_json::Value = serde_json::from_slice(&after.stdout).unwrap();
+    assert_eq!(after["visits"].as_array().unwrap().len(), n + 1);
+    assert!(after["trend"]["points"].as_array().unwrap().len() > n);
+    let text = std::fs::read_to_string(dir.join("pump-house-2-relay-rail.toml")).unwrap();
+    assert!(
+        text.contains("[visit.diagnosis]") && text.contains("verdict"),
+        "{text}"
+    );
+    let log = railcheck(&["--library", &d, "log", name]);
+    assert!(String::from_utf8_lossy(&log.stdout).contains("Capacitance the readings imply"));
+    // Bad readings: a clear message and exit status 2.
+    let out = railcheck(&["--library", &d, "diagnose", name, "--dc", "-3"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("must not be negative"));
+}

@@ -266,7 +266,13 @@ fn filter_new_duplicate_delete_and_visits() {
     let on_disk = Supply::from_toml_str(&std::fs::read_to_string(&o.entry.file).unwrap()).unwrap();
     let last = on_disk.visits.last().unwrap();
     assert_eq!((last.dc_v, last.ripple_pp_v), (Some(27.1), Some(1.9)));
-    assert!(screen(&app, 100, 30).contains("Visits"));
+    let shown = screen(&app, 100, 30);
+    assert!(shown.contains("Visits"));
+    // The visit's readings were diagnosed: verdict and ranking shown, kept in the file.
+    assert!(o.last_diagnosis.is_some());
+    assert!(["HEALTHY", "SUSPECT", "FAULT"].iter().any(|v| shown.contains(v)), "{shown}");
+    assert!(shown.contains("next:"), "{shown}");
+    assert!(last.diagnosis.is_some());
     // A bad reading is refused with its reason.
     keys(&mut app, &[Msg::Char('a')]);
     typed(&mut app, "lots");

@@ -20,6 +20,8 @@ pub struct TrendPoint {
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct Crossing {
     pub date: String,
+    /// Whether that date is already past the last visit: the part is below its limit now.
+    pub already: bool,
     /// The same with the slope one standard error steeper and shallower (three visits or more).
     pub earliest: Option<String>,
     pub latest: Option<String>,
@@ -218,8 +220,10 @@ pub fn trend(supply: &Supply) -> Trend {
                 (Some(a), Some(b)) if a > b => (Some(b), Some(a)),
                 pair => pair,
             };
+            let last_day = xy.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
             out.crossing = Some(Crossing {
                 date: civil_from_days(day),
+                already: (day as f64) <= last_day,
                 earliest,
                 latest,
             });

@@ -123,6 +123,10 @@ pub struct Open {
     pub solved: Box<Result<Solved, String>>,
     /// The results panel shows the visits instead of the figures.
     pub show_visits: bool,
+    /// The diagnosis of the visit recorded last, shown above the visits.
+    pub last_diagnosis: Option<crate::diagnose::Diagnosis>,
+    /// The capacitance trend across the visits, worked out when the visits are shown.
+    pub trend: Option<crate::diagnose::trend::Trend>,
 }
 
 impl Open {
@@ -139,6 +143,8 @@ impl Open {
             what_if: None,
             solved,
             show_visits: false,
+            last_diagnosis: None,
+            trend: None,
         }
     }
 
@@ -410,6 +416,9 @@ impl App {
             Msg::Visits | Msg::Char('v') => {
                 if let Some(o) = &mut self.open {
                     o.show_visits = !o.show_visits;
+                    if o.show_visits {
+                        o.trend = Some(crate::diagnose::trend::trend(&o.supply));
+                    }
                     self.panel = Panel::Results;
                 }
             }
@@ -731,12 +740,31 @@ impl App {
             };
             table.insert(key.to_string(), value);
         }
-        let visit: Visit = table
+        let mut visit: Visit = table
             .try_into()
             .map_err(|e: toml::de::Error| e.message().to_string())?;
         let Some(o) = &mut self.open else {
             return Err("no supply open".into());
         };
+        // The verdict on these readings goes with the visit; readings that cannot be true
+        // are refused with the reason, so they can be corrected before saving.
+        let readings = crate::diagnose::Readings {
+            mains_vrms: visit.mains_vrms,
+            secondary_vac: visit.secondary_vac,
+            dc_v: visit.dc_v,
+            ripple_pp_v: visit.ripple_pp_v,
+            ripple_rms_v: visit.ripple_rms_v,
+            ripple_hz: visit.ripple_hz,
+            load_a: visit.load_a,
+        };
+        o.last_diagnosis = None;
+        if !readings.present().iter().all(|(k, _)| *k == "mains_vrms") {
+            let d = crate::diagnose::diagnose(&o.saved, &readings).map_err(|e| e.to_string())?;
+            let mut with = crate::diagnose::visit_of(&readings, &d, &visit.date_text());
+            with.notes = std::mem::take(&mut visit.notes);
+            visit = with;
+            o.last_diagnosis = Some(d);
+        }
         let mut next = match &o.what_if {
             Some((before, _)) => before.clone(),
             None => o.supply.clone(),
@@ -749,6 +777,7 @@ impl App {
             *before = next;
         }
         o.show_visits = true;
+        o.trend = Some(crate::diagnose::trend::trend(&o.supply));
         if self.save_open() {
             self.status = "visit recorded and saved".into();
         }

@@ -9,6 +9,7 @@ pub mod list_panel;
 pub mod results_panel;
 pub mod sketch;
 pub mod style;
+pub mod trend_chart;
 pub mod view;
 
 use app::{App, Msg};

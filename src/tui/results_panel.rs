@@ -51,6 +51,32 @@ impl Widget for &ResultsPanel<'_> {
         };
         if open.show_visits {
             let mut lines: Vec<Line> = Vec::new();
+            if let Some(d) = &open.last_diagnosis {
+                let style = match d.verdict {
+                    "fault" => look.fail(),
+                    "suspect" => look.warn(),
+                    _ => look.ok(),
+                };
+                lines.push(Line::from(vec![
+                    Span::styled(format!("{} ", d.verdict.to_uppercase()), style),
+                    Span::raw("most likely first:"),
+                ]));
+                for h in d.hypotheses.iter().take(3) {
+                    let est = match h.estimate {
+                        Some((k, v)) if !k.is_empty() => format!(" ({k} {v:.3})"),
+                        _ => String::new(),
+                    };
+                    lines.push(Line::from(format!(
+                        " {:>3.0} % {}{est}",
+                        100.0 * h.score,
+                        h.fault.key()
+                    )));
+                }
+                lines.push(Line::from(Span::styled(
+                    format!(" next: {}", d.hypotheses[0].next_check),
+                    look.dim(),
+                )));
+            }
             let mut visits: Vec<_> = open.supply.visits.iter().collect();
             visits.sort_by_key(|v| std::cmp::Reverse(v.date_text()));
             if visits.is_empty() {
@@ -75,10 +101,63 @@ impl Widget for &ResultsPanel<'_> {
                     )));
                 }
             }
+            let inner = area.inner(ratatui::layout::Margin::new(1, 1));
+            look.panel("Visits (v: back to results)", focused)
+                .render(area, buf);
+            let chart_h = if open
+                .trend
+                .as_ref()
+                .is_some_and(|t| t.points.iter().filter(|p| p.uf.is_some()).count() >= 2)
+            {
+                (inner.height / 3).clamp(4, 8)
+            } else {
+                0
+            };
+            let text_area = Rect {
+                height: inner.height.saturating_sub(chart_h + 1),
+                ..inner
+            };
             Paragraph::new(lines)
                 .wrap(Wrap { trim: true })
-                .block(look.panel("Visits (v: back to results)", focused))
-                .render(area, buf);
+                .render(text_area, buf);
+            if let Some(t) = &open.trend {
+                let summary = match (&t.crossing, t.uf_per_year) {
+                    (Some(c), Some(s)) => format!(
+                        "trend {s:+.0} uF/yr; {} the {:.0} uF limit about {}{}",
+                        if c.already { "crossed" } else { "reaches" },
+                        t.limit_uf,
+                        c.date,
+                        match (&c.earliest, &c.latest) {
+                            (Some(a), Some(b)) => format!(" ({a}..{b})"),
+                            _ => String::new(),
+                        }
+                    ),
+                    _ => t.note.clone(),
+                };
+                let y = inner.y + inner.height.saturating_sub(chart_h + 1);
+                Paragraph::new(Line::styled(summary, look.heading())).render(
+                    Rect {
+                        y,
+                        height: 1,
+                        ..inner
+                    },
+                    buf,
+                );
+                if chart_h > 0 {
+                    super::trend_chart::TrendChart {
+                        trend: t,
+                        color: app.color,
+                    }
+                    .render(
+                        Rect {
+                            y: y + 1,
+                            height: chart_h,
+                            ..inner
+                        },
+                        buf,
+                    );
+                }
+            }
             return;
         }
         let solved = match open.solved.as_ref() {
