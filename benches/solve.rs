@@ -107,7 +107,9 @@ fn diagnosis(c: &mut Criterion) {
         b.iter(|| diagnose(black_box(&s), black_box(&r)).unwrap())
     });
     let demo = Supply::from_toml_str(&railcheck::library::demo::supplies()[1].1).unwrap();
-    g.bench_function("trend_three_visits", |b| b.iter(|| trend::trend(black_box(&demo))));
+    g.bench_function("trend_three_visits", |b| {
+        b.iter(|| trend::trend(black_box(&demo)))
+    });
     g.finish();
 }
 

@@ -270,7 +270,12 @@ fn filter_new_duplicate_delete_and_visits() {
     assert!(shown.contains("Visits"));
     // The visit's readings were diagnosed: verdict and ranking shown, kept in the file.
     assert!(o.last_diagnosis.is_some());
-    assert!(["HEALTHY", "SUSPECT", "FAULT"].iter().any(|v| shown.contains(v)), "{shown}");
+    assert!(
+        ["HEALTHY", "SUSPECT", "FAULT"]
+            .iter()
+            .any(|v| shown.contains(v)),
+        "{shown}"
+    );
     assert!(shown.contains("next:"), "{shown}");
     assert!(last.diagnosis.is_some());
     // A bad reading is refused with its reason.
