@@ -446,7 +446,8 @@ fn run_log(supply: &Supply, json: bool) -> Result<ExitCode> {
             .iter()
             .map(|v| {
                 let readings: serde_json::Map<String, serde_json::Value> = v
-                    .readings()
+                    .readings
+                    .present()
                     .into_iter()
                     .map(|(k, x)| (k.to_string(), x.into()))
                     .collect();
@@ -463,7 +464,8 @@ fn run_log(supply: &Supply, json: bool) -> Result<ExitCode> {
     outln!("{}: {} visits", supply.name, visits.len());
     for v in visits {
         let readings: Vec<String> = v
-            .readings()
+            .readings
+            .present()
             .iter()
             .map(|(k, x)| format!("{k} {x}"))
             .collect();

@@ -302,14 +302,16 @@ fn regulation_from_rating(rated_va: f64) -> f64 {
     }
 }
 
-fn check(
+/// Refuses `value` outside low..=high (or low<..=high when `above_low`), naming the key.
+fn in_range(
     key: &'static str,
     value: f64,
-    low: f64,
-    high: f64,
+    (low, high): (f64, f64),
+    above_low: bool,
     allowed: &str,
 ) -> Result<(), SupplyError> {
-    if value.is_finite() && value >= low && value <= high {
+    let low_ok = if above_low { value > low } else { value >= low };
+    if value.is_finite() && low_ok && value <= high {
         Ok(())
     } else {
         Err(SupplyError::OutOfRange {
@@ -320,6 +322,18 @@ fn check(
     }
 }
 
+/// `value` within low..=high.
+fn check(
+    key: &'static str,
+    value: f64,
+    low: f64,
+    high: f64,
+    allowed: &str,
+) -> Result<(), SupplyError> {
+    in_range(key, value, (low, high), false, allowed)
+}
+
+/// `value` above low and at most high.
 fn check_above(
     key: &'static str,
     value: f64,
@@ -327,15 +341,7 @@ fn check_above(
     high: f64,
     allowed: &str,
 ) -> Result<(), SupplyError> {
-    if value.is_finite() && value > low && value <= high {
-        Ok(())
-    } else {
-        Err(SupplyError::OutOfRange {
-            key,
-            value: format!("{value}"),
-            allowed: allowed.to_string(),
-        })
-    }
+    in_range(key, value, (low, high), true, allowed)
 }
 
 impl Supply {
@@ -552,7 +558,7 @@ impl Supply {
                     allowed: "a calendar date such as 2026-11-30".into(),
                 });
             }
-            for (key, value) in v.readings() {
+            for (key, value) in v.readings.present() {
                 let bad = !value.is_finite()
                     || match key {
                         "dc_v" => value.abs() > 1e5,

@@ -6,12 +6,9 @@ use serde::{Deserialize, Serialize};
 /// A calendar date as TOML writes it (`2026-11-30`).
 pub type Date = toml::value::Datetime;
 
-/// One visit to a supply, as stored in its file under `[[visit]]`.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct Visit {
-    pub date: Date,
-    #[serde(default, skip_serializing_if = "String::is_empty")]
-    pub technician: String,
+/// What a technician measured; any may be missing (volts, amps, hertz).
+#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize, Deserialize)]
+pub struct Readings {
     /// Mains RMS volts at the outlet.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub mains_vrms: Option<f64>,
@@ -31,6 +28,35 @@ pub struct Visit {
     pub ripple_hz: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub load_a: Option<f64>,
+}
+
+impl Readings {
+    /// The readings taken, by name, with their values (volts, amps, hertz).
+    pub fn present(&self) -> Vec<(&'static str, f64)> {
+        [
+            ("mains_vrms", self.mains_vrms),
+            ("secondary_vac", self.secondary_vac),
+            ("dc_v", self.dc_v),
+            ("ripple_pp_v", self.ripple_pp_v),
+            ("ripple_rms_v", self.ripple_rms_v),
+            ("ripple_hz", self.ripple_hz),
+            ("load_a", self.load_a),
+        ]
+        .into_iter()
+        .filter_map(|(k, v)| v.map(|v| (k, v)))
+        .collect()
+    }
+}
+
+/// One visit to a supply, as stored in its file under `[[visit]]`.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct Visit {
+    pub date: Date,
+    #[serde(default, skip_serializing_if = "String::is_empty")]
+    pub technician: String,
+    /// The readings sit in the visit's table itself (`dc_v = 30.9`).
+    #[serde(flatten)]
+    pub readings: Readings,
     #[serde(default, skip_serializing_if = "String::is_empty")]
     pub notes: String,
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
@@ -59,22 +85,6 @@ impl Visit {
             Some(d) => format!("{:04}-{:02}-{:02}", d.year, d.month, d.day),
             None => self.date.to_string(),
         }
-    }
-
-    /// The readings taken, by name, with their values (volts, amps, hertz).
-    pub fn readings(&self) -> Vec<(&'static str, f64)> {
-        [
-            ("mains_vrms", self.mains_vrms),
-            ("secondary_vac", self.secondary_vac),
-            ("dc_v", self.dc_v),
-            ("ripple_pp_v", self.ripple_pp_v),
-            ("ripple_rms_v", self.ripple_rms_v),
-            ("ripple_hz", self.ripple_hz),
-            ("load_a", self.load_a),
-        ]
-        .into_iter()
-        .filter_map(|(k, v)| v.map(|v| (k, v)))
-        .collect()
     }
 }
 

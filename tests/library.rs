@@ -73,7 +73,7 @@ fn load_save_load_gives_the_same_supply_and_keeps_comments() {
     changed.filter.uf = Some(3300.0);
     let mut visit = changed.visits[0].clone();
     visit.date = "2026-11-30".parse().unwrap();
-    visit.dc_v = Some(26.1);
+    visit.readings.dc_v = Some(26.1);
     visit.notes = "second".into();
     changed.visits.push(visit);
     lib.save(&entry, &changed).unwrap();

@@ -265,7 +265,10 @@ fn filter_new_duplicate_delete_and_visits() {
     assert_eq!(o.supply.visits.len(), visits + 1);
     let on_disk = Supply::from_toml_str(&std::fs::read_to_string(&o.entry.file).unwrap()).unwrap();
     let last = on_disk.visits.last().unwrap();
-    assert_eq!((last.dc_v, last.ripple_pp_v), (Some(27.1), Some(1.9)));
+    assert_eq!(
+        (last.readings.dc_v, last.readings.ripple_pp_v),
+        (Some(27.1), Some(1.9))
+    );
     let shown = screen(&app, 100, 30);
     assert!(shown.contains("Visits"));
     // The visit's readings were diagnosed: verdict and ranking shown, kept in the file.

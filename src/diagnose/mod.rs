@@ -9,17 +9,7 @@ use crate::circuit::{self, Conditions, Figures, LoadOverride};
 use crate::supply::{FilterKind, Supply, Topology};
 use serde::Serialize;
 
-/// What a technician measured; any may be missing (volts, amps, hertz).
-#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize)]
-pub struct Readings {
-    pub mains_vrms: Option<f64>,
-    pub secondary_vac: Option<f64>,
-    pub dc_v: Option<f64>,
-    pub ripple_pp_v: Option<f64>,
-    pub ripple_rms_v: Option<f64>,
-    pub ripple_hz: Option<f64>,
-    pub load_a: Option<f64>,
-}
+pub use crate::visit::Readings;
 
 /// Meter uncertainty, as a technician's handheld gear gives it (common practice; an ordinary
 /// 4-digit DMM and a scope): DC +-(0.5 % + 2 digits), AC volts +-(1 % + 3 digits), a scope's
@@ -65,22 +55,6 @@ pub enum ReadingError {
 }
 
 impl Readings {
-    /// The readings present, by name.
-    pub fn present(&self) -> Vec<(&'static str, f64)> {
-        [
-            ("mains_vrms", self.mains_vrms),
-            ("secondary_vac", self.secondary_vac),
-            ("dc_v", self.dc_v),
-            ("ripple_pp_v", self.ripple_pp_v),
-            ("ripple_rms_v", self.ripple_rms_v),
-            ("ripple_hz", self.ripple_hz),
-            ("load_a", self.load_a),
-        ]
-        .into_iter()
-        .filter_map(|(k, v)| v.map(|v| (k, v)))
-        .collect()
-    }
-
     /// Refuses readings that cannot be true of any rail, with the reason.
     pub fn check(&self, line_hz: f64) -> Result<(), ReadingError> {
         for (k, v) in self.present() {
@@ -724,13 +698,7 @@ pub fn visit_of(readings: &Readings, d: &Diagnosis, date: &str) -> crate::visit:
             .parse()
             .unwrap_or_else(|_| "1970-01-01".parse().expect("a date")),
         technician: String::new(),
-        mains_vrms: readings.mains_vrms,
-        secondary_vac: readings.secondary_vac,
-        dc_v: readings.dc_v,
-        ripple_pp_v: readings.ripple_pp_v,
-        ripple_rms_v: readings.ripple_rms_v,
-        ripple_hz: readings.ripple_hz,
-        load_a: readings.load_a,
+        readings: *readings,
         notes: String::new(),
         replaced: Vec::new(),
         diagnosis: Some(crate::visit::VisitDiagnosis {

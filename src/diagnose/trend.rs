@@ -104,16 +104,30 @@ pub fn limit_uf(supply: &Supply) -> (f64, String) {
     )
 }
 
-fn slope_of(xy: &[(f64, f64)]) -> Option<f64> {
+/// A least-squares line through (day, microfarads) points: its slope and the mean point it
+/// passes through, with the spread of the days for the slope's standard error.
+struct LineFit {
+    slope: f64,
+    mean_x: f64,
+    mean_y: f64,
+    sxx: f64,
+}
+
+fn line_fit(xy: &[(f64, f64)]) -> Option<LineFit> {
     if xy.len() < 2 {
         return None;
     }
     let n = xy.len() as f64;
-    let mx = xy.iter().map(|p| p.0).sum::<f64>() / n;
-    let my = xy.iter().map(|p| p.1).sum::<f64>() / n;
-    let sxx: f64 = xy.iter().map(|p| (p.0 - mx).powi(2)).sum();
-    let sxy: f64 = xy.iter().map(|p| (p.0 - mx) * (p.1 - my)).sum();
-    (sxx > 0.0).then(|| sxy / sxx)
+    let mean_x = xy.iter().map(|p| p.0).sum::<f64>() / n;
+    let mean_y = xy.iter().map(|p| p.1).sum::<f64>() / n;
+    let sxx: f64 = xy.iter().map(|p| (p.0 - mean_x).powi(2)).sum();
+    let sxy: f64 = xy.iter().map(|p| (p.0 - mean_x) * (p.1 - mean_y)).sum();
+    (sxx > 0.0).then(|| LineFit {
+        slope: sxy / sxx,
+        mean_x,
+        mean_y,
+        sxx,
+    })
 }
 
 /// The trend of `supply`'s visits.
@@ -132,14 +146,10 @@ pub fn trend(supply: &Supply) -> Trend {
     let mut xy = Vec::new();
     let mut old_xy = Vec::new();
     for (i, v) in visits.iter().enumerate() {
+        // The trend is the capacitor's: the ripple frequency says nothing of its value.
         let r = Readings {
-            mains_vrms: v.mains_vrms,
-            secondary_vac: v.secondary_vac,
-            dc_v: v.dc_v,
-            ripple_pp_v: v.ripple_pp_v,
-            ripple_rms_v: v.ripple_rms_v,
             ripple_hz: None,
-            load_a: v.load_a,
+            ..v.readings
         };
         let uf = if supply.filter.kind == FilterKind::None || r.check(supply.mains.hz).is_err() {
             None
@@ -171,23 +181,23 @@ pub fn trend(supply: &Supply) -> Trend {
                 "the filter capacitor was replaced on {}; its trend starts again with the next visits",
                 visits[r].date_text()
             );
-            out.uf_per_year = slope_of(&old_xy).map(|s| s * 365.25);
+            out.uf_per_year = line_fit(&old_xy).map(|f| f.slope * 365.25);
         } else {
             out.note = "a trend needs two visits with ripple or DC readings".into();
         }
         return out;
     }
-    // Least squares of capacitance against days.
-    let n = xy.len() as f64;
-    let mx = xy.iter().map(|p| p.0).sum::<f64>() / n;
-    let my = xy.iter().map(|p| p.1).sum::<f64>() / n;
-    let sxx: f64 = xy.iter().map(|p| (p.0 - mx).powi(2)).sum();
-    let sxy: f64 = xy.iter().map(|p| (p.0 - mx) * (p.1 - my)).sum();
-    if sxx <= 0.0 {
+    let Some(LineFit {
+        slope,
+        mean_x: mx,
+        mean_y: my,
+        sxx,
+    }) = line_fit(&xy)
+    else {
         out.note = "the visits share one date: no trend".into();
         return out;
-    }
-    let slope = sxy / sxx;
+    };
+    let n = xy.len() as f64;
     let intercept = my - slope * mx;
     out.uf_per_year = Some(slope * 365.25);
     let se = if xy.len() >= 3 {

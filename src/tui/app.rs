@@ -748,15 +748,7 @@ impl App {
         };
         // The verdict on these readings goes with the visit; readings that cannot be true
         // are refused with the reason, so they can be corrected before saving.
-        let readings = crate::diagnose::Readings {
-            mains_vrms: visit.mains_vrms,
-            secondary_vac: visit.secondary_vac,
-            dc_v: visit.dc_v,
-            ripple_pp_v: visit.ripple_pp_v,
-            ripple_rms_v: visit.ripple_rms_v,
-            ripple_hz: visit.ripple_hz,
-            load_a: visit.load_a,
-        };
+        let readings = visit.readings;
         o.last_diagnosis = None;
         if !readings.present().iter().all(|(k, _)| *k == "mains_vrms") {
             let d = crate::diagnose::diagnose(&o.saved, &readings).map_err(|e| e.to_string())?;

@@ -49,14 +49,8 @@ pub const NOTES: [&str; 4] = [
 impl Widget for &Help {
     fn render(self, area: Rect, buf: &mut Buffer) {
         let look = Look::new(self.color);
-        let w = area.width.min(76);
-        let h = area.height.min((KEYS.len() + NOTES.len()) as u16 + 2);
-        let rect = Rect {
-            x: area.x + (area.width - w) / 2,
-            y: area.y + (area.height - h) / 2,
-            width: w,
-            height: h,
-        };
+        let rect = super::style::centered(area, 76, (KEYS.len() + NOTES.len()) as u16 + 2);
+        let h = rect.height;
         Clear.render(rect, buf);
         let mut lines: Vec<Line> = KEYS
             .iter()

@@ -84,7 +84,8 @@ impl Widget for &ResultsPanel<'_> {
             }
             for v in visits {
                 let readings: Vec<String> = v
-                    .readings()
+                    .readings
+                    .present()
                     .iter()
                     .map(|(k, x)| {
                         format!("{} {x}", k.trim_end_matches("_v").trim_end_matches("_a"))

@@ -70,3 +70,15 @@ impl Look {
         }
     }
 }
+
+/// A `width` x `height` rectangle centred in `area` (each clipped to it), for overlays.
+pub fn centered(area: ratatui::layout::Rect, width: u16, height: u16) -> ratatui::layout::Rect {
+    let w = area.width.min(width);
+    let h = area.height.min(height);
+    ratatui::layout::Rect {
+        x: area.x + (area.width - w) / 2,
+        y: area.y + (area.height - h) / 2,
+        width: w,
+        height: h,
+    }
+}

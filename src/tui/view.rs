@@ -210,14 +210,7 @@ fn dialog(
     title: &str,
     lines: Vec<String>,
 ) {
-    let w = area.width.min(72);
-    let h = (lines.len() as u16 + 2).min(area.height);
-    let rect = Rect {
-        x: area.x + (area.width - w) / 2,
-        y: area.y + (area.height - h) / 2,
-        width: w,
-        height: h,
-    };
+    let rect = super::style::centered(area, 72, lines.len() as u16 + 2);
     Clear.render(rect, buf);
     let text: Vec<Line> = lines.into_iter().map(Line::from).collect();
     Paragraph::new(text)
