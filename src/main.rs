@@ -65,6 +65,9 @@ enum Command {
         /// Voltage taken as safe to touch, for the discharge caution (volts DC).
         #[arg(long, default_value_t = SAFE_TOUCH_V, value_name = "V")]
         touch_v: f64,
+        /// Add a seeded statistical spread (2,000 samples): each figure's 1st-99th percentile.
+        #[arg(long)]
+        spread: bool,
     },
     /// The smallest E6 and E12 filter capacitor meeting a target at the worst case.
     Size {
@@ -200,7 +203,8 @@ fn try_main(cli: Cli) -> Result<ExitCode> {
             files,
             json,
             touch_v,
-        }) => run_report(&files, json, touch_v, &cli.library, cli.no_demo),
+            spread,
+        }) => run_report(&files, json, touch_v, spread, &cli.library, cli.no_demo),
         Some(Command::Size {
             file,
             ripple_pp,
@@ -282,6 +286,7 @@ fn run_report(
     files: &[String],
     json: bool,
     touch_v: f64,
+    spread: bool,
     cli_dir: &Option<PathBuf>,
     no_demo: bool,
 ) -> Result<ExitCode> {
@@ -292,7 +297,12 @@ fn run_report(
     let mut check_failed = false;
     for (i, path) in files.iter().enumerate() {
         let outcome = resolve(path, cli_dir, no_demo).and_then(|(supply, file)| {
-            report::build(supply, &file, touch_v).map_err(|e| anyhow::anyhow!("{file}: {e}"))
+            let built = if spread {
+                report::build_with_spread(supply, &file, touch_v)
+            } else {
+                report::build(supply, &file, touch_v)
+            };
+            built.map_err(|e| anyhow::anyhow!("{file}: {e}"))
         });
         match outcome {
             Ok(r) => {

@@ -24,7 +24,13 @@ pub struct Report {
     /// Whether the voltage checks assumed no load (none stated).
     pub stress_no_load: bool,
     pub cautions: Vec<String>,
+    /// The seeded statistical spread, when asked for.
+    pub spread: Option<Vec<(&'static str, worst_case::Percentiles)>>,
 }
+
+/// Samples of the statistical spread, and its fixed seed (so a report is reproducible).
+pub const SPREAD_SAMPLES: usize = 2000;
+pub const SPREAD_SEED: u64 = 0x5eed_2026;
 
 /// Solves `supply` (read from `file`) at nominal and over its tolerance box and gathers what
 /// its report shows; `touch_v` is the voltage taken as safe to touch (volts).
@@ -46,7 +52,16 @@ pub fn build(supply: Supply, file: &str, touch_v: f64) -> Result<Report, Circuit
         not_rated,
         stress_no_load,
         cautions,
+        spread: None,
     })
+}
+
+/// [`build`] plus the seeded statistical spread (2,000 solves, a few tenths of a second).
+pub fn build_with_spread(supply: Supply, file: &str, touch_v: f64) -> Result<Report, CircuitError> {
+    let spread = worst_case::spread(&supply, SPREAD_SAMPLES, SPREAD_SEED)?;
+    let mut r = build(supply, file, touch_v)?;
+    r.spread = Some(spread);
+    Ok(r)
 }
 
 /// [`build`] with the usual 60 V touch limit.
@@ -189,6 +204,21 @@ impl Report {
                 words
             ));
         }
+        if let Some(spread) = &self.spread {
+            out.push_str(&format!(
+                "\n  Typical spread, 1st to 99th percentile ({SPREAD_SAMPLES} seeded samples, uniform in the box)\n"
+            ));
+            for (label, name, _, unit) in figure_rows(&self.nominal.figures) {
+                if let Some((_, p)) = spread.iter().find(|(n, _)| *n == name) {
+                    out.push_str(&format!(
+                        "  {:<22}{:>12} to {:>10}\n",
+                        label,
+                        show(Some(p.p1), unit),
+                        show(Some(p.p99), unit)
+                    ));
+                }
+            }
+        }
         let h = &self.hand;
         out.push_str("\n  Hand estimate (paper method)\n");
         out.push_str(&format!(
@@ -259,6 +289,10 @@ impl Report {
                 "high line, lightest load"
             },
             "cautions": self.cautions,
+            "spread": self.spread.as_ref().map(|s| s
+                .iter()
+                .map(|(n, p)| (n.to_string(), serde_json::to_value(p).expect("percentiles")))
+                .collect::<serde_json::Map<String, Value>>()),
         })
     }
 }

@@ -353,3 +353,18 @@ fn diagnose_answers_for_every_example_and_saves_a_visit() {
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("must not be negative"));
 }
+
+#[test]
+fn a_failed_rating_check_exits_with_status_1() {
+    // A 25 V capacitor on the pump-house rail, whose high-line peak is near 35 V.
+    let text = std::fs::read_to_string(
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/pump-house-relay-rail.toml"),
+    )
+    .unwrap()
+    .replace("rated_v = 50.0", "rated_v = 25.0");
+    let path = write_temp("failing_check.toml", &text);
+    let out = railcheck(&["report", &path.display().to_string()]);
+    assert_eq!(out.status.code(), Some(1));
+    let shown = String::from_utf8(out.stdout).unwrap();
+    assert!(shown.contains("FAIL  cap-voltage"), "{shown}");
+}

@@ -336,3 +336,40 @@ fn worst_case_json_has_every_figure_with_its_corner() {
         tol.iter().any(|t| t.starts_with("mains")) && tol.iter().any(|t| t.starts_with("load"))
     );
 }
+
+#[test]
+fn the_seeded_spread_lies_inside_the_hard_limits_and_repeats() {
+    let s = reference_supply("br_cc_50");
+    let wc = worst_case(&s).unwrap();
+    let a = railcheck::analysis::worst_case::spread(&s, 300, 7).unwrap();
+    let b = railcheck::analysis::worst_case::spread(&s, 300, 7).unwrap();
+    assert_eq!(a, b, "the same seed gives the same spread");
+    let mut passed: f64 = 0.0;
+    for (name, p) in &a {
+        let e = wc.extent(name).unwrap();
+        let scale = e.max.abs().max(1e-9);
+        passed = passed
+            .max((e.min - p.p1) / scale)
+            .max((p.p99 - e.max) / scale);
+    }
+    println!(
+        "spread beyond the grid's limits by at most {:.3} %",
+        100.0 * passed.max(0.0)
+    );
+    for (name, p) in &a {
+        let e = wc.extent(name).unwrap();
+        // Every sample lies in the box, so its percentiles lie within the hard limits and in
+        // order; the limits come from a grid of points, and a figure that bottoms out between
+        // them (the diode's peak current can) may be passed by up to half a percent.
+        let slack = 5e-3 * e.max.abs().max(1e-9);
+        assert!(p.p1 <= p.p99, "{name}");
+        assert!(
+            p.p1 >= e.min - slack && p.p99 <= e.max + slack,
+            "{name}: {p:?} against {e:?}"
+        );
+    }
+    // A spread is narrower than the hard limits for the DC: corners are rare.
+    let (_, dc) = a.iter().find(|(n, _)| *n == "dc_v").unwrap();
+    let e = wc.extent("dc_v").unwrap();
+    assert!(dc.p99 - dc.p1 < e.max - e.min);
+}

@@ -193,17 +193,31 @@ impl Axis {
 
 /// The points a worst case solves: every corner, and along each axis its quarter points with
 /// the other axes at nominal (a figure that is not monotonic along an axis peaks inside).
+/// With four axes or fewer, the whole three-level grid (low, nominal, high on every axis) as
+/// well, since a figure such as the diode's peak current can bottom out between corners.
 pub fn points(tbox: &ToleranceBox) -> Vec<Corner> {
     let k = tbox.axes.len();
     let mut out = vec![Corner {
         positions: vec![0.5; k],
     }];
-    for mask in 0..(1u32 << k) {
-        out.push(Corner {
-            positions: (0..k)
-                .map(|i| if mask & (1 << i) != 0 { 1.0 } else { 0.0 })
-                .collect(),
-        });
+    let levels: &[f64] = if k <= 4 {
+        &[0.0, 0.5, 1.0]
+    } else {
+        &[0.0, 1.0]
+    };
+    let count = levels.len().pow(k as u32);
+    for mut index in 0..count {
+        let positions: Vec<f64> = (0..k)
+            .map(|_| {
+                let level = levels[index % levels.len()];
+                index /= levels.len();
+                level
+            })
+            .collect();
+        if positions.iter().all(|&p| p == 0.5) {
+            continue;
+        }
+        out.push(Corner { positions });
     }
     for i in 0..k {
         for s in [0.25, 0.75] {
@@ -211,10 +225,12 @@ pub fn points(tbox: &ToleranceBox) -> Vec<Corner> {
             positions[i] = s;
             out.push(Corner { positions });
         }
-        for s in [0.0, 1.0] {
-            let mut positions = vec![0.5; k];
-            positions[i] = s;
-            out.push(Corner { positions });
+        if levels.len() == 2 {
+            for s in [0.0, 1.0] {
+                let mut positions = vec![0.5; k];
+                positions[i] = s;
+                out.push(Corner { positions });
+            }
         }
     }
     out
@@ -373,11 +389,78 @@ mod tests {
             ],
         };
         let pts = points(&tbox);
-        // nominal + 4 corners + 4 points per axis
-        assert_eq!(pts.len(), 1 + 4 + 8);
+        // nominal + the rest of the 3 x 3 grid + 2 quarter points per axis
+        assert_eq!(pts.len(), 1 + 8 + 4);
         let words: Vec<String> = pts.iter().map(|p| p.describe(&tbox)).collect();
         assert!(words.contains(&"mains -10 %, capacitor -20 %".to_string()));
         assert!(words.contains(&"mains +5 %".to_string()));
         assert!(words.contains(&"nominal".to_string()));
     }
+}
+
+/// The 1st and 99th percentile of one figure over a seeded random spread of the box.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Percentiles {
+    pub p1: f64,
+    pub p99: f64,
+}
+
+/// A seeded statistical spread: `samples` points drawn uniformly over the tolerance box (the
+/// tolerances are limits, so every value inside is taken as equally likely, the cautious
+/// choice), each solved; per figure the 1st and 99th percentile. The same seed gives the
+/// same answer.
+pub fn spread(
+    supply: &Supply,
+    samples: usize,
+    seed: u64,
+) -> Result<Vec<(&'static str, Percentiles)>, CircuitError> {
+    let tbox = ToleranceBox::of(supply);
+    let k = tbox.axes.len();
+    // xorshift64*: small, fast and reproducible everywhere (Vigna 2016).
+    let mut state = seed.max(1);
+    let mut uniform = move || {
+        state ^= state >> 12;
+        state ^= state << 25;
+        state ^= state >> 27;
+        (state.wrapping_mul(0x2545_f491_4f6c_dd1d) >> 11) as f64 / (1u64 << 53) as f64
+    };
+    let mut values: Vec<Vec<f64>> = Vec::new();
+    for _ in 0..samples {
+        let corner = Corner {
+            positions: (0..k).map(|_| uniform()).collect(),
+        };
+        let f = circuit::solve(supply, &corner.conditions(&tbox))?.figures;
+        let named = f.named();
+        if values.is_empty() {
+            values = vec![Vec::with_capacity(samples); named.len()];
+        }
+        for (i, (_, v)) in named.iter().enumerate() {
+            if let Some(v) = v {
+                values[i].push(*v);
+            }
+        }
+    }
+    let names = circuit::solve(supply, &Conditions::default())?
+        .figures
+        .named();
+    let mut out = Vec::new();
+    for (i, (name, _)) in names.iter().enumerate() {
+        let Some(vals) = values.get_mut(i) else {
+            continue;
+        };
+        if vals.is_empty() {
+            continue;
+        }
+        vals.sort_by(f64::total_cmp);
+        let at =
+            |q: f64| vals[((q * (vals.len() - 1) as f64).round() as usize).min(vals.len() - 1)];
+        out.push((
+            *name,
+            Percentiles {
+                p1: at(0.01),
+                p99: at(0.99),
+            },
+        ));
+    }
+    Ok(out)
 }
