@@ -78,7 +78,7 @@ fn twenty_reports(c: &mut Criterion) {
 fn worst_case_and_sizing(c: &mut Criterion) {
     use railcheck::analysis::{sizing, worst_case};
     let s = load("examples/pump-house-relay-rail.toml");
-    c.bench_function("worst_case_pump_house_21_points", |b| {
+    c.bench_function("worst_case_pump_house_33_points", |b| {
         b.iter(|| worst_case::worst_case(black_box(&s)).unwrap())
     });
     let mut g = c.benchmark_group("size");
