@@ -50,6 +50,18 @@ fn go_to_field(app: &mut App, key: Key) {
     }
 }
 
+/// Types `text` into the field `key` as a technician would: move there, Enter, clear, type,
+/// Enter.
+fn set_field(app: &mut App, key: Key, text: &str) {
+    go_to_field(app, key);
+    app.update(Msg::Enter);
+    for _ in 0..10 {
+        app.update(Msg::Backspace);
+    }
+    typed(app, text);
+    app.update(Msg::Enter);
+}
+
 fn select(app: &mut App, name: &str) {
     let pos = app
         .visible()
@@ -91,13 +103,7 @@ fn editing_the_capacitance_changes_the_results_and_saves() {
     let (mut app, _) = demo("edit");
     select(&mut app, PUMP);
     let ripple_before = figure(&app, "ripple_pp_v");
-    go_to_field(&mut app, Key::Uf);
-    app.update(Msg::Enter);
-    for _ in 0..10 {
-        app.update(Msg::Backspace);
-    }
-    typed(&mut app, "1m");
-    app.update(Msg::Enter);
+    set_field(&mut app, Key::Uf, "1m");
     let o = app.open.as_ref().unwrap();
     assert_eq!(o.supply.filter.uf, Some(1000.0), "1m is 1 mF, 1000 uF");
     let ripple_after = figure(&app, "ripple_pp_v");
@@ -121,13 +127,7 @@ fn editing_the_capacitance_changes_the_results_and_saves() {
 fn an_invalid_value_shows_why_and_keeps_the_old_value() {
     let (mut app, _) = demo("invalid");
     select(&mut app, PUMP);
-    go_to_field(&mut app, Key::Uf);
-    app.update(Msg::Enter);
-    for _ in 0..10 {
-        app.update(Msg::Backspace);
-    }
-    typed(&mut app, "-47");
-    app.update(Msg::Enter);
+    set_field(&mut app, Key::Uf, "-47");
     let o = app.open.as_ref().unwrap();
     assert_eq!(o.supply.filter.uf, Some(2200.0));
     let (_, why) = o.field_error.as_ref().expect("a reason is shown");
@@ -156,13 +156,7 @@ fn what_if_discard_leaves_the_file_as_it_was() {
     let file = app.open.as_ref().unwrap().entry.file.clone();
     let before = std::fs::read(&file).unwrap();
     app.update(Msg::Char('x'));
-    go_to_field(&mut app, Key::Uf);
-    app.update(Msg::Enter);
-    for _ in 0..10 {
-        app.update(Msg::Backspace);
-    }
-    typed(&mut app, "470");
-    app.update(Msg::Enter);
+    set_field(&mut app, Key::Uf, "470");
     assert_eq!(app.open.as_ref().unwrap().supply.filter.uf, Some(470.0));
     // The screen shows the change against the saved supply.
     let shown = screen(&app, 120, 40);
@@ -329,13 +323,7 @@ fn screens_at_80x24_and_120x40() {
         app.update(Msg::Char('v'));
         insta::assert_snapshot!(format!("visits_{w}x{h}"), screen(&app, w, h));
         app.update(Msg::Char('v'));
-        go_to_field(&mut app, Key::Uf);
-        app.update(Msg::Enter);
-        for _ in 0..10 {
-            app.update(Msg::Backspace);
-        }
-        typed(&mut app, "-47");
-        app.update(Msg::Enter);
+        set_field(&mut app, Key::Uf, "-47");
         insta::assert_snapshot!(format!("refused_value_{w}x{h}"), screen(&app, w, h));
     }
 }
