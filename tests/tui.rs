@@ -327,3 +327,32 @@ fn screens_at_80x24_and_120x40() {
         insta::assert_snapshot!(format!("refused_value_{w}x{h}"), screen(&app, w, h));
     }
 }
+
+#[test]
+fn tiny_and_odd_terminal_sizes_draw_without_panic() {
+    let (mut app, _) = demo("tiny");
+    for (w, h) in [
+        (1u16, 1u16),
+        (10, 5),
+        (40, 12),
+        (79, 23),
+        (200, 60),
+        (80, 8),
+    ] {
+        let _ = screen(&app, w, h);
+        app.update(Msg::Char('?'));
+        let _ = screen(&app, w, h);
+        app.update(Msg::Escape);
+        app.update(Msg::Char('v'));
+        let _ = screen(&app, w, h);
+        app.update(Msg::Char('v'));
+        for dialog in ['n', 'a', 'D', 'x'] {
+            app.update(Msg::Char(dialog));
+            let _ = screen(&app, w, h);
+            app.update(Msg::Escape);
+        }
+        app.update(Msg::Char('x'));
+        let _ = screen(&app, w, h);
+        app.update(Msg::Escape);
+    }
+}

@@ -105,12 +105,15 @@ impl Widget for &ResultsPanel<'_> {
             let inner = area.inner(ratatui::layout::Margin::new(1, 1));
             look.panel("Visits (v: back to results)", focused)
                 .render(area, buf);
-            let chart_h = if open
-                .trend
-                .as_ref()
-                .is_some_and(|t| t.points.iter().filter(|p| p.uf.is_some()).count() >= 2)
+            // The chart takes a third of the panel when that is four rows or more.
+            let room = inner.height / 3;
+            let chart_h = if room >= 4
+                && open
+                    .trend
+                    .as_ref()
+                    .is_some_and(|t| t.points.iter().filter(|p| p.uf.is_some()).count() >= 2)
             {
-                (inner.height / 3).clamp(4, 8)
+                room.min(8)
             } else {
                 0
             };
@@ -121,7 +124,7 @@ impl Widget for &ResultsPanel<'_> {
             Paragraph::new(lines)
                 .wrap(Wrap { trim: true })
                 .render(text_area, buf);
-            if let Some(t) = &open.trend {
+            if let Some(t) = open.trend.as_ref().filter(|_| inner.height >= 2) {
                 let summary = match (&t.crossing, t.uf_per_year) {
                     (Some(c), Some(s)) => format!(
                         "trend {s:+.0} uF/yr; {} the {:.0} uF limit about {}{}",

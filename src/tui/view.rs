@@ -34,7 +34,10 @@ pub fn draw(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
     let left_w = (area.width * 35 / 100).max(28).min(area.width / 2);
     let [left, right] =
         Layout::horizontal([Constraint::Length(left_w), Constraint::Min(20)]).areas(body);
-    let list_h = (app.entries.len() as u16 + 2).clamp(4, body.height / 3 + 1);
+    // At least four rows (or all there are), at most a third of the body.
+    let list_h = (app.entries.len() as u16 + 2)
+        .min(body.height / 3 + 1)
+        .max(4.min(body.height));
     let [list, form] =
         Layout::vertical([Constraint::Length(list_h), Constraint::Min(4)]).areas(left);
     let sketch_h = (body.height / 3).max(7).min(body.height / 2);
