@@ -79,12 +79,13 @@ enum Command {
             long,
             value_name = "V",
             conflicts_with = "headroom",
-            required_unless_present = "headroom"
+            required_unless_present = "headroom",
+            allow_negative_numbers = true
         )]
         ripple_pp: Option<f64>,
         /// Worst-case valley this far above the regulator's output plus dropout (volts); with
         /// no regulator, the lowest valley itself.
-        #[arg(long, value_name = "V")]
+        #[arg(long, value_name = "V", allow_negative_numbers = true)]
         headroom: Option<f64>,
         #[arg(long)]
         json: bool,
@@ -170,6 +171,10 @@ fn resolve(arg: &str, cli_dir: &Option<PathBuf>, no_demo: bool) -> Result<(Suppl
     let path = Path::new(arg);
     if path.is_file() {
         return Ok((load(path)?, path.display().to_string()));
+    }
+    // Something written as a path is a file that is not there, not a name to look up.
+    if arg.contains(['/', '\\']) || arg.ends_with(".toml") {
+        bail!("{arg}: no such supply file");
     }
     let lib = library(cli_dir, no_demo)?;
     let entry = lib.find(arg)?;
