@@ -356,3 +356,28 @@ fn tiny_and_odd_terminal_sizes_draw_without_panic() {
         app.update(Msg::Escape);
     }
 }
+
+#[test]
+fn the_caution_line_matches_the_report_and_defers_to_local_codes() {
+    let (mut app, _) = demo("caution");
+    select(&mut app, "Flow chart recorder, HT rail");
+    let supply = app.open.as_ref().unwrap().supply.clone();
+    let report = railcheck::report::build_default(supply, "x").unwrap();
+    let energy = report
+        .cautions
+        .iter()
+        .find(|c| c.starts_with("Stored energy"))
+        .and_then(|c| c.split("up to ").nth(1))
+        .and_then(|c| c.split(' ').next())
+        .unwrap()
+        .to_string();
+    for (w, h) in [(80, 24), (100, 30), (120, 40), (160, 40)] {
+        let shown = screen(&app, w, h);
+        let line = shown.lines().find(|l| l.contains("CAUTION")).unwrap();
+        assert!(
+            line.contains(&format!("{energy} J")),
+            "{w}: {line} (report: {energy} J)"
+        );
+        assert!(line.contains("local codes"), "{w}: {line}");
+    }
+}

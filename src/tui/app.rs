@@ -78,6 +78,9 @@ pub struct Solved {
     pub checks: Vec<Check>,
     pub not_rated: Vec<&'static str>,
     pub cautions: Vec<String>,
+    /// The rail's highest voltage at high line with the lightest (or no) load, volts: what the
+    /// stored-energy caution is worked out at.
+    pub stress_peak_v: f64,
     /// The worst low corner, its words and its solve, for the sketch.
     pub low: Option<(String, Operating)>,
 }
@@ -101,6 +104,7 @@ pub fn solve_for_screen(supply: &Supply) -> Result<Solved, String> {
         checks,
         not_rated,
         cautions,
+        stress_peak_v: stress.max_v,
         low,
     })
 }

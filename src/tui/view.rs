@@ -78,10 +78,9 @@ pub fn draw(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
         .as_ref()
         .and_then(|o| o.solved.as_ref().as_ref().ok());
     let stored = solved.map(|s| {
-        let peak = s
-            .worst
-            .extent("cap_peak_v")
-            .map_or(s.nominal.figures.max_v, |e| e.max);
+        // The same peak and capacitance as the report's caution: the rail at high line, lightest
+        // or no load, with the capacitance seen across the rail (a doubler's two in series).
+        let peak = s.stress_peak_v;
         let farads =
             crate::analysis::cautions::rail_farads(&app.open.as_ref().expect("open").supply);
         (
@@ -101,16 +100,33 @@ pub fn draw(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
         ),
         _ => "CAUTION mains and charged capacitors can kill: meter before touching; local codes and licensed practice apply.".to_string(),
     };
-    let caution_text = if long.chars().count() <= caution.width as usize {
-        long
-    } else {
-        match &stored {
-            Some((j, v)) => format!(
-                "CAUTION mains can kill; {j:.2} J at {v:.1} V stored. Meter before touching."
+    // Shorter and shorter wordings; every one keeps the hazard, the energy and the deferral to
+    // local codes, so a narrow screen loses words, not the warning.
+    let seconds = solved
+        .and_then(|s| s.cautions.iter().find(|c| c.starts_with("Discharge")))
+        .and_then(|c| c.split("in about ").nth(1))
+        .and_then(|t| t.split(' ').next())
+        .map(|t| format!(", {t} s to discharge"))
+        .unwrap_or_default();
+    let shorter = match &stored {
+        Some((j, v)) => vec![
+            format!(
+                "CAUTION mains can kill; {j:.2} J at {v:.1} V stored{seconds}. Meter first; local codes and licensed practice apply."
             ),
-            None => "CAUTION mains can kill. Meter before touching.".into(),
-        }
+            format!(
+                "CAUTION mains can kill; {j:.2} J at {v:.1} V{seconds}. Meter first; local codes apply."
+            ),
+            format!("CAUTION mains kills; {j:.2} J at {v:.1} V. Meter first; local codes apply."),
+        ],
+        None => vec![
+            "CAUTION mains can kill. Meter first; local codes and licensed practice apply.".into(),
+        ],
     };
+    let fits = |t: &String| t.chars().count() <= caution.width as usize;
+    let caution_text = std::iter::once(long)
+        .chain(shorter.clone())
+        .find(fits)
+        .unwrap_or_else(|| shorter.last().cloned().unwrap_or_default());
     Paragraph::new(Line::styled(caution_text, look.caution())).render(caution, buf);
     let hint = match &app.mode {
         Mode::Editing { .. } => match app.open.as_ref().and_then(|o| o.field_error.as_ref()) {
