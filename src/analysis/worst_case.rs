@@ -39,58 +39,31 @@ impl ToleranceBox {
     /// The box of `supply`: mains and capacitance always (with their defaults); load range,
     /// diode spread, capacitor ageing and ratio spread when the file states them.
     pub fn of(supply: &Supply) -> ToleranceBox {
-        let mut axes = vec![Axis {
-            kind: AxisKind::Mains,
-            low: 1.0 - supply.mains.low_pct / 100.0,
-            high: 1.0 + supply.mains.high_pct / 100.0,
-            nominal: 1.0,
-        }];
+        let mut axes = vec![Axis::percent(
+            AxisKind::Mains,
+            supply.mains.low_pct,
+            supply.mains.high_pct,
+        )];
         let f = &supply.filter;
         if f.kind != crate::supply::FilterKind::None {
             let aged = f.aged_pct.unwrap_or(0.0);
-            axes.push(Axis {
-                kind: AxisKind::Capacitance,
-                low: (1.0 - (f.low_pct + aged) / 100.0).max(0.01),
-                high: 1.0 + f.high_pct / 100.0,
-                nominal: 1.0,
-            });
+            let mut cap = Axis::percent(AxisKind::Capacitance, f.low_pct + aged, f.high_pct);
+            // A capacitor never goes to nothing within its tolerance, however the file reads.
+            cap.low = cap.low.max(0.01);
+            axes.push(cap);
         }
         let l = &supply.load;
-        if let Some(a) = l.amps
-            && (l.min_amps.is_some() || l.max_amps.is_some())
-        {
-            axes.push(Axis {
-                kind: AxisKind::LoadAmps,
-                low: l.min_amps.unwrap_or(a).min(a),
-                high: l.max_amps.unwrap_or(a).max(a),
-                nominal: a,
-            });
+        if let Some(a) = l.amps {
+            axes.extend(Axis::range(AxisKind::LoadAmps, a, l.min_amps, l.max_amps));
         }
-        if let Some(r) = l.ohms
-            && (l.min_ohms.is_some() || l.max_ohms.is_some())
-        {
-            axes.push(Axis {
-                kind: AxisKind::LoadOhms,
-                low: l.min_ohms.unwrap_or(r).min(r),
-                high: l.max_ohms.unwrap_or(r).max(r),
-                nominal: r,
-            });
+        if let Some(r) = l.ohms {
+            axes.extend(Axis::range(AxisKind::LoadOhms, r, l.min_ohms, l.max_ohms));
         }
         if let Some(p) = supply.rectifier.drop_spread_pct {
-            axes.push(Axis {
-                kind: AxisKind::DiodeDrop,
-                low: 1.0 - p / 100.0,
-                high: 1.0 + p / 100.0,
-                nominal: 1.0,
-            });
+            axes.push(Axis::percent(AxisKind::DiodeDrop, p, p));
         }
         if let Some(p) = supply.transformer.ratio_pct {
-            axes.push(Axis {
-                kind: AxisKind::Ratio,
-                low: 1.0 - p / 100.0,
-                high: 1.0 + p / 100.0,
-                nominal: 1.0,
-            });
+            axes.push(Axis::percent(AxisKind::Ratio, p, p));
         }
         ToleranceBox { axes }
     }
@@ -180,6 +153,27 @@ impl Corner {
 }
 
 impl Axis {
+    /// A factor on the nominal from `low_pct` below to `high_pct` above it.
+    fn percent(kind: AxisKind, low_pct: f64, high_pct: f64) -> Axis {
+        Axis {
+            kind,
+            low: 1.0 - low_pct / 100.0,
+            high: 1.0 + high_pct / 100.0,
+            nominal: 1.0,
+        }
+    }
+
+    /// A stated range around `nominal` (amps or ohms), an end not stated standing at the
+    /// nominal; None when neither end is stated.
+    fn range(kind: AxisKind, nominal: f64, min: Option<f64>, max: Option<f64>) -> Option<Axis> {
+        (min.is_some() || max.is_some()).then(|| Axis {
+            kind,
+            low: min.unwrap_or(nominal).min(nominal),
+            high: max.unwrap_or(nominal).max(nominal),
+            nominal,
+        })
+    }
+
     /// The axis value at position `s` (0 = low end, 1 = high end); the nominal sits wherever
     /// it falls, so the interior points are spread on each side of it.
     pub fn value_at(&self, s: f64) -> f64 {
