@@ -2,7 +2,9 @@
 //! Run: cargo bench --bench library
 
 use criterion::{Criterion, criterion_group, criterion_main};
+use railcheck::diagnose::trend;
 use railcheck::library::Library;
+use railcheck::supply::Supply;
 use std::hint::black_box;
 use std::path::PathBuf;
 
@@ -52,5 +54,40 @@ fn load_library(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, load_library);
+/// The pump-house example with `count` daily visits whose mains readings wander over 215-245 V
+/// at a meter's 0.1 V resolution (invented readings of a slowly drying capacitor).
+fn long_history(count: usize) -> Supply {
+    let mut text = include_str!("../examples/pump-house-relay-rail.toml").to_string();
+    let mut seed: u64 = 0x9E37_79B9_7F4A_7C15;
+    let mut next = || {
+        seed ^= seed << 13;
+        seed ^= seed >> 7;
+        seed ^= seed << 17;
+        (seed >> 11) as f64 / (1u64 << 53) as f64
+    };
+    for v in 0..count {
+        let mains = (2150.0 + 300.0 * next()).round() / 10.0;
+        let dc = 28.3 * mains / 230.0 - 0.00006 * v as f64 + 0.1 * (next() - 0.5);
+        let ripple = 1.1 + 0.0001 * v as f64 + 0.04 * (next() - 0.5);
+        text.push_str(&format!(
+            "\n[[visit]]\ndate = {}\nmains_vrms = {mains}\ndc_v = {dc:.2}\n\
+             ripple_pp_v = {ripple:.2}\nload_a = 0.35\n",
+            railcheck::visit::civil_from_days(15_341 + v as i64)
+        ));
+    }
+    Supply::from_toml_str(&text).unwrap()
+}
+
+fn long_trend(c: &mut Criterion) {
+    let supply = long_history(5000);
+    let mut g = c.benchmark_group("library");
+    g.sample_size(10);
+    // What `railcheck log` and the screen's visits view work out for a unit with 5,000 visits.
+    g.bench_function("trend_5000_visits", |b| {
+        b.iter(|| black_box(trend::trend(black_box(&supply))))
+    });
+    g.finish();
+}
+
+criterion_group!(benches, load_library, long_trend);
 criterion_main!(benches);

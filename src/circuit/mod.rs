@@ -253,6 +253,41 @@ pub struct Figures {
 }
 
 impl Figures {
+    /// A weighted sum of several solves' figures (same units; weights summing to 1), for
+    /// interpolating between solves of neighbouring conditions. The ripple frequency, one
+    /// harmonic or another rather than a quantity, comes from the heaviest part.
+    /// Parts of weight zero are left out (an interpolation's unused slots).
+    pub fn blend(parts: &[(f64, &Figures)]) -> Figures {
+        let used = || parts.iter().filter(|(w, _)| *w != 0.0);
+        let sum = |g: fn(&Figures) -> f64| used().map(|(w, f)| w * g(f)).sum::<f64>();
+        let heaviest = used()
+            .max_by(|a, b| a.0.total_cmp(&b.0))
+            .map_or(0.0, |(_, f)| f.ripple_hz);
+        let inrush = used()
+            .map(|(w, f)| f.inrush_peak_a.map(|a| w * a))
+            .sum::<Option<f64>>();
+        Figures {
+            dc_v: sum(|f| f.dc_v),
+            max_v: sum(|f| f.max_v),
+            min_v: sum(|f| f.min_v),
+            ripple_pp_v: sum(|f| f.ripple_pp_v),
+            ripple_rms_v: sum(|f| f.ripple_rms_v),
+            ripple_hz: heaviest,
+            load_a: sum(|f| f.load_a),
+            diode_peak_a: sum(|f| f.diode_peak_a),
+            diode_avg_a: sum(|f| f.diode_avg_a),
+            diode_rms_a: sum(|f| f.diode_rms_a),
+            diode_piv_v: sum(|f| f.diode_piv_v),
+            winding_rms_a: sum(|f| f.winding_rms_a),
+            winding_va: sum(|f| f.winding_va),
+            cap_ripple_rms_a: sum(|f| f.cap_ripple_rms_a),
+            conduction_deg: sum(|f| f.conduction_deg),
+            inrush_peak_a: inrush,
+            cap_peak_v: sum(|f| f.cap_peak_v),
+            secondary_rms_v: sum(|f| f.secondary_rms_v),
+        }
+    }
+
     /// Every figure with its JSON name, in the report's order.
     pub fn named(&self) -> [(&'static str, Option<f64>); 18] {
         [
