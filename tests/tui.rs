@@ -381,3 +381,67 @@ fn the_caution_line_matches_the_report_and_defers_to_local_codes() {
         assert!(line.contains("local codes"), "{w}: {line}");
     }
 }
+
+/// A library holding one supply with `count` visits (the pump-house example with invented
+/// readings of a drying capacitor), for work that takes longer than a frame.
+fn long_history_library(tag: &str, count: usize) -> PathBuf {
+    let dir = std::env::temp_dir()
+        .join(format!("railcheck-tui-{}", std::process::id()))
+        .join(tag);
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    let mut text = include_str!("../examples/pump-house-relay-rail.toml").replace(PUMP, "Long");
+    for v in 0..count {
+        text.push_str(&format!(
+            "\n[[visit]]\ndate = {}\nmains_vrms = 230.0\ndc_v = {:.2}\nripple_pp_v = {:.2}\n",
+            railcheck::visit::civil_from_days(15_341 + v as i64),
+            28.3 - 0.0005 * v as f64,
+            1.1 + 0.0004 * v as f64
+        ));
+    }
+    std::fs::write(dir.join("long.toml"), text).unwrap();
+    dir
+}
+
+#[test]
+fn keys_answer_while_a_long_trend_is_worked_out() {
+    // The visits view of a unit with a long history: its trend is worked out off the keys'
+    // thread, so the key returns at once and the next keys are handled before it is done.
+    let dir = long_history_library("long-trend", 2000);
+    let mut app = App::new(Library::open(&dir, false).unwrap()).unwrap();
+    app.patience = Some(std::time::Duration::ZERO);
+    app.update(Msg::Char('v'));
+    let o = app.open.as_ref().unwrap();
+    assert!(o.show_visits && o.trending, "asked for, on its way");
+    assert!(o.trend.is_none(), "the key did not wait for the trend");
+    // Keys go on meanwhile: the panels move, and the screen draws with the trend pending.
+    app.update(Msg::NextPanel);
+    assert_eq!(app.panel, railcheck::tui::app::Panel::List);
+    assert!(screen(&app, 100, 30).contains("working out the trend"));
+    app.wait_idle();
+    let o = app.open.as_ref().unwrap();
+    assert!(!o.trending);
+    let t = o.trend.as_ref().expect("the trend arrived");
+    assert_eq!(t.points.len(), 2000);
+    assert!(t.uf_per_year.unwrap() < 0.0, "a drying capacitor");
+}
+
+#[test]
+fn only_the_newest_edit_s_solve_is_shown() {
+    // Two edits in quick succession with the screen not waiting: whatever order the answers
+    // come in, the results end as a direct solve of the last value.
+    let (mut app, _) = demo("newest");
+    select(&mut app, PUMP);
+    app.patience = Some(std::time::Duration::ZERO);
+    set_field(&mut app, Key::Uf, "1500");
+    set_field(&mut app, Key::Uf, "1000");
+    app.wait_idle();
+    let o = app.open.as_ref().unwrap();
+    assert!(!o.solving);
+    assert_eq!(o.supply.filter.uf, Some(1000.0));
+    let direct = railcheck::tui::app::solve_for_screen(&o.supply).unwrap();
+    assert_eq!(
+        figure(&app, "ripple_pp_v"),
+        direct.nominal.figures.ripple_pp_v
+    );
+}

@@ -2,6 +2,7 @@
 //! or reads the terminal, so key sequences are tested by calling `update`.
 
 use super::fields::FIELDS;
+use super::worker::{Done, Job, Worker};
 use crate::analysis::cautions::{SAFE_TOUCH_V, cautions};
 use crate::analysis::checks::{self, Check};
 use crate::analysis::worst_case::{self, WorstCase};
@@ -9,6 +10,7 @@ use crate::circuit::{self, HandEstimate, Operating};
 use crate::library::{Entry, EntryState, Library, LibraryError, read_entry};
 use crate::supply::{Supply, Topology};
 use crate::visit::Visit;
+use std::time::{Duration, Instant};
 
 /// The panel that has the keyboard.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -87,9 +89,37 @@ pub struct Solved {
 
 /// Solves `supply` for the screen: nominal, worst case, checks, cautions, low corner.
 pub fn solve_for_screen(supply: &Supply) -> Result<Solved, String> {
-    let (nominal, hand) = circuit::solve_nominal(supply).map_err(|e| e.to_string())?;
-    let worst = worst_case::worst_case(supply).map_err(|e| e.to_string())?;
-    let (stress, no_load) = worst_case::voltage_stress(supply).map_err(|e| e.to_string())?;
+    solve_for_screen_while(supply, &|| true).expect("never stopped")
+}
+
+/// As [`solve_for_screen`], asking `keep_going` between its stages (nominal, worst case,
+/// voltage stress, low corner) and giving up with None when it says no: the screen's worker
+/// stops a solve that a newer edit has made moot.
+pub fn solve_for_screen_while(
+    supply: &Supply,
+    keep_going: &dyn Fn() -> bool,
+) -> Option<Result<Solved, String>> {
+    let (nominal, hand) = match circuit::solve_nominal(supply) {
+        Ok(x) => x,
+        Err(e) => return Some(Err(e.to_string())),
+    };
+    if !keep_going() {
+        return None;
+    }
+    let worst = match worst_case::worst_case(supply) {
+        Ok(w) => w,
+        Err(e) => return Some(Err(e.to_string())),
+    };
+    if !keep_going() {
+        return None;
+    }
+    let (stress, no_load) = match worst_case::voltage_stress(supply) {
+        Ok(x) => x,
+        Err(e) => return Some(Err(e.to_string())),
+    };
+    if !keep_going() {
+        return None;
+    }
     let (checks, not_rated) = checks::checks(supply, &worst, &stress, no_load);
     let cautions = cautions(supply, stress.max_v, SAFE_TOUCH_V);
     let low = worst.low_corner().and_then(|(words, cond)| {
@@ -97,7 +127,7 @@ pub fn solve_for_screen(supply: &Supply) -> Result<Solved, String> {
             .ok()
             .map(|op| (words.to_string(), op))
     });
-    Ok(Solved {
+    Some(Ok(Solved {
         nominal,
         hand,
         worst,
@@ -106,8 +136,11 @@ pub fn solve_for_screen(supply: &Supply) -> Result<Solved, String> {
         cautions,
         stress_peak_v: stress.max_v,
         low,
-    })
+    }))
 }
+
+/// What the results panel holds while the first solve of a supply is on its way.
+pub const WORKING: &str = "working it out...";
 
 /// The supply open in the form.
 #[derive(Debug, Clone)]
@@ -131,11 +164,16 @@ pub struct Open {
     pub last_diagnosis: Option<crate::diagnose::Diagnosis>,
     /// The capacitance trend across the visits, worked out when the visits are shown.
     pub trend: Option<crate::diagnose::trend::Trend>,
+    /// A solve of the supply as it is now is on its way: the results shown are older.
+    pub solving: bool,
+    /// A trend of the visits as they are now is on its way.
+    pub trending: bool,
 }
 
 impl Open {
+    /// The supply opened; its solve is asked for by the caller ([`App::request_solve`]).
     fn new(entry: Entry, supply: Supply) -> Open {
-        let solved = Box::new(solve_for_screen(&supply));
+        let solved = Box::new(Err(WORKING.to_string()));
         Open {
             entry,
             saved: supply.clone(),
@@ -149,6 +187,8 @@ impl Open {
             show_visits: false,
             last_diagnosis: None,
             trend: None,
+            solving: true,
+            trending: false,
         }
     }
 
@@ -161,12 +201,14 @@ impl Open {
         *real != self.saved
     }
 
-    fn set(&mut self, next: Supply) {
-        if next != self.supply {
-            self.undo.push(std::mem::replace(&mut self.supply, next));
-            self.redo.clear();
-            *self.solved = solve_for_screen(&self.supply);
+    /// Takes `next` as the working copy; true if it differs (and so wants a new solve).
+    fn set(&mut self, next: Supply) -> bool {
+        if next == self.supply {
+            return false;
         }
+        self.undo.push(std::mem::replace(&mut self.supply, next));
+        self.redo.clear();
+        true
     }
 }
 
@@ -187,6 +229,11 @@ pub struct App {
     pub sketch_low: bool,
     /// Esc was the last key: a `q` now quits from anywhere.
     pub escaped: bool,
+    /// How long an update waits for the worker's answers before it returns: the live screen
+    /// waits at most a frame and shows "working" past that; None waits for every answer, which
+    /// makes a key sequence deterministic for tests, screenshots and benchmarks.
+    pub patience: Option<Duration>,
+    worker: Worker,
 }
 
 /// What a key asks for, once the mode has read it.
@@ -234,9 +281,88 @@ impl App {
             color: std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty()),
             sketch_low: false,
             escaped: false,
+            patience: None,
+            worker: Worker::start(),
         };
         app.open_selected();
+        app.settle();
         Ok(app)
+    }
+
+    /// Asks the worker to solve the open supply as it is now.
+    fn request_solve(&mut self) {
+        if let Some(o) = &mut self.open {
+            o.solving = true;
+            self.worker.submit(Job::Solve(o.supply.clone()));
+        }
+    }
+
+    /// Asks the worker for the trend of the open supply's visits as they are now.
+    fn request_trend(&mut self) {
+        if let Some(o) = &mut self.open {
+            o.trending = true;
+            self.worker.submit(Job::Trend(o.supply.clone()));
+        }
+    }
+
+    /// Whether answers from the worker are still to come.
+    pub fn busy(&self) -> bool {
+        self.worker.busy()
+    }
+
+    /// Applies the answers that have arrived, without waiting; true if any did.
+    pub fn absorb(&mut self) -> bool {
+        let mut any = false;
+        while let Some(done) = self.worker.receive(Some(Duration::ZERO)) {
+            self.apply(done);
+            any = true;
+        }
+        any
+    }
+
+    /// Waits for the worker as long as [`App::patience`] allows, applying what comes.
+    pub fn settle(&mut self) {
+        let deadline = self.patience.map(|p| Instant::now() + p);
+        while self.worker.busy() {
+            let wait = deadline.map(|d| d.saturating_duration_since(Instant::now()));
+            match self.worker.receive(wait) {
+                Some(done) => self.apply(done),
+                None => break,
+            }
+        }
+    }
+
+    /// Waits for every outstanding answer, whatever the patience (for tests and tools).
+    pub fn wait_idle(&mut self) {
+        while let Some(done) = self.worker.receive(None) {
+            self.apply(done);
+        }
+    }
+
+    /// Takes one answer where it still applies: to the working copy, or to the what-if's
+    /// saved side; an answer for a supply no longer open or since edited is dropped.
+    fn apply(&mut self, done: Done) {
+        let Some(o) = &mut self.open else { return };
+        match done {
+            Done::Solved(supply, result) => {
+                if let Some((before, solved)) = &mut o.what_if
+                    && *before == supply
+                {
+                    *solved = result.clone();
+                }
+                if o.supply == supply {
+                    o.solved = result;
+                    o.solving = false;
+                }
+            }
+            Done::Trend(supply, trend) => {
+                if o.supply == supply {
+                    o.trend = Some(trend);
+                    o.trending = false;
+                }
+            }
+            Done::Dropped => {}
+        }
     }
 
     /// The entries the filter lets through, as indexes into `entries`.
@@ -261,6 +387,7 @@ impl App {
             }
             EntryState::Unreadable { .. } => None,
         };
+        self.request_solve();
     }
 
     /// Saves the open supply if it was edited; true if nothing is left unsaved.
@@ -343,6 +470,7 @@ impl App {
             Mode::Conflict => self.conflict(msg),
         }
         self.escaped = was_escape;
+        self.settle();
     }
 
     fn quit_now(&mut self) {
@@ -352,6 +480,7 @@ impl App {
             // Scratch values are never saved by quitting; the real edits underneath are.
             let (before, solved) = open.what_if.take().expect("what-if");
             open.supply = before;
+            open.solving = is_working(&solved);
             open.solved = solved;
         }
         if self.save_open() {
@@ -420,10 +549,11 @@ impl App {
             Msg::Visits | Msg::Char('v') => {
                 if let Some(o) = &mut self.open {
                     o.show_visits = !o.show_visits;
-                    if o.show_visits {
-                        o.trend = Some(crate::diagnose::trend::trend(&o.supply));
-                    }
+                    let want = o.show_visits;
                     self.panel = Panel::Results;
+                    if want {
+                        self.request_trend();
+                    }
                 }
             }
             Msg::AddVisit | Msg::Char('a') if self.open.is_some() => {
@@ -482,7 +612,9 @@ impl App {
             match key.apply(&o.supply, &word) {
                 Ok(next) => {
                     o.field_error = None;
-                    o.set(next);
+                    if o.set(next) {
+                        self.request_solve();
+                    }
                     self.autosave();
                 }
                 Err(e) => o.field_error = Some((o.field, e)),
@@ -523,9 +655,12 @@ impl App {
                 match key.apply(&o.supply, &buffer) {
                     Ok(next) => {
                         o.field_error = None;
-                        o.set(next);
+                        let changed = o.set(next);
                         let label = FIELDS[o.field].label;
                         let scratch = o.what_if.is_some();
+                        if changed {
+                            self.request_solve();
+                        }
                         self.autosave();
                         if self.mode == Mode::Normal {
                             self.status = if scratch {
@@ -583,7 +718,7 @@ impl App {
         };
         if let Some(prev) = from.pop() {
             to.push(std::mem::replace(&mut o.supply, prev));
-            *o.solved = solve_for_screen(&o.supply);
+            self.request_solve();
             self.autosave();
             self.status = if back {
                 "undone (saved)".into()
@@ -625,6 +760,7 @@ impl App {
                     self.status = "what-if kept as edits (saved)".into();
                 } else {
                     o.supply = before;
+                    o.solving = is_working(&solved);
                     o.solved = solved;
                     self.status = "what-if discarded".into();
                 }
@@ -767,13 +903,17 @@ impl App {
         };
         next.visits.push(visit);
         next.validate().map_err(|e| e.to_string())?;
+        let mut changed = false;
         if o.what_if.is_none() {
-            o.set(next);
+            changed = o.set(next);
         } else if let Some((before, _)) = &mut o.what_if {
             *before = next;
         }
         o.show_visits = true;
-        o.trend = Some(crate::diagnose::trend::trend(&o.supply));
+        if changed {
+            self.request_solve();
+        }
+        self.request_trend();
         if self.save_open() {
             self.status = "visit recorded and saved".into();
         }
@@ -807,6 +947,11 @@ impl App {
             _ => {}
         }
     }
+}
+
+/// Whether `solved` is the placeholder of a solve still on its way.
+fn is_working(solved: &Result<Solved, String>) -> bool {
+    matches!(solved, Err(e) if e == WORKING)
 }
 
 /// A starting point for a new supply of `topology`: a 230 V, 50 Hz unit with round values.

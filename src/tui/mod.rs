@@ -11,9 +11,14 @@ pub mod sketch;
 pub mod style;
 pub mod trend_chart;
 pub mod view;
+pub mod worker;
 
 use app::{App, Msg};
 use crossterm::event::{self, Event, KeyCode, KeyEvent, KeyEventKind, KeyModifiers};
+use std::time::Duration;
+
+/// One frame at about 60 per second: how long a key may wait for an answer.
+const FRAME: Duration = Duration::from_millis(16);
 
 /// The message a key press means, whatever the mode (the mode reads characters itself).
 pub fn message(key: KeyEvent) -> Option<Msg> {
@@ -45,15 +50,25 @@ pub fn message(key: KeyEvent) -> Option<Msg> {
 /// out, on an error and on a panic (ratatui's hook).
 pub fn run(mut app: App) -> anyhow::Result<()> {
     let mut terminal = ratatui::init();
+    // A key waits at most one frame for a solve; slower answers arrive while the keys go on.
+    app.patience = Some(FRAME);
     let result = (|| -> anyhow::Result<()> {
         while !app.quit {
             terminal.draw(|f| view::view(&app, f))?;
-            // Resize events simply fall through to the next draw at the new size.
-            if let Event::Key(key) = event::read()?
+            // While answers are on their way, look for them between keys; otherwise sleep
+            // until a key (or a resize, which falls through to the next draw).
+            let wait = if app.busy() {
+                FRAME
+            } else {
+                Duration::from_secs(3600)
+            };
+            if event::poll(wait)?
+                && let Event::Key(key) = event::read()?
                 && let Some(msg) = message(key)
             {
                 app.update(msg);
             }
+            app.absorb();
         }
         Ok(())
     })();

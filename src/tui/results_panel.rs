@@ -103,8 +103,12 @@ impl Widget for &ResultsPanel<'_> {
                 }
             }
             let inner = area.inner(ratatui::layout::Margin::new(1, 1));
-            look.panel("Visits (v: back to results)", focused)
-                .render(area, buf);
+            let title = if open.trending {
+                "Visits (working out the trend...)"
+            } else {
+                "Visits (v: back to results)"
+            };
+            look.panel(title, focused).render(area, buf);
             // The chart takes a third of the panel when that is four rows or more.
             let room = inner.height / 3;
             let chart_h = if room >= 4
@@ -164,8 +168,20 @@ impl Widget for &ResultsPanel<'_> {
             }
             return;
         }
+        // While a newer solve is on its way the older figures stay, marked as such.
+        let title = if open.solving {
+            "Results (working...)"
+        } else {
+            "Results"
+        };
         let solved = match open.solved.as_ref() {
             Ok(s) => s,
+            Err(_) if open.solving => {
+                Paragraph::new("Working it out... (the keys still answer)")
+                    .block(look.panel(title, focused))
+                    .render(area, buf);
+                return;
+            }
             Err(e) => {
                 Paragraph::new(format!("Cannot solve this supply: {e}"))
                     .wrap(Wrap { trim: true })
@@ -229,7 +245,7 @@ impl Widget for &ResultsPanel<'_> {
             .style(look.heading());
         let table_height = (ROWS.len() as u16 + 1).min(area.height.saturating_sub(2));
         let inner = area.inner(ratatui::layout::Margin::new(1, 1));
-        look.panel("Results", focused).render(area, buf);
+        look.panel(title, focused).render(area, buf);
         let table_area = Rect {
             height: table_height,
             ..inner

@@ -1,0 +1,149 @@
+//! Slow work away from the keys. The screen hands its solves (nominal, worst case, checks) and
+//! its capacitance trends to one background thread and goes on answering keys; the answers come
+//! back as messages that the update applies when they arrive. A newer request makes an older one
+//! of the same kind moot: the thread skips a moot request, and stops a moot solve between its
+//! stages, rather than finish work nobody will see.
+
+use super::app::{Solved, solve_for_screen_while};
+use crate::diagnose::trend::{Trend, trend};
+use crate::supply::Supply;
+use std::sync::Arc;
+use std::sync::atomic::{AtomicU64, Ordering};
+use std::sync::mpsc::{self, Receiver, RecvTimeoutError, Sender, TryRecvError};
+use std::time::Duration;
+
+/// What the screen asks for.
+#[derive(Debug, Clone)]
+pub enum Job {
+    /// Everything the results panel, the sketch and the caution line show.
+    Solve(Supply),
+    /// The capacitance the visits imply, and its drift.
+    Trend(Supply),
+}
+
+impl Job {
+    fn kind(&self) -> usize {
+        match self {
+            Job::Solve(_) => 0,
+            Job::Trend(_) => 1,
+        }
+    }
+}
+
+/// An answer, with the supply it was worked out for, so that the screen can tell whether it
+/// still applies.
+#[derive(Debug)]
+pub enum Done {
+    Solved(Supply, Box<Result<Solved, String>>),
+    Trend(Supply, Trend),
+    /// A request made moot by a newer one of its kind before it finished.
+    Dropped,
+}
+
+/// One background thread and the channels to it.
+pub struct Worker {
+    jobs: Sender<(u64, Job)>,
+    done: Receiver<Done>,
+    /// The newest request of each kind; the thread drops older ones.
+    latest: Arc<[AtomicU64; 2]>,
+    next: u64,
+    /// Requests sent whose answer (or drop) has not been received yet.
+    outstanding: usize,
+}
+
+impl Worker {
+    /// Starts the thread. It ends by itself when the worker is dropped (its channel closes).
+    pub fn start() -> Worker {
+        let (jobs, inbox) = mpsc::channel::<(u64, Job)>();
+        let (outbox, done) = mpsc::channel();
+        let latest: Arc<[AtomicU64; 2]> = Arc::new([AtomicU64::new(0), AtomicU64::new(0)]);
+        let seen = Arc::clone(&latest);
+        std::thread::Builder::new()
+            .name("railcheck-worker".into())
+            .spawn(move || {
+                for (id, job) in inbox {
+                    let newest = &seen[job.kind()];
+                    let moot = || newest.load(Ordering::Acquire) != id;
+                    let answer = if moot() {
+                        Done::Dropped
+                    } else {
+                        match job {
+                            Job::Solve(s) => match solve_for_screen_while(&s, &|| !moot()) {
+                                Some(r) => Done::Solved(s, Box::new(r)),
+                                None => Done::Dropped,
+                            },
+                            Job::Trend(s) => {
+                                let t = trend(&s);
+                                Done::Trend(s, t)
+                            }
+                        }
+                    };
+                    if outbox.send(answer).is_err() {
+                        return;
+                    }
+                }
+            })
+            .expect("the screen's worker thread starts");
+        Worker {
+            jobs,
+            done,
+            latest,
+            next: 0,
+            outstanding: 0,
+        }
+    }
+
+    /// Sends `job`; any older request of its kind becomes moot.
+    pub fn submit(&mut self, job: Job) {
+        self.next += 1;
+        self.latest[job.kind()].store(self.next, Ordering::Release);
+        if self.jobs.send((self.next, job)).is_ok() {
+            self.outstanding += 1;
+        }
+    }
+
+    /// Whether answers are still to come.
+    pub fn busy(&self) -> bool {
+        self.outstanding > 0
+    }
+
+    /// The next answer: one already there (`wait` zero), one within `wait`, or, with no
+    /// `wait`, whenever it comes. None when nothing is outstanding or the wait ran out.
+    pub fn receive(&mut self, wait: Option<Duration>) -> Option<Done> {
+        if self.outstanding == 0 {
+            return None;
+        }
+        let got = match wait {
+            None => self.done.recv().ok(),
+            Some(d) if d.is_zero() => match self.done.try_recv() {
+                Ok(x) => Some(x),
+                Err(TryRecvError::Empty) => None,
+                Err(TryRecvError::Disconnected) => {
+                    self.outstanding = 0;
+                    None
+                }
+            },
+            Some(d) => match self.done.recv_timeout(d) {
+                Ok(x) => Some(x),
+                Err(RecvTimeoutError::Timeout) => None,
+                Err(RecvTimeoutError::Disconnected) => {
+                    // The thread is gone (it panicked): nothing more will come.
+                    self.outstanding = 0;
+                    None
+                }
+            },
+        };
+        match got {
+            Some(x) => {
+                self.outstanding -= 1;
+                Some(x)
+            }
+            None => {
+                if wait.is_none() {
+                    self.outstanding = 0;
+                }
+                None
+            }
+        }
+    }
+}
