@@ -105,10 +105,14 @@ fn a_failure_between_write_and_rename_leaves_the_old_file_whole() {
     let mut changed = entry.supply().unwrap().clone();
     changed.filter.uf = Some(1.0);
     let err = lib
-        .save_with(&entry, &changed, &|| {
-            Err(std::io::Error::other(
-                "injected: power cut before the rename",
-            ))
+        .save_with(&entry, &changed, &|step| {
+            if step == store::Step::Rename {
+                Err(std::io::Error::other(
+                    "injected: power cut before the rename",
+                ))
+            } else {
+                Ok(())
+            }
         })
         .unwrap_err();
     assert!(err.to_string().contains("injected"), "{err}");
