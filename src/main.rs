@@ -108,8 +108,13 @@ enum Command {
     Export {
         #[arg(value_name = "NAME_OR_FILE")]
         name: String,
+        /// Write to FILE, which must not exist yet (see --force) and must be outside the
+        /// library folder.
         #[arg(short, long, value_name = "FILE")]
         output: Option<PathBuf>,
+        /// Replace FILE if it exists (its previous version is kept as FILE.bak).
+        #[arg(long, requires = "output")]
+        force: bool,
     },
     /// Compare readings with what the supply should read and rank the faults that fit.
     Diagnose {
@@ -156,20 +161,31 @@ enum Command {
     },
 }
 
-/// The library the command line works on: --library, RAILCHECK_LIBRARY, or the default.
-fn library(cli_dir: &Option<PathBuf>, no_demo: bool) -> Result<Library> {
-    let dir = match (cli_dir, std::env::var_os("RAILCHECK_LIBRARY")) {
+/// The library folder the command line works on: --library, RAILCHECK_LIBRARY, or the
+/// default.
+fn library_dir(cli_dir: &Option<PathBuf>) -> Result<PathBuf> {
+    Ok(match (cli_dir, std::env::var_os("RAILCHECK_LIBRARY")) {
         (Some(d), _) => d.clone(),
         (None, Some(d)) if !d.is_empty() => PathBuf::from(d),
         _ => Library::default_dir().context("no data folder on this system: give --library DIR")?,
-    };
-    Ok(Library::open(&dir, !no_demo)?)
+    })
+}
+
+/// The library the command line works on, opened (created on first use).
+fn library(cli_dir: &Option<PathBuf>, no_demo: bool) -> Result<Library> {
+    Ok(Library::open(&library_dir(cli_dir)?, !no_demo)?)
+}
+
+/// True if `path` names an existing entry that is not a folder: a file to read (or to refuse
+/// with the reason it is not a plain file), not a name to look up.
+fn names_a_file(path: &Path) -> bool {
+    std::fs::symlink_metadata(path).is_ok_and(|m| !m.is_dir())
 }
 
 /// A supply named on the command line: an existing file, or a name in the library.
 fn resolve(arg: &str, cli_dir: &Option<PathBuf>, no_demo: bool) -> Result<(Supply, String)> {
     let path = Path::new(arg);
-    if path.is_file() {
+    if names_a_file(path) {
         return Ok((load(path)?, path.display().to_string()));
     }
     // Something written as a path is a file that is not there, not a name to look up.
@@ -238,13 +254,26 @@ fn try_main(cli: Cli) -> Result<ExitCode> {
                 ExitCode::SUCCESS
             })
         }
-        Some(Command::Export { name, output }) => {
+        Some(Command::Export {
+            name,
+            output,
+            force,
+        }) => {
+            if let Some(out) = &output {
+                check_export_target(out, force, &cli.library)?;
+            }
             let text = export_text(&name, &cli.library, cli.no_demo)?;
             match output {
                 None => out!("{text}"),
                 Some(out) => {
-                    railcheck::library::store::write_atomic(&out, text.as_bytes(), &|| Ok(()))
-                        .with_context(|| format!("{}: cannot write", out.display()))?;
+                    railcheck::library::store::write_atomic(&out, text.as_bytes()).map_err(
+                        |e| {
+                            anyhow::anyhow!(
+                                "{}: cannot write: {e}; nothing was written",
+                                out.display()
+                            )
+                        },
+                    )?;
                 }
             }
             Ok(ExitCode::SUCCESS)
@@ -279,10 +308,53 @@ fn try_main(cli: Cli) -> Result<ExitCode> {
     }
 }
 
+/// Reads a plain file named on the command line (never waiting on a named pipe).
+fn read_text(path: &Path) -> Result<String> {
+    let bytes = railcheck::library::store::read_plain(path, true)
+        .map_err(|e| anyhow::anyhow!("{}: cannot read the file: {e}", path.display()))?;
+    String::from_utf8(bytes).map_err(|_| anyhow::anyhow!("{}: not UTF-8 text", path.display()))
+}
+
 fn load(path: &Path) -> Result<Supply> {
-    let text = std::fs::read_to_string(path)
-        .with_context(|| format!("{}: cannot read the file", path.display()))?;
+    let text = read_text(path)?;
     Supply::from_toml_str(&text).map_err(|e| anyhow::anyhow!("{}: {e}", path.display()))
+}
+
+/// `export -o FILE` never replaces a file unasked and never writes into the library folder
+/// (where it would overwrite, or shadow, a supply).
+fn check_export_target(out: &Path, force: bool, cli_dir: &Option<PathBuf>) -> Result<()> {
+    let parent = out
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    let parent = std::fs::canonicalize(parent)
+        .map_err(|e| anyhow::anyhow!("{}: cannot write there: {e}", out.display()))?;
+    if let Ok(lib) = std::fs::canonicalize(library_dir(cli_dir)?)
+        && parent == lib
+    {
+        bail!(
+            "{}: is in the library folder, where a file would overwrite or shadow a supply; \
+             nothing was written (export elsewhere, or use `railcheck import`)",
+            out.display()
+        );
+    }
+    if let Ok(meta) = std::fs::symlink_metadata(out) {
+        if meta.file_type().is_symlink() {
+            bail!(
+                "{}: is a symbolic link; railcheck does not replace a link with a file; nothing \
+                 was written (name its target)",
+                out.display()
+            );
+        }
+        if !force {
+            bail!(
+                "{}: already exists; nothing was written (give --force to replace it, keeping \
+                 the old one as .bak)",
+                out.display()
+            );
+        }
+    }
+    Ok(())
 }
 
 /// Reports each file in turn; a file that cannot be read or solved is named on stderr and the
@@ -402,6 +474,18 @@ fn run_list(lib: &Library, json: bool) -> Result<ExitCode> {
     if !json {
         outln!("Library: {}", lib.dir.display());
     }
+    // Two files may carry one name (copied by hand, synced from two machines): both are
+    // listed, with their files, and a command given that name asks which.
+    let shared_name = |name: &str| {
+        entries
+            .iter()
+            .filter(|e| {
+                e.supply()
+                    .is_some_and(|s| s.name.eq_ignore_ascii_case(name))
+            })
+            .count()
+            > 1
+    };
     for e in &entries {
         let file = e.file.display().to_string();
         match &e.state {
@@ -414,8 +498,13 @@ fn run_list(lib: &Library, json: bool) -> Result<ExitCode> {
                             "error": null, "visits": supply.visits.len(), "last_visit": last})
                     );
                 } else {
+                    let same = if shared_name(&supply.name) {
+                        format!("  (name shared: {})", file)
+                    } else {
+                        String::new()
+                    };
                     outln!(
-                        "  {:<40} {:>2} visits  last {:<10}  {}",
+                        "  {:<40} {:>2} visits  last {:<10}  {}{same}",
                         supply.name,
                         supply.visits.len(),
                         last.unwrap_or_else(|| "-".into()),
@@ -441,9 +530,8 @@ fn run_list(lib: &Library, json: bool) -> Result<ExitCode> {
 
 fn export_text(name: &str, cli_dir: &Option<PathBuf>, no_demo: bool) -> Result<String> {
     let path = Path::new(name);
-    if path.is_file() {
-        return std::fs::read_to_string(path)
-            .with_context(|| format!("{}: cannot read", path.display()));
+    if names_a_file(path) {
+        return read_text(path);
     }
     let entry = library(cli_dir, no_demo)?.find(name)?;
     match entry.state {
@@ -536,25 +624,30 @@ fn run_diagnose(
     let d = diagnose::diagnose(&supply, &readings).map_err(|e| anyhow::anyhow!("{e}"))?;
     if save {
         let lib = library(cli_dir, no_demo)?;
-        let entry = lib.find(&file).or_else(|_| lib.find(&supply.name))?;
-        if entry.file.parent() != Some(lib.dir.as_path()) {
+        let in_library = Path::new(&file)
+            .parent()
+            .zip(std::fs::canonicalize(&lib.dir).ok())
+            .and_then(|(p, lib_dir)| {
+                let p = if p.as_os_str().is_empty() {
+                    Path::new(".")
+                } else {
+                    p
+                };
+                std::fs::canonicalize(p).ok().filter(|p| *p == lib_dir)
+            })
+            .is_some();
+        if !in_library {
             bail!(
-                "--save records a visit in the library, and {} is not in it (railcheck import it first)",
-                entry.file.display()
+                "--save records a visit in the library, and {file} is not in it (railcheck import it first)"
             );
         }
-        let mut next = entry
-            .supply()
-            .context("the supply file is unreadable")?
-            .clone();
-        next.visits.push(diagnose::visit_of(
-            &readings,
-            &d,
-            &railcheck::tui::app::today(),
-        ));
-        lib.save(&entry, &next)?;
+        // The visit is appended to the file as it is at the moment of saving, under the
+        // library's lock: visits others recorded meanwhile are kept; a change to the supply's
+        // values meanwhile is refused (the verdict would be stale).
+        let visit = diagnose::visit_of(&readings, &d, &railcheck::tui::app::today());
+        let written = lib.append_visit(Path::new(&file), &supply, visit)?;
         if !json {
-            outln!("recorded as a visit in {}", entry.file.display());
+            outln!("recorded as a visit in {}", written.file.display());
         }
     }
     if json {

@@ -445,3 +445,36 @@ fn only_the_newest_edit_s_solve_is_shown() {
         direct.nominal.figures.ripple_pp_v
     );
 }
+
+/// A command records a visit while the screen has the supply open with its own edit saved:
+/// the screen's next save finds the file changed and asks (reload theirs / keep mine) instead
+/// of writing over it; keeping mine writes a new supply and leaves theirs as it is.
+#[test]
+fn a_command_saving_under_an_open_screen_brings_the_dialog_not_a_loss() {
+    let (mut app, dir) = demo("screen-and-command");
+    select(&mut app, PUMP);
+    // The screen's own save first: its idea of the file must be what it wrote.
+    set_field(&mut app, Key::Uf, "2m");
+    assert_eq!(app.mode, Mode::Normal);
+    let file = app.open.as_ref().unwrap().entry.file.clone();
+    // Meanwhile a command (its own library handle) records a visit.
+    let other = Library::open(&dir, false).unwrap();
+    let entry = other.find(PUMP).unwrap();
+    let basis = entry.supply().unwrap().clone();
+    let mut visit = basis.visits[0].clone();
+    visit.notes = "recorded by the command".into();
+    other.append_visit(&file, &basis, visit).unwrap();
+    let theirs = std::fs::read_to_string(&file).unwrap();
+    // The screen saves another edit: refused, the dialog opens, the file is theirs.
+    set_field(&mut app, Key::Uf, "1m");
+    assert_eq!(app.mode, Mode::Conflict, "{}", app.status);
+    assert_eq!(std::fs::read_to_string(&file).unwrap(), theirs);
+    assert!(screen(&app, 100, 30).contains("reload theirs"));
+    // Keep mine: a new supply beside theirs.
+    keys(&mut app, &[Msg::Char('k')]);
+    assert_eq!(std::fs::read_to_string(&file).unwrap(), theirs);
+    let mine = app.open.as_ref().unwrap();
+    assert_ne!(mine.entry.file, file);
+    assert_eq!(mine.supply.filter.uf, Some(1000.0));
+    assert!(theirs.contains("recorded by the command"));
+}

@@ -8,15 +8,24 @@ pub mod slug;
 pub mod store;
 
 use crate::supply::{Supply, SupplyError};
-use std::fs;
+use crate::visit::Visit;
+use std::fs::{self, File, OpenOptions};
 use std::io;
 use std::path::{Path, PathBuf};
+use std::time::{Duration, Instant};
 
 /// Why a library operation did not happen.
 #[derive(Debug, thiserror::Error)]
 pub enum LibraryError {
-    #[error("{path}: {source}")]
-    Io { path: PathBuf, source: io::Error },
+    // The OS error is part of the message and deliberately not a `source`: printed with its
+    // chain (`{:#}`), it would otherwise appear twice.
+    #[error("{path}: {error}")]
+    Io { path: PathBuf, error: io::Error },
+    #[error(
+        "{path}: cannot save: {error}; nothing was written (the file and its backup are as \
+         they were)"
+    )]
+    Write { path: PathBuf, error: io::Error },
     #[error("{path}: {error}")]
     Unreadable { path: PathBuf, error: String },
     #[error(
@@ -24,6 +33,23 @@ pub enum LibraryError {
          window?); reload it before saving, nothing was written"
     )]
     ChangedOnDisk(PathBuf),
+    #[error(
+        "{name:?} ({path}) changed on disk while this command ran; nothing was written, run it \
+         again"
+    )]
+    ChangedWhileRunning { name: String, path: PathBuf },
+    #[error(
+        "{} supplies in the library are named {name:?}: {}; give the file instead",
+        files.len(),
+        files.iter().map(|f| f.display().to_string()).collect::<Vec<_>>().join(", ")
+    )]
+    Ambiguous { name: String, files: Vec<PathBuf> },
+    #[error(
+        "the library is busy: another railcheck has held {0} for {secs} s; nothing was written, \
+         try again",
+        secs = LOCK_WAIT.as_secs()
+    )]
+    Busy(PathBuf),
     #[error("the library already has a supply named {0:?}; import with --rename to keep both")]
     Duplicate(String),
     #[error("no supply named {0:?} in the library {1} (and no such file)")]
@@ -33,10 +59,31 @@ pub enum LibraryError {
 }
 
 fn io_err(path: &Path) -> impl FnOnce(io::Error) -> LibraryError + '_ {
-    move |source| LibraryError::Io {
+    move |error| LibraryError::Io {
         path: path.to_path_buf(),
-        source,
+        error,
     }
+}
+
+fn write_err(path: &Path) -> impl FnOnce(io::Error) -> LibraryError + '_ {
+    move |error| LibraryError::Write {
+        path: path.to_path_buf(),
+        error,
+    }
+}
+
+/// How long a save waits for another railcheck to finish its own (each holds the lock only
+/// for one read-check-write-rename, milliseconds); a bound so a stopped process never hangs
+/// the others.
+pub const LOCK_WAIT: Duration = Duration::from_secs(10);
+
+/// The per-library lock file; hidden, so never listed as a supply.
+pub const LOCK_FILE: &str = ".lock";
+
+/// Held while a save reads, checks, writes and renames; released when dropped.
+#[derive(Debug)]
+pub struct LibraryLock {
+    _file: Option<File>,
 }
 
 /// A supply file as loaded: its text (kept so a save can preserve it) and what it says.
@@ -80,9 +127,24 @@ impl Entry {
     }
 }
 
-/// Reads one supply file, never failing: an unreadable file becomes an `Unreadable` entry.
+/// Reads one supply file named by the technician, never failing and never blocking: an
+/// unreadable file, or anything but a plain file (a link is followed), becomes an
+/// `Unreadable` entry.
 pub fn read_entry(file: &Path) -> Entry {
-    let state = match fs::read(file) {
+    entry_from(file, store::read_plain(file, true))
+}
+
+/// Reads one entry of the library's folder: as [`read_entry`], but a symbolic link is not
+/// followed (it is listed with its target, never read).
+pub fn read_library_entry(file: &Path) -> Entry {
+    entry_from(file, store::read_plain(file, false))
+}
+
+fn entry_from(file: &Path, read: io::Result<Vec<u8>>) -> Entry {
+    let state = match read {
+        Err(e) if e.kind() == io::ErrorKind::InvalidInput => EntryState::Unreadable {
+            error: e.to_string(),
+        },
         Err(e) => EntryState::Unreadable {
             error: format!("cannot read: {e}"),
         },
@@ -108,6 +170,13 @@ pub fn read_entry(file: &Path) -> Entry {
     }
 }
 
+/// The supply without its visits: what a diagnosis depends on.
+fn without_visits(s: &Supply) -> Supply {
+    let mut s = s.clone();
+    s.visits.clear();
+    s
+}
+
 /// A library folder.
 #[derive(Debug, Clone)]
 pub struct Library {
@@ -129,29 +198,61 @@ impl Library {
         if !dir.exists() {
             fs::create_dir_all(dir).map_err(io_err(dir))?;
             if seed_demo {
+                let _lock = lib.lock()?;
                 for (stem, text) in demo::supplies() {
                     let path = dir.join(format!("{stem}.toml"));
-                    store::write_atomic(&path, text.as_bytes(), &|| Ok(()))
-                        .map_err(io_err(&path))?;
+                    if fs::symlink_metadata(&path).is_err() {
+                        store::write_atomic(&path, text.as_bytes()).map_err(write_err(&path))?;
+                    }
                 }
             }
         }
         Ok(lib)
     }
 
-    /// The supply files, sorted by name; hidden files, backups and temporaries are left out.
+    /// Takes the library's save lock (an advisory lock on its `.lock` file), waiting at most
+    /// [`LOCK_WAIT`] for another railcheck to finish its save. Every write into the library
+    /// holds it, only for the read-check-write-rename.
+    pub fn lock(&self) -> Result<LibraryLock, LibraryError> {
+        let path = self.dir.join(LOCK_FILE);
+        let file = OpenOptions::new()
+            .read(true)
+            .write(true)
+            .create(true)
+            .truncate(false)
+            .open(&path)
+            .map_err(write_err(&path))?;
+        let start = Instant::now();
+        loop {
+            match file.try_lock() {
+                Ok(()) => return Ok(LibraryLock { _file: Some(file) }),
+                Err(fs::TryLockError::WouldBlock) if start.elapsed() < LOCK_WAIT => {
+                    std::thread::sleep(Duration::from_millis(2));
+                }
+                Err(fs::TryLockError::WouldBlock) => return Err(LibraryError::Busy(path)),
+                // A file system without locks (some network shares): the fingerprint check
+                // still refuses a file changed since loading, only not atomically.
+                Err(fs::TryLockError::Error(e)) if e.kind() == io::ErrorKind::Unsupported => {
+                    return Ok(LibraryLock { _file: None });
+                }
+                Err(fs::TryLockError::Error(e)) => return Err(write_err(&path)(e)),
+            }
+        }
+    }
+
+    /// The entries named `*.toml`, sorted by name, whatever they are (a pipe, a folder or a
+    /// link is listed with the reason it is not read); hidden files, backups and temporaries
+    /// are left out.
     pub fn files(&self) -> Result<Vec<PathBuf>, LibraryError> {
         let mut files: Vec<PathBuf> = fs::read_dir(&self.dir)
             .map_err(io_err(&self.dir))?
             .filter_map(|e| e.ok())
-            .map(|e| e.path())
-            .filter(|p| {
-                let name = p
-                    .file_name()
-                    .map(|n| n.to_string_lossy())
-                    .unwrap_or_default();
-                !name.starts_with('.') && name.ends_with(".toml") && p.is_file()
+            .filter(|e| {
+                let name = e.file_name();
+                let name = name.to_string_lossy();
+                !name.starts_with('.') && name.ends_with(".toml")
             })
+            .map(|e| e.path())
             .collect();
         files.sort();
         Ok(files)
@@ -159,49 +260,73 @@ impl Library {
 
     /// Every supply file, read; one bad file never stops the others.
     pub fn load(&self) -> Result<Vec<Entry>, LibraryError> {
-        let mut entries: Vec<Entry> = self.files()?.iter().map(|f| read_entry(f)).collect();
+        let mut entries: Vec<Entry> = self
+            .files()?
+            .iter()
+            .map(|f| read_library_entry(f))
+            .collect();
         entries.sort_by_key(|e| e.name().to_lowercase());
         Ok(entries)
     }
 
-    /// A supply by its name (case-insensitive) or by a file path.
+    /// A supply by a file path, a file name in the folder, or its name (case-insensitive);
+    /// two supplies of one name are refused naming both files.
     pub fn find(&self, name_or_file: &str) -> Result<Entry, LibraryError> {
         let as_path = Path::new(name_or_file);
-        if as_path.is_file() {
+        if fs::symlink_metadata(as_path).is_ok_and(|m| !m.is_dir()) {
             return Ok(read_entry(as_path));
         }
         let in_dir = self.dir.join(name_or_file);
-        if in_dir.is_file() && in_dir.parent() == Some(self.dir.as_path()) {
-            return Ok(read_entry(&in_dir));
+        if in_dir.parent() == Some(self.dir.as_path())
+            && fs::symlink_metadata(&in_dir).is_ok_and(|m| !m.is_dir())
+        {
+            return Ok(read_library_entry(&in_dir));
         }
-        self.load()?
+        let mut found: Vec<Entry> = self
+            .load()?
             .into_iter()
-            .find(|e| {
+            .filter(|e| {
                 e.supply()
                     .is_some_and(|s| s.name.eq_ignore_ascii_case(name_or_file))
             })
-            .ok_or_else(|| LibraryError::NotFound(name_or_file.to_string(), self.dir.clone()))
+            .collect();
+        match found.len() {
+            0 => Err(LibraryError::NotFound(
+                name_or_file.to_string(),
+                self.dir.clone(),
+            )),
+            1 => Ok(found.remove(0)),
+            _ => Err(LibraryError::Ambiguous {
+                name: name_or_file.to_string(),
+                files: found.into_iter().map(|e| e.file).collect(),
+            }),
+        }
     }
 
-    /// A new file name for a supply called `name`, inside the folder and not yet taken.
+    /// A new file name for a supply called `name`, inside the folder and not yet taken (a
+    /// dangling link counts as taken).
     pub fn new_file_for(&self, name: &str) -> PathBuf {
-        let file = slug::unique(&slug::slug(name), |f| self.dir.join(f).exists());
+        let file = slug::unique(&slug::slug(name), |f| {
+            fs::symlink_metadata(self.dir.join(f)).is_ok()
+        });
         self.dir.join(file)
     }
 
     /// Saves `new` over the entry it was loaded as, keeping the file's comments and unknown
-    /// keys, refusing if the file changed on disk since; returns the file written.
-    pub fn save(&self, entry: &Entry, new: &Supply) -> Result<PathBuf, LibraryError> {
-        self.save_with(entry, new, &|| Ok(()))
+    /// keys, refusing if the file changed on disk since; returns the file as written.
+    pub fn save(&self, entry: &Entry, new: &Supply) -> Result<Entry, LibraryError> {
+        self.save_with(entry, new, &|_| Ok(()))
     }
 
-    /// [`Library::save`] with a hook run between writing and renaming (tests inject failures).
+    /// [`Library::save`] with a hook run at each step of the write (tests inject failures).
+    /// The check that the file is unchanged and the write happen under the library's lock,
+    /// so of two saves from the same loaded version one succeeds and the other is refused.
     pub fn save_with(
         &self,
         entry: &Entry,
         new: &Supply,
-        before_rename: &dyn Fn() -> io::Result<()>,
-    ) -> Result<PathBuf, LibraryError> {
+        hook: &dyn Fn(store::Step) -> io::Result<()>,
+    ) -> Result<Entry, LibraryError> {
         new.validate().map_err(|e| LibraryError::Unreadable {
             path: entry.file.clone(),
             error: e.to_string(),
@@ -217,48 +342,85 @@ impl Library {
                 error: "an unreadable file is never overwritten".into(),
             });
         };
-        let on_disk = fs::read(&entry.file).map_err(io_err(&entry.file))?;
+        let _lock = self.lock()?;
+        // Read through a link so that saving over one is refused with its own reason below.
+        let on_disk = store::read_plain(&entry.file, true).map_err(io_err(&entry.file))?;
         if store::fingerprint(&on_disk) != *fingerprint {
             return Err(LibraryError::ChangedOnDisk(entry.file.clone()));
         }
-        let merged = merge::merge(text, &old.to_toml_string(), &new.to_toml_string())
-            .map_err(|e| LibraryError::Merge(e.to_string()))?;
-        // What is written must read back as what was meant.
-        match Supply::from_toml_str(&merged) {
-            Ok(back) if back == *new => {}
-            _ => {
-                return Err(LibraryError::Merge(format!(
-                    "{}: the merged file would not read back as the edited supply; nothing was written",
-                    entry.file.display()
-                )));
-            }
+        write_merged(&entry.file, text, old, new, hook)
+    }
+
+    /// Records `visit` in the library file `file`, whose supply (less its visits) was
+    /// `basis` when the visit's verdict was worked out. Done whole under the lock on the file
+    /// as it is then, so visits recorded meanwhile by others are kept (appending commutes);
+    /// if the supply's values changed meanwhile the verdict may be stale, and nothing is
+    /// written.
+    pub fn append_visit(
+        &self,
+        file: &Path,
+        basis: &Supply,
+        visit: Visit,
+    ) -> Result<Entry, LibraryError> {
+        let _lock = self.lock()?;
+        let fresh = read_library_entry(file);
+        let EntryState::Ok { supply, text, .. } = &fresh.state else {
+            let EntryState::Unreadable { error } = fresh.state else {
+                unreachable!()
+            };
+            return Err(LibraryError::Unreadable {
+                path: fresh.file,
+                error,
+            });
+        };
+        if without_visits(supply) != without_visits(basis) {
+            return Err(LibraryError::ChangedWhileRunning {
+                name: basis.name.clone(),
+                path: file.to_path_buf(),
+            });
         }
-        store::write_atomic(&entry.file, merged.as_bytes(), before_rename)
-            .map_err(io_err(&entry.file))?;
-        Ok(entry.file.clone())
+        let mut next = (**supply).clone();
+        next.visits.push(visit);
+        next.validate().map_err(|e| LibraryError::Unreadable {
+            path: file.to_path_buf(),
+            error: e.to_string(),
+        })?;
+        write_merged(file, text, supply, &next, &|_| Ok(()))
     }
 
     /// Adds a supply as a new file (its name made into a unique file name); `text` is the
     /// original file text to keep, when importing.
     pub fn add(&self, supply: &Supply, text: Option<&str>) -> Result<PathBuf, LibraryError> {
+        let _lock = self.lock()?;
+        self.add_locked(supply, text)
+    }
+
+    fn add_locked(&self, supply: &Supply, text: Option<&str>) -> Result<PathBuf, LibraryError> {
         let path = self.new_file_for(&supply.name);
         let body = match text {
             Some(t) => t.to_string(),
             None => supply.to_toml_string(),
         };
-        store::write_atomic(&path, body.as_bytes(), &|| Ok(())).map_err(io_err(&path))?;
+        store::write_atomic(&path, body.as_bytes()).map_err(write_err(&path))?;
         Ok(path)
     }
 
     /// Validates `file` and copies it in; a name already in the library is refused unless
-    /// `rename`, which gives the copy a name of its own ("... (2)").
+    /// `rename`, which gives the copy a name of its own ("... (2)"). Only a plain file is
+    /// read (a named pipe is refused, never waited on).
     pub fn import(&self, file: &Path, rename: bool) -> Result<PathBuf, LibraryError> {
-        let text = fs::read_to_string(file).map_err(io_err(file))?;
+        let bytes = store::read_plain(file, true).map_err(io_err(file))?;
+        let text = String::from_utf8(bytes).map_err(|_| LibraryError::Unreadable {
+            path: file.to_path_buf(),
+            error: "not UTF-8 text".into(),
+        })?;
         let mut supply =
             Supply::from_toml_str(&text).map_err(|e: SupplyError| LibraryError::Unreadable {
                 path: file.to_path_buf(),
                 error: e.to_string(),
             })?;
+        // The name check and the write under one lock, so two imports cannot both pass it.
+        let _lock = self.lock()?;
         let names: Vec<String> = self
             .load()?
             .iter()
@@ -277,8 +439,40 @@ impl Library {
             supply.name = fresh;
             let merged = merge::merge(&text, &old_text, &supply.to_toml_string())
                 .map_err(|e| LibraryError::Merge(e.to_string()))?;
-            return self.add(&supply, Some(&merged));
+            return self.add_locked(&supply, Some(&merged));
         }
-        self.add(&supply, Some(&text))
+        self.add_locked(&supply, Some(&text))
     }
+}
+
+/// Writes `new` into `text` (the file as it is on disk, read as `old`) keeping its comments,
+/// checks it reads back as `new`, and saves it; the caller holds the lock.
+fn write_merged(
+    file: &Path,
+    text: &str,
+    old: &Supply,
+    new: &Supply,
+    hook: &dyn Fn(store::Step) -> io::Result<()>,
+) -> Result<Entry, LibraryError> {
+    let merged = merge::merge(text, &old.to_toml_string(), &new.to_toml_string())
+        .map_err(|e| LibraryError::Merge(e.to_string()))?;
+    // What is written must read back as what was meant.
+    let back = match Supply::from_toml_str(&merged) {
+        Ok(back) if back == *new => back,
+        _ => {
+            return Err(LibraryError::Merge(format!(
+                "{}: the merged file would not read back as the edited supply; nothing was written",
+                file.display()
+            )));
+        }
+    };
+    store::write_atomic_with(file, merged.as_bytes(), hook).map_err(write_err(file))?;
+    Ok(Entry {
+        file: file.to_path_buf(),
+        state: EntryState::Ok {
+            supply: Box::new(back),
+            fingerprint: store::fingerprint(merged.as_bytes()),
+            text: merged,
+        },
+    })
 }

@@ -7,7 +7,7 @@ use crate::analysis::cautions::{SAFE_TOUCH_V, cautions};
 use crate::analysis::checks::{self, Check};
 use crate::analysis::worst_case::{self, WorstCase};
 use crate::circuit::{self, HandEstimate, Operating};
-use crate::library::{Entry, EntryState, Library, LibraryError, read_entry};
+use crate::library::{Entry, EntryState, Library, LibraryError};
 use crate::supply::{Supply, Topology};
 use crate::visit::Visit;
 use std::time::{Duration, Instant};
@@ -403,10 +403,12 @@ impl App {
             None => open.supply.clone(),
         };
         match self.library.save(&open.entry, &to_save) {
-            Ok(path) => {
-                open.entry = read_entry(&path);
+            Ok(written) => {
+                // The file as written, not as re-read: another program may change it the
+                // moment after, and that change must meet the next save's check.
+                self.status = format!("saved {}", written.file.display());
+                open.entry = written;
                 open.saved = to_save;
-                self.status = format!("saved {}", path.display());
                 self.refresh_entries();
                 true
             }
