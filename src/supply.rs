@@ -502,7 +502,7 @@ const fn range(
 
 use Floor::{AtLeast, ZeroOr};
 
-const PCT_NONE: &str = "0 is a part exactly at its value";
+const PCT_NONE: &str = "0 is no spread: exactly the stated value";
 const MAINS_V_WHY: &str = "no mains or low-voltage AC feed is below 1 V (under it the diode drops \
                            are all there is); 1000 V AC is the top of low voltage (memory)";
 const AMPS_WHY: &str = "0 is no load; under 1 nA is less than the filter capacitor's own leakage";
@@ -510,7 +510,7 @@ const OHMS_WHY: &str = "under 1 milliohm is a short through the leads; over 1 To
 const UF_WHY: &str = "1 pF is the stray capacitance of the wiring itself, which the model leaves \
                       out; no filter capacitor comes near it; 10 F is beyond any filter";
 const WINDING_OHMS_WHY: &str = "0 is an ideal winding; no winding or lead is under 1 micro-ohm";
-const READING_WHY: &str = "what the meter showed: 0 is a dead rail";
+const READING_WHY: &str = "what the meter showed, 0 included (a dead rail)";
 
 /// Mains RMS volts.
 pub const MAINS_VRMS: Range = range("mains.vrms", AtLeast(1.0), 1000.0, "V", MAINS_V_WHY);
@@ -544,7 +544,7 @@ pub const PRIMARY_VRMS: Range = range(
     AtLeast(1.0),
     1e5,
     "V",
-    MAINS_V_WHY,
+    "no AC feed is below 1 V (under it the diode drops are all there is)",
 );
 pub const SECONDARY_VRMS: Range = range(
     "transformer.secondary_vrms",
@@ -1200,18 +1200,34 @@ fn syntax_error(text: &str, e: &toml::de::Error) -> SupplyError {
         None => (None, None, None),
     };
     // toml's own message repeats the source excerpt; the first line carries the reason.
-    let message = e
-        .message()
-        .lines()
-        .next()
-        .unwrap_or("not valid TOML")
-        .to_string();
+    let message = shorten_numbers(e.message().lines().next().unwrap_or("not valid TOML"));
     SupplyError::Syntax {
         line,
         column,
         key,
         message,
     }
+}
+
+/// `message` with every number of more than 24 characters (toml spells out `4.2e252` when it
+/// names a float where an integer goes) written short, as [`format_number`] writes it.
+fn shorten_numbers(message: &str) -> String {
+    let mut out = String::with_capacity(message.len());
+    let mut rest = message;
+    while let Some(start) = rest.find(|c: char| c.is_ascii_digit()) {
+        out.push_str(&rest[..start]);
+        let len = rest[start..]
+            .find(|c: char| !(c.is_ascii_digit() || c == '.'))
+            .unwrap_or(rest.len() - start);
+        let number = &rest[start..start + len];
+        match number.parse::<f64>() {
+            Ok(v) if number.len() > 24 => out.push_str(&format_number(v)),
+            _ => out.push_str(number),
+        }
+        rest = &rest[start + len..];
+    }
+    out.push_str(rest);
+    out
 }
 
 /// The line (1-based) where the dotted `key` is written in `text`, or failing that the line of
@@ -1327,6 +1343,19 @@ amps = 0.35
         let bad = BRIDGE.replace("amps = 0.35", "");
         let e = Supply::from_toml_str(&bad).unwrap_err().to_string();
         assert!(e.contains("load.amps"), "{e}");
+    }
+
+    #[test]
+    fn long_numbers_in_parser_messages_are_written_short() {
+        let long = format!("floating point `{}.0`, expected u32", "4".repeat(60));
+        assert_eq!(
+            shorten_numbers(&long),
+            "floating point `4.444444444444445e59`, expected u32"
+        );
+        assert_eq!(shorten_numbers("line 12, 3.5 and 7"), "line 12, 3.5 and 7");
+        let bad = BRIDGE.replace("format = 1", "format = 4.2e252");
+        let e = Supply::from_toml_str(&bad).unwrap_err().to_string();
+        assert!(e.contains("4.2e252") && e.contains("line 2"), "{e}");
     }
 
     #[test]
