@@ -204,3 +204,23 @@ fn a_diode_table_gives_one_law() {
         "a half-given law names what it lacks: {e}"
     );
 }
+
+/// The README's file format section states every key's range and the reason for its floor,
+/// as the validator's table has them (one table, read by the code and the docs).
+#[test]
+fn readme_states_every_range_and_its_reason() {
+    let readme =
+        std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/README.md")).unwrap();
+    let mut missing = Vec::new();
+    for r in railcheck::supply::RANGES {
+        let row = format!("| `{}` | {} | {} |", r.key, r.allowed(), r.why);
+        if !readme.contains(&row) {
+            missing.push(row);
+        }
+    }
+    assert!(
+        missing.is_empty(),
+        "rows to put in README.md:\n{}",
+        missing.join("\n")
+    );
+}
