@@ -355,7 +355,10 @@ fn run_report(
     no_demo: bool,
 ) -> Result<ExitCode> {
     if !(touch_v.is_finite() && touch_v > 0.0 && touch_v <= 1000.0) {
-        bail!("--touch-v must be between 0 and 1000 V (got {touch_v})");
+        bail!(
+            "--touch-v must be above 0 and at most 1000 V (got {})",
+            format_number(touch_v)
+        );
     }
     let mut bad = false;
     let mut check_failed = false;
