@@ -4,6 +4,7 @@
 
 pub mod circuit;
 pub mod diagnose;
+pub mod escape;
 pub mod supply;
 pub mod tui;
 pub mod units;

@@ -5,31 +5,50 @@ use clap::{Parser, Subcommand};
 use railcheck::analysis::cautions::SAFE_TOUCH_V;
 use railcheck::analysis::sizing::{self, Target};
 use railcheck::diagnose::{self, Readings};
+use railcheck::escape::printable;
 use railcheck::library::{EntryState, Library};
 use railcheck::report;
 use railcheck::supply::Supply;
-use railcheck::units::format_si;
+use railcheck::units::{format_number, format_si};
+use std::io::IsTerminal as _;
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
 
-/// Print to stdout; a reader that went away (`railcheck list | head`) ends the program
-/// quietly instead of with a panic, as Unix tools do.
+/// A write to stdout that failed. A reader that went away (`railcheck list | head`) ends the
+/// program quietly, as Unix tools do; any other failure (a full disk, `> /dev/full`) is exit
+/// status 2 with a message, never a success.
+#[derive(Debug)]
+struct OutputError(std::io::Error);
+
+impl std::fmt::Display for OutputError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        write!(f, "stdout: {}", self.0)
+    }
+}
+
+impl std::error::Error for OutputError {}
+
+/// Print a line to stdout; a failed write returns from the command with an [`OutputError`].
 macro_rules! outln {
     ($($t:tt)*) => {{
         use std::io::Write as _;
-        if writeln!(std::io::stdout(), $($t)*).is_err() {
-            std::process::exit(0);
-        }
+        writeln!(std::io::stdout(), $($t)*).map_err(OutputError)?;
     }};
 }
 
 macro_rules! out {
     ($($t:tt)*) => {{
         use std::io::Write as _;
-        if write!(std::io::stdout(), $($t)*).is_err() {
-            std::process::exit(0);
-        }
+        write!(std::io::stdout(), $($t)*).map_err(OutputError)?;
     }};
+}
+
+/// Print a message to stderr, its control characters escaped (it may quote a file). A stderr
+/// that cannot be written to has nowhere to be reported, so the failure is let go rather than
+/// turned into a panic as `eprintln!` would.
+fn warn(message: &str) {
+    use std::io::Write as _;
+    let _ = writeln!(std::io::stderr(), "railcheck: {}", printable(message));
 }
 
 const EXIT_STATUS: &str = "Exit status: 0 success; 1 a rating check failed (report); \
@@ -202,19 +221,55 @@ fn resolve(arg: &str, cli_dir: &Option<PathBuf>, no_demo: bool) -> Result<(Suppl
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
-    match try_main(cli) {
+    let what = match &cli.command {
+        None => "the screen",
+        Some(Command::Report { .. }) => "the report",
+        Some(Command::Size { .. }) => "the sizing",
+        Some(Command::List { .. }) => "the list",
+        Some(Command::Import { .. }) => "the import summary",
+        Some(Command::Export { .. }) => "the exported file",
+        Some(Command::Diagnose { .. }) => "the diagnosis",
+        Some(Command::Log { .. }) => "the log",
+    };
+    // Whatever is still buffered is written here, so that its failure is seen too.
+    let outcome = try_main(cli).and_then(|code| {
+        use std::io::Write as _;
+        std::io::stdout().flush().map_err(OutputError)?;
+        Ok(code)
+    });
+    match outcome {
         Ok(code) => code,
-        // Bad input or I/O trouble: the message goes to stderr and the exit status is 2.
-        Err(e) => {
-            eprintln!("railcheck: {e:#}");
-            ExitCode::from(2)
-        }
+        Err(e) => match e.downcast_ref::<OutputError>() {
+            Some(OutputError(io)) if io.kind() == std::io::ErrorKind::BrokenPipe => {
+                ExitCode::SUCCESS
+            }
+            Some(OutputError(io)) => {
+                warn(&format!(
+                    "{what} was not written (all or part) to stdout: {io}"
+                ));
+                ExitCode::from(2)
+            }
+            // Bad input or I/O trouble: the message goes to stderr and the exit status is 2.
+            None => {
+                warn(&format!("{e:#}"));
+                ExitCode::from(2)
+            }
+        },
     }
 }
 
 fn try_main(cli: Cli) -> Result<ExitCode> {
     match cli.command {
         None => {
+            // The screen needs a terminal on both ends; without one, say so before the library
+            // is opened (or created and seeded) for nothing.
+            if !(std::io::stdin().is_terminal() && std::io::stdout().is_terminal()) {
+                bail!(
+                    "the screen needs a terminal (stdin and stdout are not one): run railcheck \
+                     in a terminal, or use a command such as `railcheck list` or \
+                     `railcheck report NAME` (see `railcheck --help`)"
+                );
+            }
             let lib = library(&cli.library, cli.no_demo)?;
             let app = railcheck::tui::app::App::new(lib)?;
             railcheck::tui::run(app)?;
@@ -241,9 +296,13 @@ fn try_main(cli: Cli) -> Result<ExitCode> {
             let mut bad = false;
             for f in &files {
                 match lib.import(f, rename) {
-                    Ok(path) => outln!("imported {} as {}", f.display(), path.display()),
+                    Ok(path) => outln!(
+                        "imported {} as {}",
+                        printable(&f.display().to_string()),
+                        printable(&path.display().to_string())
+                    ),
                     Err(e) => {
-                        eprintln!("railcheck: {e}");
+                        warn(&e.to_string());
                         bad = true;
                     }
                 }
@@ -368,7 +427,10 @@ fn run_report(
     no_demo: bool,
 ) -> Result<ExitCode> {
     if !(touch_v.is_finite() && touch_v > 0.0 && touch_v <= 1000.0) {
-        bail!("--touch-v must be between 0 and 1000 V (got {touch_v})");
+        bail!(
+            "--touch-v must be above 0 and at most 1000 V (got {})",
+            format_number(touch_v)
+        );
     }
     let mut bad = false;
     let mut check_failed = false;
@@ -394,7 +456,7 @@ fn run_report(
                 }
             }
             Err(e) => {
-                eprintln!("railcheck: {e:#}");
+                warn(&format!("{e:#}"));
                 bad = true;
             }
         }
@@ -432,7 +494,7 @@ fn run_size(
         );
         return Ok(ExitCode::SUCCESS);
     }
-    outln!("{}", supply.name);
+    outln!("{}", printable(&supply.name));
     if supply.filter.kind == railcheck::supply::FilterKind::None {
         outln!("  no filter capacitor now: sizing the capacitor to add across the rail");
     }
@@ -472,7 +534,7 @@ fn run_size(
 fn run_list(lib: &Library, json: bool) -> Result<ExitCode> {
     let entries = lib.load()?;
     if !json {
-        outln!("Library: {}", lib.dir.display());
+        outln!("Library: {}", printable(&lib.dir.display().to_string()));
     }
     // Two files may carry one name (copied by hand, synced from two machines): both are
     // listed, with their files, and a command given that name asks which.
@@ -499,13 +561,13 @@ fn run_list(lib: &Library, json: bool) -> Result<ExitCode> {
                     );
                 } else {
                     let same = if shared_name(&supply.name) {
-                        format!("  (name shared: {})", file)
+                        format!("  (name shared: {})", printable(&file.to_string()))
                     } else {
                         String::new()
                     };
                     outln!(
                         "  {:<40} {:>2} visits  last {:<10}  {}{same}",
-                        supply.name,
+                        printable(&supply.name),
                         supply.visits.len(),
                         last.unwrap_or_else(|| "-".into()),
                         supply.rectifier.topology.key()
@@ -520,7 +582,11 @@ fn run_list(lib: &Library, json: bool) -> Result<ExitCode> {
                             "error": error, "visits": null, "last_visit": null})
                     );
                 } else {
-                    outln!("  {:<40} UNREADABLE (left untouched): {error}", e.name());
+                    outln!(
+                        "  {:<40} UNREADABLE (left untouched): {}",
+                        printable(&e.name()),
+                        printable(error)
+                    );
                 }
             }
         }
@@ -564,27 +630,33 @@ fn run_log(supply: &Supply, json: bool) -> Result<ExitCode> {
         );
         return Ok(ExitCode::SUCCESS);
     }
-    outln!("{}: {} visits", supply.name, visits.len());
+    outln!("{}: {} visits", printable(&supply.name), visits.len());
     for v in visits {
         let readings: Vec<String> = v
             .readings
             .present()
             .iter()
-            .map(|(k, x)| format!("{k} {x}"))
+            .map(|(k, x)| format!("{k} {}", format_number(*x)))
             .collect();
-        outln!("  {}  {}", v.date_text(), readings.join(", "));
+        outln!("  {}  {}", printable(&v.date_text()), readings.join(", "));
+        if !v.technician.is_empty() {
+            outln!("              by {}", printable(&v.technician));
+        }
         if !v.notes.is_empty() {
-            outln!("              {}", v.notes);
+            outln!("              {}", printable(&v.notes));
         }
         if !v.replaced.is_empty() {
-            outln!("              replaced: {}", v.replaced.join(", "));
+            outln!(
+                "              replaced: {}",
+                printable(&v.replaced.join(", "))
+            );
         }
     }
     outln!("  Capacitance the readings imply:");
     for p in &trend.points {
         match p.uf {
-            Some(uf) => outln!("    {}  {:>8.0} uF", p.date, uf),
-            None => outln!("    {}  (no ripple or DC reading)", p.date),
+            Some(uf) => outln!("    {}  {:>8.0} uF", printable(&p.date), uf),
+            None => outln!("    {}  (no ripple or DC reading)", printable(&p.date)),
         }
     }
     if let Some(s) = trend.uf_per_year {
@@ -647,19 +719,22 @@ fn run_diagnose(
         let visit = diagnose::visit_of(&readings, &d, &railcheck::tui::app::today());
         let written = lib.append_visit(Path::new(&file), &supply, visit)?;
         if !json {
-            outln!("recorded as a visit in {}", written.file.display());
+            outln!(
+                "recorded as a visit in {}",
+                printable(&written.file.display().to_string())
+            );
         }
     }
     if json {
         outln!("{}", diagnose::json(&supply, &d));
         return Ok(ExitCode::SUCCESS);
     }
-    outln!("{}: {}", supply.name, d.verdict.to_uppercase());
+    outln!("{}: {}", printable(&supply.name), d.verdict.to_uppercase());
     for e in &d.expectations {
         outln!(
             "  {:<14} {:>10}  expected {:.3} ({:.3} .. {:.3})  {}",
             e.reading,
-            format!("{}", e.value),
+            format_number(e.value),
             e.nominal,
             e.min,
             e.max,

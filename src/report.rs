@@ -5,8 +5,9 @@ use crate::analysis::cautions::{SAFE_TOUCH_V, cautions};
 use crate::analysis::checks::{self, Check, Status};
 use crate::analysis::worst_case::{self, WorstCase};
 use crate::circuit::{self, CircuitError, Figures, HandEstimate, Operating};
+use crate::escape::printable;
 use crate::supply::{Supply, Topology};
-use crate::units::format_si;
+use crate::units::{format_number, format_si};
 use serde_json::{Value, json};
 
 /// A supply solved for its report.
@@ -132,12 +133,14 @@ impl Report {
     pub fn text(&self) -> String {
         let s = &self.supply;
         let mut out = String::new();
-        out.push_str(&format!("{}\n", s.name));
-        out.push_str(&format!("  file: {}\n", self.file));
+        // The name and the path come from files and the command line: escaped, so a control
+        // character in them cannot drive the terminal.
+        out.push_str(&format!("{}\n", printable(&s.name)));
+        out.push_str(&format!("  file: {}\n", printable(&self.file)));
         out.push_str(&format!(
             "  {} V {} Hz mains, {} rectifier, {} filter\n",
-            s.mains.vrms,
-            s.mains.hz,
+            format_number(s.mains.vrms),
+            format_number(s.mains.hz),
             s.rectifier.topology.key(),
             match s.filter.kind {
                 crate::supply::FilterKind::None => "no",
@@ -153,7 +156,7 @@ impl Report {
         {
             out.push_str(&format!(
                 "  regulation {r:.0} % assumed from the {} VA rating\n",
-                s.transformer.rated_va.unwrap_or(0.0)
+                format_number(s.transformer.rated_va.unwrap_or(0.0))
             ));
         }
         out.push_str(&format!(
@@ -221,17 +224,21 @@ impl Report {
         }
         let h = &self.hand;
         out.push_str("\n  Hand estimate (paper method)\n");
-        out.push_str(&format!(
-            "  {:<24}{:>12}\n  {:<24}{:>12}\n  {:<24}{:>12}\n  {:<24}{:>12}\n",
-            "Working peak",
-            format_si(h.working_peak_v, "V"),
-            "DC",
-            format_si(h.dc_v, "V"),
-            "Ripple peak-peak",
-            format_si(h.ripple_pp_v, "V"),
-            "Load current",
-            format_si(h.load_a, "A"),
-        ));
+        if let Some(why) = h.not_applicable {
+            out.push_str(&format!("  {why}\n"));
+        } else {
+            out.push_str(&format!(
+                "  {:<24}{:>12}\n  {:<24}{:>12}\n  {:<24}{:>12}\n  {:<24}{:>12}\n",
+                "Working peak",
+                format_si(h.working_peak_v, "V"),
+                "DC",
+                format_si(h.dc_v, "V"),
+                "Ripple peak-peak",
+                format_si(h.ripple_pp_v, "V"),
+                "Load current",
+                format_si(h.load_a, "A"),
+            ));
+        }
         if !self.differences.is_empty() {
             out.push_str("  Why they differ:\n");
             for d in &self.differences {

@@ -5,7 +5,8 @@
 //! `_pct` is percent). Validation names the key, the value and the allowed range, so the same
 //! message serves the command line and the form next to the field.
 
-use serde::{Deserialize, Serialize};
+use crate::units::format_number;
+use serde::{Deserialize, Deserializer, Serialize};
 use std::fmt;
 
 /// The newest supply-file format this build reads.
@@ -26,15 +27,51 @@ pub enum SupplyError {
     Missing {
         key: &'static str,
         why: &'static str,
+        /// Where the key belongs in the file (its table's line), when read from text.
+        line: Option<usize>,
     },
     /// A value outside what the model accepts.
     OutOfRange {
         key: &'static str,
         value: String,
         allowed: String,
+        /// The line of the key in the file, when read from text.
+        line: Option<usize>,
+        /// Which `[[visit]]` (1-based) the key is in, for a visit's keys.
+        visit: Option<usize>,
     },
     /// A file written by a newer railcheck.
     NewerFormat { found: u32 },
+}
+
+impl SupplyError {
+    /// A range error for `key`, not yet placed on a line.
+    fn out_of_range(
+        key: &'static str,
+        value: impl Into<String>,
+        allowed: impl Into<String>,
+    ) -> Self {
+        SupplyError::OutOfRange {
+            key,
+            value: value.into(),
+            allowed: allowed.into(),
+            line: None,
+            visit: None,
+        }
+    }
+
+    /// The error with the line of its key in `text` filled in (validation knows keys, not
+    /// lines; the README promises the line).
+    fn placed_in(mut self, text: &str) -> Self {
+        match &mut self {
+            SupplyError::OutOfRange {
+                key, line, visit, ..
+            } => *line = line_of_key(text, key, *visit),
+            SupplyError::Missing { key, line, .. } => *line = line_of_key(text, key, None),
+            _ => {}
+        }
+        self
+    }
 }
 
 impl fmt::Display for SupplyError {
@@ -53,12 +90,28 @@ impl fmt::Display for SupplyError {
                 ..
             } => write!(f, "line {l}, column {c}: {message}"),
             SupplyError::Syntax { message, .. } => write!(f, "{message}"),
-            SupplyError::Missing { key, why } => write!(f, "`{key}` is missing: {why}"),
+            SupplyError::Missing { key, why, line } => {
+                if let Some(l) = line {
+                    write!(f, "line {l}, ")?;
+                }
+                write!(f, "`{key}` is missing: {why}")
+            }
             SupplyError::OutOfRange {
                 key,
                 value,
                 allowed,
-            } => write!(f, "`{key}` must be {allowed} (got {value})"),
+                line,
+                visit,
+            } => {
+                if let Some(l) = line {
+                    write!(f, "line {l}, ")?;
+                }
+                write!(f, "`{key}` must be {allowed} (got {value}")?;
+                if let Some(v) = visit {
+                    write!(f, ", visit {v}")?;
+                }
+                write!(f, ")")
+            }
             SupplyError::NewerFormat { found } => write!(
                 f,
                 "`format` is {found}, newer than this railcheck reads ({FORMAT}); update railcheck"
@@ -186,7 +239,7 @@ pub struct Rectifier {
 }
 
 /// A rectifier diode: a preset name, a fixed drop with resistance, or a Shockley junction.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 #[serde(untagged)]
 pub enum DiodeSpec {
     Preset(String),
@@ -201,6 +254,68 @@ pub enum DiodeSpec {
         #[serde(default)]
         ohms: f64,
     },
+}
+
+/// Read by hand rather than as an untagged enum, so that a table mixing the two laws
+/// (`{ drop_v = 0.7, is_a = 1e-9, n = 2 }`) is refused instead of read as one of them with
+/// the other's keys ignored, and a half-given law names the key it lacks.
+impl<'de> Deserialize<'de> for DiodeSpec {
+    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
+        use serde::de::{self, MapAccess, Visitor};
+        struct Spec;
+        impl<'de> Visitor<'de> for Spec {
+            type Value = DiodeSpec;
+            fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
+                f.write_str(
+                    "a preset (silicon, fast, schottky, ideal) or a table \
+                     { drop_v, ohms } or { is_a, n, rs_ohms }",
+                )
+            }
+            fn visit_str<E: de::Error>(self, v: &str) -> Result<DiodeSpec, E> {
+                Ok(DiodeSpec::Preset(v.to_string()))
+            }
+            fn visit_map<M: MapAccess<'de>>(self, mut map: M) -> Result<DiodeSpec, M::Error> {
+                let (mut is_a, mut n, mut rs_ohms, mut drop_v, mut ohms) =
+                    (None, None, None, None, None);
+                while let Some(key) = map.next_key::<String>()? {
+                    let slot = match key.as_str() {
+                        "is_a" => &mut is_a,
+                        "n" => &mut n,
+                        "rs_ohms" => &mut rs_ohms,
+                        "drop_v" => &mut drop_v,
+                        "ohms" => &mut ohms,
+                        // Unknown keys are left to the reader, as everywhere in the file.
+                        _ => {
+                            map.next_value::<de::IgnoredAny>()?;
+                            continue;
+                        }
+                    };
+                    *slot = Some(map.next_value::<f64>()?);
+                }
+                let junction = is_a.is_some() || n.is_some() || rs_ohms.is_some();
+                let fixed = drop_v.is_some() || ohms.is_some();
+                match (junction, fixed) {
+                    (true, true) => Err(de::Error::custom(
+                        "the diode table mixes two laws: give { drop_v, ohms } (a fixed drop) \
+                         or { is_a, n, rs_ohms } (a Shockley junction), not keys of both",
+                    )),
+                    (true, false) => Ok(DiodeSpec::Junction {
+                        is_a: is_a.ok_or_else(|| de::Error::missing_field("is_a"))?,
+                        n: n.ok_or_else(|| de::Error::missing_field("n"))?,
+                        rs_ohms: rs_ohms.unwrap_or(0.0),
+                    }),
+                    (false, true) => Ok(DiodeSpec::Fixed {
+                        drop_v: drop_v.ok_or_else(|| de::Error::missing_field("drop_v"))?,
+                        ohms: ohms.unwrap_or(0.0),
+                    }),
+                    (false, false) => Err(de::Error::custom(
+                        "the diode table is empty: give { drop_v, ohms } or { is_a, n, rs_ohms }",
+                    )),
+                }
+            }
+        }
+        deserializer.deserialize_any(Spec)
+    }
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -302,47 +417,378 @@ fn regulation_from_rating(rated_va: f64) -> f64 {
     }
 }
 
-/// Refuses `value` outside low..=high (or low<..=high when `above_low`), naming the key.
-fn in_range(
-    key: &'static str,
-    value: f64,
-    (low, high): (f64, f64),
-    above_low: bool,
-    allowed: &str,
-) -> Result<(), SupplyError> {
-    let low_ok = if above_low { value > low } else { value >= low };
-    if value.is_finite() && low_ok && value <= high {
-        Ok(())
-    } else {
-        Err(SupplyError::OutOfRange {
-            key,
-            value: format!("{value}"),
-            allowed: allowed.to_string(),
-        })
+/// The lowest value a key accepts.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Floor {
+    /// At least this.
+    AtLeast(f64),
+    /// 0 (an ideal part, or none), or at least this: between the two a value has no physical
+    /// meaning and would only show as a long row of zeros.
+    ZeroOr(f64),
+}
+
+/// The values one key accepts, with the reason for its floor. The floor is where no real
+/// supply goes below and above which the physics means something; it is not there to spare
+/// the solver (a small capacitance is a stiff circuit, which the solver must handle).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Range {
+    pub key: &'static str,
+    pub floor: Floor,
+    pub high: f64,
+    pub unit: &'static str,
+    pub why: &'static str,
+}
+
+impl Range {
+    /// Whether `value` (in the key's unit) is accepted.
+    pub fn allows(&self, value: f64) -> bool {
+        value.is_finite()
+            && value <= self.high
+            && match self.floor {
+                Floor::AtLeast(low) => value >= low,
+                Floor::ZeroOr(low) => value == 0.0 || value >= low,
+            }
+    }
+
+    /// The accepted values in words: "between 1 and 1000 V", "0, or between 1e-6 and 100000 ohms".
+    pub fn allowed(&self) -> String {
+        let unit = if self.unit.is_empty() {
+            String::new()
+        } else {
+            format!(" {}", self.unit)
+        };
+        let span = |low: f64| {
+            format!(
+                "between {} and {}{unit}",
+                format_number(low),
+                format_number(self.high)
+            )
+        };
+        match self.floor {
+            Floor::AtLeast(low) => span(low),
+            Floor::ZeroOr(low) => format!("0, or {}", span(low)),
+        }
+    }
+
+    /// Refuses `value` outside the range, naming the key, the value and the range.
+    fn check(&self, value: f64) -> Result<(), SupplyError> {
+        if self.allows(value) {
+            Ok(())
+        } else {
+            Err(SupplyError::out_of_range(
+                self.key,
+                format_number(value),
+                self.allowed(),
+            ))
+        }
     }
 }
 
-/// `value` within low..=high.
-fn check(
+const fn range(
     key: &'static str,
-    value: f64,
-    low: f64,
+    floor: Floor,
     high: f64,
-    allowed: &str,
-) -> Result<(), SupplyError> {
-    in_range(key, value, (low, high), false, allowed)
+    unit: &'static str,
+    why: &'static str,
+) -> Range {
+    Range {
+        key,
+        floor,
+        high,
+        unit,
+        why,
+    }
 }
 
-/// `value` above low and at most high.
-fn check_above(
-    key: &'static str,
-    value: f64,
-    low: f64,
-    high: f64,
-    allowed: &str,
-) -> Result<(), SupplyError> {
-    in_range(key, value, (low, high), true, allowed)
-}
+use Floor::{AtLeast, ZeroOr};
+
+const PCT_NONE: &str = "0 is no spread: exactly the stated value";
+const MAINS_V_WHY: &str = "no mains or low-voltage AC feed is below 1 V (under it the diode drops \
+                           are all there is); 1000 V AC is the top of low voltage (memory)";
+const AMPS_WHY: &str = "0 is no load; under 1 nA is less than the filter capacitor's own leakage";
+const OHMS_WHY: &str = "under 1 milliohm is a short through the leads; over 1 Tohm is no load";
+const UF_WHY: &str = "1 pF is the stray capacitance of the wiring itself, which the model leaves \
+                      out; no filter capacitor comes near it; 10 F is beyond any filter";
+const WINDING_OHMS_WHY: &str = "0 is an ideal winding; no winding or lead is under 1 micro-ohm";
+const READING_WHY: &str = "what the meter showed, 0 included (a dead rail)";
+
+/// Mains RMS volts.
+pub const MAINS_VRMS: Range = range("mains.vrms", AtLeast(1.0), 1000.0, "V", MAINS_V_WHY);
+pub const MAINS_HZ: Range = range(
+    "mains.hz",
+    AtLeast(16.0),
+    500.0,
+    "Hz",
+    "16.7 Hz railway supplies to 400 Hz aircraft mains",
+);
+pub const MAINS_LOW_PCT: Range = range("mains.low_pct", AtLeast(0.0), 50.0, "%", PCT_NONE);
+pub const MAINS_HIGH_PCT: Range = range("mains.high_pct", AtLeast(0.0), 50.0, "%", PCT_NONE);
+pub const MAINS_CREST: Range = range(
+    "mains.crest",
+    AtLeast(1.1),
+    1.415,
+    "",
+    "1.414 is a clean sine, 1.35-1.40 mains flattened by other rectifiers (practice); under \
+     1.1 it is a square wave, which the clipped-sine model does not describe",
+);
+pub const RATIO: Range = range(
+    "transformer.ratio",
+    AtLeast(0.01),
+    1e4,
+    "",
+    "under 0.01 household mains would give a 100 kV secondary",
+);
+pub const RATIO_PCT: Range = range("transformer.ratio_pct", AtLeast(0.0), 20.0, "%", PCT_NONE);
+pub const PRIMARY_VRMS: Range = range(
+    "transformer.primary_vrms",
+    AtLeast(1.0),
+    1e5,
+    "V",
+    "no AC feed is below 1 V (under it the diode drops are all there is)",
+);
+pub const SECONDARY_VRMS: Range = range(
+    "transformer.secondary_vrms",
+    AtLeast(0.1),
+    1e5,
+    "V",
+    "no winding is made for under 0.1 V; a diode drop would swallow it",
+);
+pub const RATED_VA: Range = range(
+    "transformer.rated_va",
+    AtLeast(0.1),
+    1e7,
+    "VA",
+    "the smallest encapsulated board transformers are about 0.35 VA (memory)",
+);
+pub const REGULATION_PCT: Range = range(
+    "transformer.regulation_pct",
+    AtLeast(0.0),
+    100.0,
+    "%",
+    "0 is a stiff winding; 100 % would halve the voltage at rated load",
+);
+pub const SECONDARY_OHMS: Range = range(
+    "transformer.secondary_ohms",
+    ZeroOr(1e-6),
+    1e5,
+    "ohms",
+    WINDING_OHMS_WHY,
+);
+pub const PRIMARY_OHMS: Range = range(
+    "transformer.primary_ohms",
+    ZeroOr(1e-6),
+    1e6,
+    "ohms",
+    WINDING_OHMS_WHY,
+);
+pub const TEMP_C: Range = range(
+    "rectifier.temp_c",
+    AtLeast(-55.0),
+    175.0,
+    "degC",
+    "the rated junction range of silicon rectifiers (practice)",
+);
+pub const DROP_SPREAD_PCT: Range = range(
+    "rectifier.drop_spread_pct",
+    AtLeast(0.0),
+    50.0,
+    "%",
+    PCT_NONE,
+);
+pub const RATED_PIV_V: Range = range(
+    "rectifier.rated_piv_v",
+    AtLeast(1.0),
+    1e6,
+    "V",
+    "no rectifier is rated for under 1 V reverse",
+);
+pub const DIODE_RATED_A: Range = range(
+    "rectifier.rated_a",
+    AtLeast(1e-3),
+    1e6,
+    "A",
+    "a diode rated under 1 mA is no rectifier",
+);
+pub const SURGE_A: Range = range(
+    "rectifier.surge_a",
+    AtLeast(1e-3),
+    1e6,
+    "A",
+    "a diode rated under 1 mA is no rectifier",
+);
+pub const DROP_V: Range = range(
+    "rectifier.diode.drop_v",
+    ZeroOr(1e-3),
+    10.0,
+    "V",
+    "0 is an ideal diode; under 1 mV a drop is none",
+);
+pub const DIODE_OHMS: Range = range(
+    "rectifier.diode.ohms",
+    ZeroOr(1e-6),
+    100.0,
+    "ohms",
+    "0 is an ideal diode; under 1 micro-ohm is none",
+);
+pub const IS_A: Range = range(
+    "rectifier.diode.is_a",
+    AtLeast(1e-20),
+    1e-2,
+    "A",
+    "well below the 1e-16 A or so of the hardest junctions in simulator models (memory)",
+);
+pub const EMISSION_N: Range = range(
+    "rectifier.diode.n",
+    AtLeast(0.5),
+    5.0,
+    "",
+    "real junctions lie between 1 and 2, series strings a few times that",
+);
+pub const RS_OHMS: Range = range(
+    "rectifier.diode.rs_ohms",
+    ZeroOr(1e-6),
+    100.0,
+    "ohms",
+    "0 is no series resistance; under 1 micro-ohm is none",
+);
+pub const FILTER_UF: Range = range("filter.uf", AtLeast(1e-6), 1e7, "uF", UF_WHY);
+pub const ESR_OHMS: Range = range(
+    "filter.esr_ohms",
+    ZeroOr(1e-6),
+    1000.0,
+    "ohms",
+    "0 is an ideal capacitor; no capacitor is under 1 micro-ohm",
+);
+pub const CAP_LOW_PCT: Range = range("filter.low_pct", AtLeast(0.0), 90.0, "%", PCT_NONE);
+pub const CAP_HIGH_PCT: Range = range("filter.high_pct", AtLeast(0.0), 200.0, "%", PCT_NONE);
+pub const CAP_RATED_V: Range = range(
+    "filter.rated_v",
+    AtLeast(1.0),
+    1e5,
+    "V",
+    "the lowest electrolytic ratings are 2.5 V (practice)",
+);
+pub const RATED_RIPPLE_A: Range = range(
+    "filter.rated_ripple_a",
+    AtLeast(1e-3),
+    1e4,
+    "A",
+    "ripple ratings start at a few mA (practice)",
+);
+pub const SERIES_OHMS: Range = range(
+    "filter.series_ohms",
+    AtLeast(1e-3),
+    1e6,
+    "ohms",
+    "under 1 milliohm the CRC's resistor is the wire between its capacitors",
+);
+pub const SECOND_UF: Range = range("filter.second_uf", AtLeast(1e-6), 1e7, "uF", UF_WHY);
+pub const BLEEDER_OHMS: Range = range(
+    "filter.bleeder_ohms",
+    AtLeast(1.0),
+    1e12,
+    "ohms",
+    "under 1 ohm a bleeder is a short across the rail; over 1 Tohm it bleeds less than the \
+     capacitor's own leakage",
+);
+pub const AGED_PCT: Range = range("filter.aged_pct", AtLeast(0.0), 90.0, "%", PCT_NONE);
+pub const LOAD_AMPS: Range = range("load.amps", ZeroOr(1e-9), 1e4, "A", AMPS_WHY);
+pub const LOAD_OHMS: Range = range("load.ohms", AtLeast(1e-3), 1e12, "ohms", OHMS_WHY);
+pub const MIN_AMPS: Range = range("load.min_amps", ZeroOr(1e-9), 1e4, "A", AMPS_WHY);
+pub const MAX_AMPS: Range = range("load.max_amps", ZeroOr(1e-9), 1e4, "A", AMPS_WHY);
+pub const MIN_OHMS: Range = range("load.min_ohms", AtLeast(1e-3), 1e12, "ohms", OHMS_WHY);
+pub const MAX_OHMS: Range = range("load.max_ohms", AtLeast(1e-3), 1e12, "ohms", OHMS_WHY);
+pub const OUTPUT_V: Range = range(
+    "regulator.output_v",
+    AtLeast(0.1),
+    1e4,
+    "V",
+    "the lowest linear regulator outputs are about 0.5 V (practice)",
+);
+pub const DROPOUT_V: Range = range(
+    "regulator.dropout_v",
+    ZeroOr(1e-3),
+    100.0,
+    "V",
+    "0 is an ideal regulator; under 1 mV a dropout is none",
+);
+pub const REGULATOR_RATED_W: Range = range(
+    "regulator.rated_w",
+    AtLeast(0.01),
+    1e5,
+    "W",
+    "the smallest regulator packages dissipate a few tenths of a watt (practice)",
+);
+pub const VISIT_MAINS_VRMS: Range = range("visit.mains_vrms", AtLeast(0.0), 1e5, "V", READING_WHY);
+pub const VISIT_SECONDARY_VAC: Range =
+    range("visit.secondary_vac", AtLeast(0.0), 1e5, "V", READING_WHY);
+pub const VISIT_DC_V: Range = range(
+    "visit.dc_v",
+    AtLeast(-1e5),
+    1e5,
+    "V",
+    "what the meter showed; a negative rail reads negative",
+);
+pub const VISIT_RIPPLE_PP_V: Range =
+    range("visit.ripple_pp_v", AtLeast(0.0), 1e5, "V", READING_WHY);
+pub const VISIT_RIPPLE_RMS_V: Range =
+    range("visit.ripple_rms_v", AtLeast(0.0), 1e5, "V", READING_WHY);
+pub const VISIT_RIPPLE_HZ: Range = range("visit.ripple_hz", AtLeast(0.0), 1e5, "Hz", READING_WHY);
+pub const VISIT_LOAD_A: Range = range("visit.load_a", AtLeast(0.0), 1e5, "A", READING_WHY);
+
+/// Every numeric key's range, in file order: the table the README's file format section
+/// repeats.
+pub const RANGES: &[Range] = &[
+    MAINS_VRMS,
+    MAINS_HZ,
+    MAINS_LOW_PCT,
+    MAINS_HIGH_PCT,
+    MAINS_CREST,
+    RATIO,
+    RATIO_PCT,
+    PRIMARY_VRMS,
+    SECONDARY_VRMS,
+    RATED_VA,
+    REGULATION_PCT,
+    SECONDARY_OHMS,
+    PRIMARY_OHMS,
+    TEMP_C,
+    DROP_SPREAD_PCT,
+    RATED_PIV_V,
+    DIODE_RATED_A,
+    SURGE_A,
+    DROP_V,
+    DIODE_OHMS,
+    IS_A,
+    EMISSION_N,
+    RS_OHMS,
+    FILTER_UF,
+    ESR_OHMS,
+    CAP_LOW_PCT,
+    CAP_HIGH_PCT,
+    CAP_RATED_V,
+    RATED_RIPPLE_A,
+    SERIES_OHMS,
+    SECOND_UF,
+    BLEEDER_OHMS,
+    AGED_PCT,
+    LOAD_AMPS,
+    LOAD_OHMS,
+    MIN_AMPS,
+    MAX_AMPS,
+    MIN_OHMS,
+    MAX_OHMS,
+    OUTPUT_V,
+    DROPOUT_V,
+    REGULATOR_RATED_W,
+    VISIT_MAINS_VRMS,
+    VISIT_SECONDARY_VAC,
+    VISIT_DC_V,
+    VISIT_RIPPLE_PP_V,
+    VISIT_RIPPLE_RMS_V,
+    VISIT_RIPPLE_HZ,
+    VISIT_LOAD_A,
+];
 
 impl Supply {
     /// Reads and validates a supply from TOML text (units: see the module documentation).
@@ -358,7 +804,7 @@ impl Supply {
             });
         }
         let supply: Supply = toml::from_str(text).map_err(|e| syntax_error(text, &e))?;
-        supply.validate()?;
+        supply.validate().map_err(|e| e.placed_in(text))?;
         Ok(supply)
     }
 
@@ -367,15 +813,16 @@ impl Supply {
         toml::to_string(self).expect("a supply always serialises")
     }
 
-    /// Checks every field against the range the model accepts; the first fault found is
-    /// returned, naming its key.
+    /// Checks every field against the range the model accepts ([`RANGES`]); the first fault
+    /// found is returned, naming its key.
     pub fn validate(&self) -> Result<(), SupplyError> {
         if self.format == 0 {
-            return Err(SupplyError::OutOfRange {
-                key: "format",
-                value: "0".into(),
-                allowed: format!("between 1 and {FORMAT}"),
-            });
+            let allowed = if FORMAT == 1 {
+                "1, the only format so far".to_string()
+            } else {
+                format!("between 1 and {FORMAT}")
+            };
+            return Err(SupplyError::out_of_range("format", "0", allowed));
         }
         if self.format > FORMAT {
             return Err(SupplyError::NewerFormat { found: self.format });
@@ -384,207 +831,195 @@ impl Supply {
             return Err(SupplyError::Missing {
                 key: "name",
                 why: "every supply needs a name to find it by",
+                line: None,
             });
         }
         let m = &self.mains;
-        check_above(
-            "mains.vrms",
-            m.vrms,
-            0.0,
-            1000.0,
-            "above 0 V and at most 1000 V",
-        )?;
-        check("mains.hz", m.hz, 16.0, 500.0, "between 16 and 500 Hz")?;
-        check("mains.low_pct", m.low_pct, 0.0, 50.0, "between 0 and 50 %")?;
-        check(
-            "mains.high_pct",
-            m.high_pct,
-            0.0,
-            50.0,
-            "between 0 and 50 %",
-        )?;
-        check(
-            "mains.crest",
-            m.crest,
-            1.1,
-            std::f64::consts::SQRT_2 + 0.001,
-            "between 1.1 (flat-topped) and 1.415 (a clean sine)",
-        )?;
+        MAINS_VRMS.check(m.vrms)?;
+        MAINS_HZ.check(m.hz)?;
+        MAINS_LOW_PCT.check(m.low_pct)?;
+        MAINS_HIGH_PCT.check(m.high_pct)?;
+        MAINS_CREST.check(m.crest)?;
         self.winding()?;
-        let t = &self.transformer;
-        if let Some(p) = t.ratio_pct {
-            check("transformer.ratio_pct", p, 0.0, 20.0, "between 0 and 20 %")?;
+        if let Some(p) = self.transformer.ratio_pct {
+            RATIO_PCT.check(p)?;
         }
         let r = &self.rectifier;
         self.rectifier_diode()?;
-        if let Some(t) = r.temp_c {
-            check(
-                "rectifier.temp_c",
-                t,
-                -55.0,
-                175.0,
-                "between -55 and 175 degC",
-            )?;
-        }
-        if let Some(p) = r.drop_spread_pct {
-            check(
-                "rectifier.drop_spread_pct",
-                p,
-                0.0,
-                50.0,
-                "between 0 and 50 %",
-            )?;
-        }
-        for (key, v) in [
-            ("rectifier.rated_piv_v", r.rated_piv_v),
-            ("rectifier.rated_a", r.rated_a),
-            ("rectifier.surge_a", r.surge_a),
+        for (range, v) in [
+            (&TEMP_C, r.temp_c),
+            (&DROP_SPREAD_PCT, r.drop_spread_pct),
+            (&RATED_PIV_V, r.rated_piv_v),
+            (&DIODE_RATED_A, r.rated_a),
+            (&SURGE_A, r.surge_a),
         ] {
             if let Some(v) = v {
-                check_above(key, v, 0.0, 1e6, "above 0")?;
+                range.check(v)?;
             }
         }
         let f = &self.filter;
         match f.kind {
             FilterKind::None => {
                 if r.topology == Topology::Doubler {
-                    return Err(SupplyError::OutOfRange {
-                        key: "filter.kind",
-                        value: "none".into(),
-                        allowed: "capacitor or crc for a doubler (its capacitors are part of it)"
-                            .into(),
-                    });
+                    return Err(SupplyError::out_of_range(
+                        "filter.kind",
+                        "none",
+                        "capacitor or crc for a doubler (its capacitors are part of it)",
+                    ));
                 }
             }
             FilterKind::Capacitor | FilterKind::Crc => {
                 let uf = f.uf.ok_or(SupplyError::Missing {
                     key: "filter.uf",
                     why: "a capacitor filter needs its capacitance in microfarads",
+                    line: None,
                 })?;
-                check_above(
-                    "filter.uf",
-                    uf,
-                    0.0,
-                    1e7,
-                    "above 0 uF and at most 10 F (10000000 uF)",
-                )?;
-                check(
-                    "filter.esr_ohms",
-                    f.esr_ohms,
-                    0.0,
-                    1000.0,
-                    "between 0 and 1000 ohms",
-                )?;
-                check("filter.low_pct", f.low_pct, 0.0, 90.0, "between 0 and 90 %")?;
-                check(
-                    "filter.high_pct",
-                    f.high_pct,
-                    0.0,
-                    200.0,
-                    "between 0 and 200 %",
-                )?;
+                FILTER_UF.check(uf)?;
+                ESR_OHMS.check(f.esr_ohms)?;
+                CAP_LOW_PCT.check(f.low_pct)?;
+                CAP_HIGH_PCT.check(f.high_pct)?;
             }
         }
         if f.kind == FilterKind::Crc {
             let ohms = f.series_ohms.ok_or(SupplyError::Missing {
                 key: "filter.series_ohms",
                 why: "a CRC filter needs the resistor between its capacitors",
+                line: None,
             })?;
-            check_above(
-                "filter.series_ohms",
-                ohms,
-                0.0,
-                1e6,
-                "above 0 and at most 1 Mohm",
-            )?;
+            SERIES_OHMS.check(ohms)?;
             let uf = f.second_uf.ok_or(SupplyError::Missing {
                 key: "filter.second_uf",
                 why: "a CRC filter needs its second capacitor in microfarads",
+                line: None,
             })?;
-            check_above(
-                "filter.second_uf",
-                uf,
-                0.0,
-                1e7,
-                "above 0 uF and at most 10 F",
-            )?;
+            SECOND_UF.check(uf)?;
         }
-        if let Some(v) = f.rated_v {
-            check_above("filter.rated_v", v, 0.0, 1e5, "above 0 V")?;
+        for (range, v) in [
+            (&CAP_RATED_V, f.rated_v),
+            (&RATED_RIPPLE_A, f.rated_ripple_a),
+            (&BLEEDER_OHMS, f.bleeder_ohms),
+            (&AGED_PCT, f.aged_pct),
+        ] {
+            if let Some(v) = v {
+                range.check(v)?;
+            }
         }
-        if let Some(v) = f.rated_ripple_a {
-            check_above("filter.rated_ripple_a", v, 0.0, 1e4, "above 0 A")?;
+        self.validate_load()?;
+        for (i, v) in self.visits.iter().enumerate() {
+            let in_visit = |e: SupplyError| match e {
+                SupplyError::OutOfRange {
+                    key,
+                    value,
+                    allowed,
+                    line,
+                    ..
+                } => SupplyError::OutOfRange {
+                    key,
+                    value,
+                    allowed,
+                    line,
+                    visit: Some(i + 1),
+                },
+                other => other,
+            };
+            if v.date.date.is_none() {
+                return Err(in_visit(SupplyError::out_of_range(
+                    "visit.date",
+                    v.date.to_string(),
+                    "a calendar date such as 2026-11-30",
+                )));
+            }
+            let r = &v.readings;
+            for (range, value) in [
+                (&VISIT_MAINS_VRMS, r.mains_vrms),
+                (&VISIT_SECONDARY_VAC, r.secondary_vac),
+                (&VISIT_DC_V, r.dc_v),
+                (&VISIT_RIPPLE_PP_V, r.ripple_pp_v),
+                (&VISIT_RIPPLE_RMS_V, r.ripple_rms_v),
+                (&VISIT_RIPPLE_HZ, r.ripple_hz),
+                (&VISIT_LOAD_A, r.load_a),
+            ] {
+                if let Some(value) = value {
+                    range.check(value).map_err(in_visit)?;
+                }
+            }
         }
-        if let Some(v) = f.bleeder_ohms {
-            check_above("filter.bleeder_ohms", v, 0.0, 1e12, "above 0 ohms")?;
+        if let Some(reg) = &self.regulator {
+            OUTPUT_V.check(reg.output_v)?;
+            DROPOUT_V.check(reg.dropout_v)?;
+            if let Some(w) = reg.rated_w {
+                REGULATOR_RATED_W.check(w)?;
+            }
         }
-        if let Some(v) = f.aged_pct {
-            check("filter.aged_pct", v, 0.0, 90.0, "between 0 and 90 %")?;
-        }
+        Ok(())
+    }
+
+    /// The load: one kind (current or resistance), its range of the same kind, low end not
+    /// above the high end.
+    fn validate_load(&self) -> Result<(), SupplyError> {
         let l = &self.load;
-        match (l.amps, l.ohms) {
-            (Some(a), None) => check("load.amps", a, 0.0, 1e4, "between 0 and 10000 A")?,
-            (None, Some(o)) => check_above("load.ohms", o, 0.0, 1e12, "above 0 ohms")?,
+        let (range_kind, other_kind) = match (l.amps, l.ohms) {
+            (Some(a), None) => {
+                LOAD_AMPS.check(a)?;
+                (
+                    [(&MIN_AMPS, l.min_amps), (&MAX_AMPS, l.max_amps)],
+                    [(&MIN_OHMS, l.min_ohms), (&MAX_OHMS, l.max_ohms)],
+                )
+            }
+            (None, Some(o)) => {
+                LOAD_OHMS.check(o)?;
+                (
+                    [(&MIN_OHMS, l.min_ohms), (&MAX_OHMS, l.max_ohms)],
+                    [(&MIN_AMPS, l.min_amps), (&MAX_AMPS, l.max_amps)],
+                )
+            }
             (Some(_), Some(_)) => {
-                return Err(SupplyError::OutOfRange {
-                    key: "load",
-                    value: "both amps and ohms".into(),
-                    allowed: "either `amps` (constant current) or `ohms` (resistive), not both"
-                        .into(),
-                });
+                return Err(SupplyError::out_of_range(
+                    "load",
+                    "both amps and ohms",
+                    "either `amps` (constant current) or `ohms` (resistive), not both",
+                ));
             }
             (None, None) => {
                 return Err(SupplyError::Missing {
                     key: "load.amps",
                     why: "give the load as `amps` (constant current) or `ohms` (resistive)",
+                    line: None,
                 });
             }
-        }
-        for (key, v) in [("load.min_amps", l.min_amps), ("load.max_amps", l.max_amps)] {
+        };
+        // A range of the other kind would be silently ignored by the worst case.
+        for (range, v) in other_kind {
             if let Some(v) = v {
-                check(key, v, 0.0, 1e4, "between 0 and 10000 A")?;
+                let (nominal, its_range) = if l.amps.is_some() {
+                    ("`amps` (a current load)", "`min_amps` / `max_amps`")
+                } else {
+                    ("`ohms` (a resistive load)", "`min_ohms` / `max_ohms`")
+                };
+                return Err(SupplyError::out_of_range(
+                    range.key,
+                    format_number(v),
+                    format!("left out with {nominal}: its range is {its_range}"),
+                ));
             }
         }
-        for (key, v) in [("load.min_ohms", l.min_ohms), ("load.max_ohms", l.max_ohms)] {
+        for (range, v) in range_kind {
             if let Some(v) = v {
-                check_above(key, v, 0.0, 1e12, "above 0 ohms")?;
+                range.check(v)?;
             }
         }
-        for (i, v) in self.visits.iter().enumerate() {
-            if v.date.date.is_none() {
-                return Err(SupplyError::OutOfRange {
-                    key: "visit.date",
-                    value: format!("{} (visit {})", v.date, i + 1),
-                    allowed: "a calendar date such as 2026-11-30".into(),
-                });
-            }
-            for (key, value) in v.readings.present() {
-                let bad = !value.is_finite()
-                    || match key {
-                        "dc_v" => value.abs() > 1e5,
-                        _ => !(0.0..=1e5).contains(&value),
-                    };
-                if bad {
-                    return Err(SupplyError::OutOfRange {
-                        key: "visit reading",
-                        value: format!("{key} = {value} (visit {})", i + 1),
-                        allowed: "a finite reading, not negative (dc_v within 100 kV)".into(),
-                    });
-                }
-            }
-        }
-        if let Some(reg) = &self.regulator {
-            check_above("regulator.output_v", reg.output_v, 0.0, 1e4, "above 0 V")?;
-            check(
-                "regulator.dropout_v",
-                reg.dropout_v,
-                0.0,
-                100.0,
-                "between 0 and 100 V",
-            )?;
-            if let Some(w) = reg.rated_w {
-                check_above("regulator.rated_w", w, 0.0, 1e5, "above 0 W")?;
-            }
+        if let [(min_range, Some(min)), (max_range, Some(max))] = range_kind
+            && min > max
+        {
+            return Err(SupplyError::out_of_range(
+                min_range.key,
+                format_number(min),
+                format!(
+                    "at most `{}` ({}), being the low end of the range",
+                    max_range.key,
+                    format_number(max)
+                ),
+            ));
         }
         Ok(())
     }
@@ -598,36 +1033,10 @@ impl Supply {
         let t = &self.transformer;
         let secondary_ohms = t.secondary_ohms.unwrap_or(0.0);
         let primary_ohms = t.primary_ohms.unwrap_or(0.0);
-        check(
-            "transformer.secondary_ohms",
-            secondary_ohms,
-            0.0,
-            1e5,
-            "between 0 and 100000 ohms",
-        )?;
-        check(
-            "transformer.primary_ohms",
-            primary_ohms,
-            0.0,
-            1e6,
-            "between 0 and 1000000 ohms",
-        )?;
+        SECONDARY_OHMS.check(secondary_ohms)?;
+        PRIMARY_OHMS.check(primary_ohms)?;
         if let Some(ratio) = t.ratio {
-            check_above(
-                "transformer.ratio",
-                ratio,
-                0.0,
-                1e4,
-                "above 0 and at most 10000 (primary : whole secondary)",
-            )?;
-            // A ratio below 0.01 would make a 100 kV secondary from household mains.
-            check(
-                "transformer.ratio",
-                ratio,
-                0.01,
-                1e4,
-                "between 0.01 and 10000",
-            )?;
+            RATIO.check(ratio)?;
             return Ok(WindingModel {
                 ratio,
                 secondary_ohms,
@@ -638,21 +1047,16 @@ impl Supply {
         let missing = |key| SupplyError::Missing {
             key,
             why: "give either `ratio` or the nameplate `primary_vrms` and `secondary_vrms`",
+            line: None,
         };
         let primary = t.primary_vrms.ok_or(missing("transformer.ratio"))?;
         let secondary = t
             .secondary_vrms
             .ok_or(missing("transformer.secondary_vrms"))?;
-        check_above("transformer.primary_vrms", primary, 0.0, 1e5, "above 0 V")?;
-        check_above(
-            "transformer.secondary_vrms",
-            secondary,
-            0.0,
-            1e5,
-            "above 0 V",
-        )?;
+        PRIMARY_VRMS.check(primary)?;
+        SECONDARY_VRMS.check(secondary)?;
         if let Some(va) = t.rated_va {
-            check_above("transformer.rated_va", va, 0.0, 1e7, "above 0 VA")?;
+            RATED_VA.check(va)?;
         }
         let (regulation, assumed) = match (t.regulation_pct, t.rated_va) {
             (Some(r), _) => (r, None),
@@ -664,25 +1068,23 @@ impl Supply {
                 return Err(SupplyError::Missing {
                     key: "transformer.regulation_pct",
                     why: "the nameplate form needs the regulation or the rated VA to know the no-load voltage",
+                    line: None,
                 });
             }
         };
-        check(
-            "transformer.regulation_pct",
-            regulation,
-            0.0,
-            100.0,
-            "between 0 and 100 %",
-        )?;
+        REGULATION_PCT.check(regulation)?;
         let no_load = secondary * (1.0 + regulation / 100.0);
         let ratio = primary / no_load;
-        check(
-            "transformer.ratio",
-            ratio,
-            0.01,
-            1e4,
-            "between 0.01 and 10000",
-        )?;
+        if !RATIO.allows(ratio) {
+            return Err(SupplyError::out_of_range(
+                RATIO.key,
+                format!(
+                    "{}, from primary_vrms over the no-load secondary_vrms",
+                    format_number(ratio)
+                ),
+                RATIO.allowed(),
+            ));
+        }
         let measured = t.secondary_ohms.is_some() || t.primary_ohms.is_some();
         let secondary_ohms = match (measured, t.rated_va) {
             (true, _) => secondary_ohms,
@@ -729,51 +1131,26 @@ impl Supply {
                     ohms: 0.0,
                 },
                 other => {
-                    return Err(SupplyError::OutOfRange {
-                        key: "rectifier.diode",
-                        value: format!("{other:?}"),
-                        allowed: "silicon, fast, schottky or ideal, or a table \
-                                  { drop_v, ohms } or { is_a, n, rs_ohms }"
-                            .into(),
-                    });
+                    return Err(SupplyError::out_of_range(
+                        "rectifier.diode",
+                        format!("{other:?}"),
+                        "silicon, fast, schottky or ideal, or a table \
+                         { drop_v, ohms } or { is_a, n, rs_ohms }",
+                    ));
                 }
             },
             DiodeSpec::Fixed { drop_v, ohms } => {
-                check(
-                    "rectifier.diode.drop_v",
-                    *drop_v,
-                    0.0,
-                    10.0,
-                    "between 0 and 10 V",
-                )?;
-                check(
-                    "rectifier.diode.ohms",
-                    *ohms,
-                    0.0,
-                    100.0,
-                    "between 0 and 100 ohms",
-                )?;
+                DROP_V.check(*drop_v)?;
+                DIODE_OHMS.check(*ohms)?;
                 DiodeParams::Fixed {
                     drop_v: *drop_v,
                     ohms: *ohms,
                 }
             }
             DiodeSpec::Junction { is_a, n, rs_ohms } => {
-                check_above(
-                    "rectifier.diode.is_a",
-                    *is_a,
-                    0.0,
-                    1e-2,
-                    "above 0 and at most 0.01 A",
-                )?;
-                check("rectifier.diode.n", *n, 0.5, 5.0, "between 0.5 and 5")?;
-                check(
-                    "rectifier.diode.rs_ohms",
-                    *rs_ohms,
-                    0.0,
-                    100.0,
-                    "between 0 and 100 ohms",
-                )?;
+                IS_A.check(*is_a)?;
+                EMISSION_N.check(*n)?;
+                RS_OHMS.check(*rs_ohms)?;
                 DiodeParams::Junction {
                     is_a: *is_a,
                     n: *n,
@@ -823,18 +1200,64 @@ fn syntax_error(text: &str, e: &toml::de::Error) -> SupplyError {
         None => (None, None, None),
     };
     // toml's own message repeats the source excerpt; the first line carries the reason.
-    let message = e
-        .message()
-        .lines()
-        .next()
-        .unwrap_or("not valid TOML")
-        .to_string();
+    let message = shorten_numbers(e.message().lines().next().unwrap_or("not valid TOML"));
     SupplyError::Syntax {
         line,
         column,
         key,
         message,
     }
+}
+
+/// `message` with every number of more than 24 characters (toml spells out `4.2e252` when it
+/// names a float where an integer goes) written short, as [`format_number`] writes it.
+fn shorten_numbers(message: &str) -> String {
+    let mut out = String::with_capacity(message.len());
+    let mut rest = message;
+    while let Some(start) = rest.find(|c: char| c.is_ascii_digit()) {
+        out.push_str(&rest[..start]);
+        let len = rest[start..]
+            .find(|c: char| !(c.is_ascii_digit() || c == '.'))
+            .unwrap_or(rest.len() - start);
+        let number = &rest[start..start + len];
+        match number.parse::<f64>() {
+            Ok(v) if number.len() > 24 => out.push_str(&format_number(v)),
+            _ => out.push_str(number),
+        }
+        rest = &rest[start + len..];
+    }
+    out.push_str(rest);
+    out
+}
+
+/// The line (1-based) where the dotted `key` is written in `text`, or failing that the line of
+/// the deepest table on its path that is written; `visit` picks the `[[visit]]` (1-based).
+fn line_of_key(text: &str, key: &str, visit: Option<usize>) -> Option<usize> {
+    let doc = toml_edit::Document::parse(text).ok()?;
+    let mut table: &dyn toml_edit::TableLike = doc.as_table();
+    let mut at: Option<usize> = None;
+    for part in key.split('.') {
+        let Some((k, item)) = table.get_key_value(part) else {
+            break;
+        };
+        if let Some(span) = k.span().or_else(|| item.span()) {
+            at = Some(span.start);
+        }
+        if let Some(tables) = item.as_array_of_tables() {
+            let Some(t) = visit.and_then(|i| tables.get(i.checked_sub(1)?)) else {
+                break;
+            };
+            if let Some(span) = t.span() {
+                at = Some(span.start);
+            }
+            table = t;
+        } else if let Some(t) = item.as_table_like() {
+            table = t;
+        } else {
+            break;
+        }
+    }
+    Some(text.get(..at?)?.matches('\n').count() + 1)
 }
 
 /// The dotted key written on `line` (1-based), with the table header above it.
@@ -846,12 +1269,15 @@ fn key_at_line(text: &str, line: usize) -> Option<String> {
     if name.is_empty() || name.starts_with('[') {
         return None;
     }
+    // The nearest header above, `[table]` or `[[array]]` (a visit's key is `visit.date`,
+    // not the key of the table before the visits).
     let table = lines[..line - 1]
         .iter()
         .rev()
         .map(|l| l.trim())
-        .find(|l| l.starts_with('[') && !l.starts_with("[["))
-        .map(|l| l.trim_matches(|c| c == '[' || c == ']').trim().to_string());
+        .find(|l| l.starts_with('['))
+        .and_then(|l| l.trim_start_matches('[').split(']').next())
+        .map(|t| t.trim().to_string());
     Some(match table {
         Some(t) => format!("{t}.{name}"),
         None => name.to_string(),
@@ -896,7 +1322,7 @@ amps = 0.35
         let bad = BRIDGE.replace("uf = 2200.0", "uf = -47.0");
         let e = Supply::from_toml_str(&bad).unwrap_err().to_string();
         assert!(
-            e.contains("filter.uf") && e.contains("-47") && e.contains("above 0 uF"),
+            e.contains("filter.uf") && e.contains("-47") && e.contains("between 1e-6 and 1e7 uF"),
             "{e}"
         );
         let bad = BRIDGE.replace("ratio = 9.58", "ratio = 0.0");
@@ -917,6 +1343,19 @@ amps = 0.35
         let bad = BRIDGE.replace("amps = 0.35", "");
         let e = Supply::from_toml_str(&bad).unwrap_err().to_string();
         assert!(e.contains("load.amps"), "{e}");
+    }
+
+    #[test]
+    fn long_numbers_in_parser_messages_are_written_short() {
+        let long = format!("floating point `{}.0`, expected u32", "4".repeat(60));
+        assert_eq!(
+            shorten_numbers(&long),
+            "floating point `4.444444444444445e59`, expected u32"
+        );
+        assert_eq!(shorten_numbers("line 12, 3.5 and 7"), "line 12, 3.5 and 7");
+        let bad = BRIDGE.replace("format = 1", "format = 4.2e252");
+        let e = Supply::from_toml_str(&bad).unwrap_err().to_string();
+        assert!(e.contains("4.2e252") && e.contains("line 2"), "{e}");
     }
 
     #[test]

@@ -137,6 +137,11 @@ pub fn format_si(value: f64, unit: &str) -> String {
         (1e-15, "f"),
     ];
     let magnitude = value.abs();
+    // Beyond the prefixes (a tera-anything or below a femto) the mantissa would run to
+    // hundreds of digits: E notation instead.
+    if !(1e-15 * 0.9995..999.95e9).contains(&magnitude) {
+        return format!("{value:.2e} {unit}");
+    }
     let (scale, prefix) = PREFIXES
         .iter()
         .copied()
@@ -152,6 +157,17 @@ pub fn format_si(value: f64, unit: &str) -> String {
         2
     };
     format!("{scaled:.digits$} {prefix}{unit}")
+}
+
+/// A number as it was typed, for messages and headers: plain when of ordinary size (`0.35`,
+/// `230`, `100000`), E notation otherwise (`1e308`, `5e-324`), never hundreds of digits.
+pub fn format_number(value: f64) -> String {
+    let magnitude = value.abs();
+    if !value.is_finite() || value == 0.0 || (1e-4..1e6).contains(&magnitude) {
+        format!("{value}")
+    } else {
+        format!("{value:e}")
+    }
 }
 
 #[cfg(test)]
@@ -202,6 +218,33 @@ mod tests {
         assert_eq!(format_si(-0.5, "V"), "-500 mV");
         assert_eq!(format_si(0.0, "A"), "0.00 A");
         assert_eq!(format_si(f64::NAN, "V"), "--");
+        // Out of the prefixes' reach: E notation, not 300 digits.
+        assert_eq!(format_si(1e308, "ohm"), "1.00e308 ohm");
+        assert_eq!(format_si(5e-324, "V"), "4.94e-324 V");
+    }
+
+    #[test]
+    fn numbers_as_typed_stay_short() {
+        assert_eq!(format_number(230.0), "230");
+        assert_eq!(format_number(0.35), "0.35");
+        assert_eq!(format_number(-47.0), "-47");
+        assert_eq!(format_number(100000.0), "100000");
+        assert_eq!(format_number(1e308), "1e308");
+        assert_eq!(format_number(5e-324), "5e-324");
+        assert_eq!(format_number(1e-300), "1e-300");
+        assert_eq!(format_number(0.0), "0");
+        for v in [
+            1e308,
+            5e-324,
+            1.5e-7,
+            123456789.0,
+            f64::MAX,
+            f64::MIN_POSITIVE,
+        ] {
+            let text = format_number(v);
+            assert!(text.len() <= 24, "{v}: {text}");
+            assert_eq!(text.parse::<f64>().unwrap(), v, "reads back exactly");
+        }
     }
 
     #[test]

@@ -139,7 +139,7 @@ fn bad_files_are_refused_with_file_key_value_and_range() {
         (
             "negative.toml",
             GOOD.replace("uf = 2200.0", "uf = -47.0"),
-            vec!["filter.uf", "-47", "above 0"],
+            vec!["filter.uf", "-47", "between 1e-6 and 1e7 uF", "line 13"],
         ),
         (
             "topology.toml",

@@ -4,6 +4,7 @@
 
 use crate::circuit::{self, CircuitError, Conditions, Figures, LoadOverride};
 use crate::supply::Supply;
+use crate::units::format_number;
 use serde::Serialize;
 
 /// One axis of the tolerance box: a factor (or a load) from its low end to its high end.
@@ -77,8 +78,16 @@ impl ToleranceBox {
                 AxisKind::Capacitance => format!("capacitance {}", pct_span(a)),
                 AxisKind::DiodeDrop => format!("diode drop {}", pct_span(a)),
                 AxisKind::Ratio => format!("turns ratio {}", pct_span(a)),
-                AxisKind::LoadAmps => format!("load {} A to {} A", a.low, a.high),
-                AxisKind::LoadOhms => format!("load {} ohm to {} ohm", a.low, a.high),
+                AxisKind::LoadAmps => format!(
+                    "load {} A to {} A",
+                    format_number(a.low),
+                    format_number(a.high)
+                ),
+                AxisKind::LoadOhms => format!(
+                    "load {} ohm to {} ohm",
+                    format_number(a.low),
+                    format_number(a.high)
+                ),
             })
             .collect()
     }

@@ -449,7 +449,26 @@ pub struct HandEstimate {
     pub ripple_hz: f64,
     /// Volts per conducting diode assumed.
     pub diode_drop_v: f64,
+    /// Why the paper method says nothing about this supply, when it does not (the figures are
+    /// then clamped at what the winding gives, never negative, and are not to be read).
+    pub not_applicable: Option<&'static str>,
 }
+
+impl HandEstimate {
+    /// Whether the paper method applies to this supply at all.
+    pub fn applies(&self) -> bool {
+        self.not_applicable.is_none()
+    }
+}
+
+/// The paper method assumes a capacitor that sags a little between pulses; once its ripple
+/// reaches the whole working peak the capacitor would empty, and the method's straight-line
+/// discharge gives a negative rail (-22,695 V for 10 kA from a small bridge).
+pub const BEYOND_THE_WINDING: &str = "does not apply: the load is beyond what the winding can give (the capacitor would empty \
+     between pulses)";
+/// The winding's peak does not pass the textbook diode drops: the paper method gives 0 V.
+pub const BELOW_THE_DROPS: &str =
+    "does not apply: the winding's peak does not pass the textbook diode drops";
 
 /// The textbook estimate: working peak = winding peak minus 0.7 V per conducting diode;
 /// unfiltered DC = working peak times 2/pi (full-wave) or 1/pi (half-wave); with a capacitor,
@@ -509,19 +528,32 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
             (dc, working, load_at(dc))
         }
     };
+    let not_applicable = if working <= 0.0 {
+        Some(BELOW_THE_DROPS)
+    } else if ripple >= working || dc <= 0.0 {
+        Some(BEYOND_THE_WINDING)
+    } else {
+        None
+    };
     Ok(HandEstimate {
         working_peak_v: working,
-        dc_v: dc,
-        ripple_pp_v: ripple,
+        // Clamped so that no figure of the estimate is ever negative or above the peak.
+        dc_v: dc.clamp(0.0, working),
+        ripple_pp_v: ripple.clamp(0.0, working),
         load_a: load,
         ripple_hz,
         diode_drop_v: drop,
+        not_applicable,
     })
 }
 
 /// Why the solved figures differ from the paper estimate, in words with the sizes involved.
 pub fn hand_differences(supply: &Supply, op: &Operating, hand: &HandEstimate) -> Vec<String> {
     let mut out = Vec::new();
+    // An estimate that does not apply has no differences worth a reason.
+    if !hand.applies() {
+        return out;
+    }
     let f = &op.figures;
     let Ok(net) = network(supply, &Conditions::default()) else {
         return out;

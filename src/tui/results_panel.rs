@@ -203,8 +203,9 @@ impl Widget for &ResultsPanel<'_> {
                 .and_then(|(_, v)| *v)
         };
         let hand = |name: &str| match name {
-            "dc_v" => Some(solved.hand.dc_v),
-            "ripple_pp_v" => Some(solved.hand.ripple_pp_v),
+            // A paper method that does not apply shows nothing rather than a clamped figure.
+            "dc_v" if solved.hand.applies() => Some(solved.hand.dc_v),
+            "ripple_pp_v" if solved.hand.applies() => Some(solved.hand.ripple_pp_v),
             "load_a" => Some(solved.hand.load_a),
             "max_v" => Some(solved.hand.working_peak_v),
             _ => None,
