@@ -589,7 +589,7 @@ where
                         }
                         stage[i] = y[i] + h * acc;
                     }
-                    if s == 5 {
+                    if s == 5 && adaptive {
                         stage6 = stage;
                     }
                     let (_, rest) = k.split_at_mut(s);
@@ -600,7 +600,9 @@ where
                     }
                 }
                 // stage now holds the 5th-order solution (the 7th stage's argument, FSAL).
-                for i in 0..n {
+                // A replay controls nothing, so it needs no estimate.
+                let controlled = if adaptive { controlled } else { 0 };
+                for i in 0..controlled {
                     let mut e = 0.0;
                     for (s, ks) in k.iter().enumerate() {
                         e += E[s] * ks[i];
@@ -674,7 +676,7 @@ where
                     num += (k[6][i] - k[5][i]).powi(2);
                     den += (stage[i] - stage6[i]).powi(2);
                 }
-                if den > 0.0 && h * (num / den).sqrt() > 3.25 {
+                if den > 0.0 && h * h * num > 3.25 * 3.25 * den {
                     stiff_tests += 1;
                     ordinary = 0;
                     stiff_rate = stiff_rate.max((num / den).sqrt());
@@ -1015,8 +1017,8 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
     let mut g = gap(&state);
     // A replay with the stiff formula can run away where a diode turns within a step that the
     // error control no longer watches; the error-controlled pass then stands as the answer.
-    let controlled = state.clone();
     if n > 0 && worst(&g) > 300.0 * tol {
+        let controlled = state.clone();
         'close: {
             // A circuit that repeats every half cycle is integrated with the first half's steps
             // twice over: the same discrete map on both halves keeps the closed period symmetric,
