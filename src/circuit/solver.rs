@@ -298,7 +298,7 @@ impl Lu {
         let mut perm = [0, 1, 2, 3];
         for col in 0..n {
             let pivot = (col..n).max_by(|&i, &j| a[i][col].abs().total_cmp(&a[j][col].abs()))?;
-            if !(a[pivot][col].abs() > 1e-300) {
+            if a[pivot][col].abs() <= 1e-300 || a[pivot][col].is_nan() {
                 return None;
             }
             a.swap(col, pivot);
