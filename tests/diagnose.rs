@@ -296,3 +296,53 @@ fn the_trend_projects_when_the_capacitor_reaches_its_limit() {
         "the old capacitor was drying out"
     );
 }
+
+fn days(date: &str) -> i64 {
+    let p: Vec<i64> = date.split('-').map(|x| x.parse().unwrap()).collect();
+    railcheck::visit::days_from_civil(p[0], p[1], p[2])
+}
+
+#[test]
+fn the_crossing_range_is_as_wide_as_the_meters_and_the_scatter_make_it() {
+    // Three visits over four years of the demo dosing controller (invented readings). A
+    // scope's ripple reading is good to about 5 % (common practice), so each visit's implied
+    // capacitance is good to about 5 % and three of them cannot date the crossing to the week:
+    // the earlier trend gave eight days.
+    let s = Supply::from_toml_str(&railcheck::library::demo::supplies()[1].1).unwrap();
+    let t = railcheck::diagnose::trend::trend(&s);
+    let c = t.crossing.clone().unwrap();
+    let (a, b) = (c.earliest.clone().unwrap(), c.latest.clone().unwrap());
+    let span = days(&b) - days(&a);
+    assert!(span >= 90, "{a} .. {b}: {span} days");
+    assert!(a <= c.date && c.date <= b, "{a} {} {b}", c.date);
+    // More scatter, a wider range: the middle visit's ripple read 12 % higher.
+    let mut scattered = s.clone();
+    let r = scattered.visits[1].readings.ripple_pp_v.unwrap();
+    scattered.visits[1].readings.ripple_pp_v = Some(r * 1.12);
+    let t2 = railcheck::diagnose::trend::trend(&scattered);
+    let c2 = t2.crossing.unwrap();
+    let span2 = match (&c2.earliest, &c2.latest) {
+        (Some(a), Some(b)) => days(b) - days(a),
+        // Too unclear to bound: wider than any bounded range.
+        (Some(_), None) => i64::MAX,
+        _ => panic!("no earliest date"),
+    };
+    assert!(span2 > span, "{span2} days with scatter, {span} without");
+}
+
+#[test]
+fn the_crossing_is_never_dated_before_the_first_visit() {
+    // A unit first seen long after its capacitor dried past the limit: the line projects the
+    // crossing years before the first visit, which no visit can tell; the dates start at it.
+    let mut s = Supply::from_toml_str(&railcheck::library::demo::supplies()[1].1).unwrap();
+    for v in s.visits.iter_mut() {
+        v.readings.ripple_pp_v = v.readings.ripple_pp_v.map(|r| r * 2.2);
+        v.readings.dc_v = v.readings.dc_v.map(|d| d * 0.96);
+    }
+    let t = railcheck::diagnose::trend::trend(&s);
+    let c = t.crossing.unwrap();
+    assert!(c.already);
+    let first = s.visits.iter().map(|v| v.date_text()).min().unwrap();
+    assert!(c.date >= first, "{} before {first}", c.date);
+    assert!(c.earliest.unwrap() >= first);
+}
