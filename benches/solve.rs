@@ -1,5 +1,6 @@
 //! Speed of the engine: one steady-state solve (capacitor input, unfiltered, across load time
-//! constants, the doubler and CRC with two states) and a 20-file report in one process.
+//! constants, the doubler and CRC with two states, two stiff CRCs) and a 20-file report in one
+//! process.
 //! Run: cargo bench --bench solve
 
 use criterion::{BenchmarkId, Criterion, criterion_group, criterion_main};
@@ -29,6 +30,16 @@ fn single_solves(c: &mut Criterion) {
     let crc = load("examples/intercom-preamp.toml");
     g.bench_function("crc_two_states", |b| {
         b.iter(|| solve(black_box(&crc), &Conditions::default()).unwrap())
+    });
+    // Issue 9's stiff supplies: a CRC whose second capacitor's time constant is microseconds
+    // (16 Hz center tap) or nanoseconds (500 Hz split rail) against the period.
+    let ct = load("tests/reference/stiff/ct_crc_16hz_stiff.toml");
+    g.bench_function("stiff_crc_center_tap_16hz", |b| {
+        b.iter(|| solve(black_box(&ct), &Conditions::default()).unwrap())
+    });
+    let sr = load("tests/reference/stiff/sr_crc_500hz_stiff.toml");
+    g.bench_function("stiff_crc_split_rail_500hz", |b| {
+        b.iter(|| solve(black_box(&sr), &Conditions::default()).unwrap())
     });
     g.finish();
 }

@@ -74,6 +74,10 @@ pub enum CircuitError {
     Supply(#[from] SupplyError),
     #[error("{0}")]
     Solve(#[from] SolveError),
+    /// The solver gave up within its work budget: the supply's values that set its time
+    /// constants are named, since those are what make a circuit hard to settle.
+    #[error("{why}; the values that set its time constants: {values}")]
+    Refused { why: SolveError, values: String },
 }
 
 /// A rectifier's input knee for a constant-current load with no regulator: an electronic
@@ -344,7 +348,20 @@ pub struct Operating {
 /// Solves `supply` under `cond` for its periodic steady state and figures.
 pub fn solve(supply: &Supply, cond: &Conditions) -> Result<Operating, CircuitError> {
     let net = network(supply, cond)?;
-    let steady = solver::steady_state(&net)?;
+    let steady = match solver::steady_state(&net) {
+        Ok(s) => s,
+        Err(
+            why @ (SolveError::WorkLimit(_)
+            | SolveError::NoConvergence(_)
+            | SolveError::TooManySteps(_)),
+        ) => {
+            return Err(CircuitError::Refused {
+                why,
+                values: time_constants(supply, &net),
+            });
+        }
+        Err(e) => return Err(e.into()),
+    };
     let figures = figures(supply, &net, &steady);
     let waveform = Waveform {
         t_ms: steady.t_s.iter().map(|t| t * 1e3).collect(),
@@ -357,6 +374,42 @@ pub fn solve(supply: &Supply, cond: &Conditions) -> Result<Operating, CircuitErr
         waveform,
         steady,
     })
+}
+
+/// The supply's fields behind each time constant of its network, with the time constant and
+/// the period they are measured against, in words (seconds shown with SI prefixes).
+fn time_constants(supply: &Supply, net: &Network) -> String {
+    use crate::units::format_si;
+    let mut out = vec![format!(
+        "mains.hz = {} (a period of {})",
+        supply.mains.hz,
+        format_si(1.0 / supply.mains.hz, "s")
+    )];
+    if let (Some(r), Some(p)) = (net.reservoirs.first(), net.paths.first()) {
+        let ohms = (p.ohms + r.esr_ohms).max(net.min_path_ohms);
+        out.push(format!(
+            "filter.uf = {} charged through {} of winding and filter.esr_ohms = {} ({})",
+            supply.filter.uf.unwrap_or(0.0),
+            format_si(p.ohms, "ohm"),
+            r.esr_ohms,
+            format_si(ohms * r.farads, "s")
+        ));
+    }
+    if let Some(st) = net.second {
+        out.push(format!(
+            "filter.series_ohms = {} with filter.second_uf = {} ({})",
+            st.ohms,
+            supply.filter.second_uf.unwrap_or(0.0),
+            format_si(st.ohms * st.farads, "s")
+        ));
+    }
+    match net.load {
+        LoadLaw::Resistance { ohms } => out.push(format!("load.ohms = {ohms}")),
+        LoadLaw::Current { amps, knee_v } => out.push(format!(
+            "load.amps = {amps} (below {knee_v} V a resistance)"
+        )),
+    }
+    out.join("; ")
 }
 
 fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figures {

@@ -211,6 +211,11 @@ impl Network {
                     let i = self.diode.string_current(s, ohms + r, p.diodes);
                     (i, i * r)
                 }
+                // An idle current load is an open circuit: the rail sits at the source less
+                // the diodes' drop at no current (a resistance of knee / 0 would overflow).
+                LoadLaw::Current { amps, .. } if amps <= 0.0 => {
+                    (0.0, (s - self.diode.string_v(0.0, ohms, p.diodes)).max(0.0))
+                }
                 LoadLaw::Current { amps, knee_v } => {
                     let v = s - self.diode.string_v(amps, ohms, p.diodes);
                     if v >= knee_v {
