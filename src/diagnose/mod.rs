@@ -51,6 +51,17 @@ pub enum ReadingError {
         "give at least one reading of the rail: --dc, --ripple-pp, --ripple-rms or --ripple-hz"
     )]
     Nothing,
+    #[error(
+        "{reading} {value} is outside what this unit can show ({low} .. {high}): {hint}; \
+         nothing was diagnosed or saved"
+    )]
+    Implausible {
+        reading: &'static str,
+        value: f64,
+        low: String,
+        high: String,
+        hint: &'static str,
+    },
     #[error("{0}")]
     Solve(String),
 }
@@ -383,9 +394,59 @@ fn fit(lo: f64, hi: f64, mut cost: impl FnMut(f64) -> f64) -> (f64, f64) {
 /// this is its cost in chi-square units (a prior that a given part has failed).
 const FAULT_PRIOR: f64 = 4.0;
 
+impl Readings {
+    /// Refuses readings that this unit cannot show, as likely typos or a wrong meter range:
+    /// a mains reading outside half to one and a half times the nominal (a typed "2k" is
+    /// 2000 V), or a DC above the winding's own peak at the highest mains (no rectifier rail
+    /// rises above the peak it is charged from, whatever its parts), volts.
+    pub fn check_against(&self, supply: &Supply) -> Result<(), ReadingError> {
+        self.check(supply.mains.hz)?;
+        let nominal = supply.mains.vrms;
+        if let Some(m) = self.mains_vrms
+            && !(0.5 * nominal..=1.5 * nominal).contains(&m)
+        {
+            return Err(ReadingError::Implausible {
+                reading: "mains_vrms",
+                value: m,
+                low: format!("{:.0} V", 0.5 * nominal),
+                high: format!("{:.0} V", 1.5 * nominal),
+                hint: "more likely a typo or the meter's range than the mains (a typed \"2k\" \
+                       is 2000 V)",
+            });
+        }
+        if let (Some(dc), Ok(w)) = (self.dc_v, supply.winding()) {
+            let share = match supply.rectifier.topology {
+                Topology::HalfWave | Topology::Bridge => 1.0,
+                Topology::CenterTap | Topology::SplitRail => 0.5,
+                Topology::Doubler => 2.0,
+            };
+            let highest_mains = self
+                .mains_vrms
+                .map_or(nominal * (1.0 + supply.mains.high_pct / 100.0), |m| {
+                    m + meter_uncertainty("mains_vrms", m)
+                });
+            // A sine's crest, the flattest tops only lower it.
+            let peak = highest_mains / w.ratio * std::f64::consts::SQRT_2 * share;
+            let high = peak + meter_uncertainty("dc_v", peak);
+            if dc > high {
+                return Err(ReadingError::Implausible {
+                    reading: "dc_v",
+                    value: dc,
+                    low: "0 V".into(),
+                    high: format!("{high:.3} V"),
+                    hint: "above the winding's peak at the highest mains, which no rail can \
+                           pass: check the meter's range, the probe point and the file's \
+                           transformer",
+                });
+            }
+        }
+        Ok(())
+    }
+}
+
 /// Diagnoses `supply` from `readings`: expectations, ranked faults, a verdict.
 pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, ReadingError> {
-    readings.check(supply.mains.hz)?;
+    readings.check_against(supply)?;
     let solve_err = |e: circuit::CircuitError| ReadingError::Solve(e.to_string());
     let base = Conditions {
         mains_vrms: readings.mains_vrms,
