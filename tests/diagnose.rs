@@ -370,7 +370,12 @@ fn the_trades_bench_supply_is_judged_healthy_as_the_practitioner_judged_it() {
         ..Readings::default()
     };
     let d = diagnose(&bare, &r).unwrap();
-    assert_eq!(d.hypotheses[0].fault, Fault::Healthy, "{:?}", d.hypotheses[0]);
+    assert_eq!(
+        d.hypotheses[0].fault,
+        Fault::Healthy,
+        "{:?}",
+        d.hypotheses[0]
+    );
     // No window is of zero width: what the file leaves out is a range.
     let dc = d.expectations.iter().find(|e| e.reading == "dc_v").unwrap();
     assert!(dc.max - dc.min > 0.02 * dc.nominal, "{dc:?}");
@@ -383,7 +388,12 @@ fn the_trades_bench_supply_is_judged_healthy_as_the_practitioner_judged_it() {
         ..Readings::default()
     };
     let d = diagnose(&filtered, &r).unwrap();
-    assert_eq!(d.hypotheses[0].fault, Fault::Healthy, "{:?}", d.hypotheses[0]);
+    assert_eq!(
+        d.hypotheses[0].fault,
+        Fault::Healthy,
+        "{:?}",
+        d.hypotheses[0]
+    );
     // With the ripple as well: a capacitor at the low end of its tolerance is a fair
     // suspicion, not a fault (railcheck says: suspect, capacitance-low first, about 30 uF).
     let r = Readings {

@@ -78,6 +78,12 @@ pub enum CircuitError {
     /// constants are named, since those are what make a circuit hard to settle.
     #[error("{why}; the values that set its time constants: {values}")]
     Refused { why: SolveError, values: String },
+    /// The worst case gave up within its own budget over the whole tolerance box.
+    #[error(
+        "the worst case spent its {evaluations} circuit evaluations (about 0.7 s) over the \
+         tolerance box without finishing; the values that set its time constants: {values}"
+    )]
+    WorstCaseRefused { evaluations: usize, values: String },
 }
 
 /// A rectifier's input knee for a constant-current load with no regulator: an electronic
@@ -374,6 +380,15 @@ pub fn solve(supply: &Supply, cond: &Conditions) -> Result<Operating, CircuitErr
         waveform,
         steady,
     })
+}
+
+/// The supply's fields behind each time constant of its network at nominal, in words, for a
+/// refusal that must name them.
+pub fn time_constant_words(supply: &Supply) -> String {
+    match network(supply, &Conditions::default()) {
+        Ok(net) => time_constants(supply, &net),
+        Err(e) => e.to_string(),
+    }
 }
 
 /// The supply's fields behind each time constant of its network, with the time constant and

@@ -271,15 +271,18 @@ fn misfit(readings: &Readings, f: &Figures, cond: &Conditions, supply: &Supply) 
         }
         let p = predicted(f, k, cond, supply);
         if k == "ripple_hz" {
-            // A frequency is one or the other: a wrong one weighs as a gross misfit.
-            if (p - v).abs() > 0.1 * v {
-                chi2 += 50.0;
-            }
+            chi2 += frequency_misfit(v, p);
             continue;
         }
         chi2 += ((v - p) / sigma(k, v, p)).powi(2);
     }
     chi2
+}
+
+/// A ripple frequency is one harmonic or another: a reading `v` hertz away from the predicted
+/// `p` by more than 10 % weighs as a gross misfit (50 in chi-square).
+fn frequency_misfit(v: f64, p: f64) -> f64 {
+    if (p - v).abs() > 0.1 * v { 50.0 } else { 0.0 }
 }
 
 /// The uncertainty a reading `k` of `v` is judged with against a prediction `p`: the meter's,
@@ -491,6 +494,11 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
     // nominal.
     let nuisance = nuisance::Nuisance::new(supply, &tbox, &base).map_err(solve_err)?;
     let healthy_chi2 = mains_term + nuisance.misfit(readings, &nominal, &base, supply, &[]);
+    // A fault's circuit under `cond`, judged with the nuisance free but for what it sets.
+    let judged = |fault: Fault, cond: Conditions| match circuit::solve(supply, &cond) {
+        Ok(op) => mains_term + nuisance.misfit(readings, &op.figures, &cond, supply, fault.holds()),
+        Err(_) => f64::INFINITY,
+    };
     let mains_known = readings.mains_vrms.is_some();
     let full_wave = supply.rectifier.topology != Topology::HalfWave;
     let filtered = supply.filter.kind != FilterKind::None;
@@ -546,20 +554,7 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             _ => match search_range(fault, supply, mains_known) {
                 Some((lo, hi)) if lo < hi => {
                     let (x, chi2) = fit(lo, hi, |x| {
-                        let cond = conditions(fault, x, &base, supply);
-                        match circuit::solve(supply, &cond) {
-                            Ok(op) => {
-                                mains_term
-                                    + nuisance.misfit(
-                                        readings,
-                                        &op.figures,
-                                        &cond,
-                                        supply,
-                                        fault.holds(),
-                                    )
-                            }
-                            Err(_) => f64::INFINITY,
-                        }
+                        judged(fault, conditions(fault, x, &base, supply))
                     });
                     (Some(estimate_of(fault, x, supply, &base)), chi2)
                 }
@@ -583,21 +578,7 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
                             nuisance.misfit(readings, &op.figures, &base, supply, fault.holds()),
                         )
                     } else {
-                        let cond = conditions(fault, 1.0, &base, supply);
-                        let chi2 = match circuit::solve(supply, &cond) {
-                            Ok(op) => {
-                                mains_term
-                                    + nuisance.misfit(
-                                        readings,
-                                        &op.figures,
-                                        &cond,
-                                        supply,
-                                        fault.holds(),
-                                    )
-                            }
-                            Err(_) => f64::INFINITY,
-                        };
-                        (None, chi2)
+                        (None, judged(fault, conditions(fault, 1.0, &base, supply)))
                     }
                 }
             },

@@ -11,7 +11,7 @@
 //! change (the same proportion under a fault as in health: the rail scales with the mains
 //! whatever the capacitor does).
 
-use super::{Readings, predicted, sigma};
+use super::{Readings, frequency_misfit, predicted, sigma};
 use crate::analysis::worst_case::{AxisKind, ToleranceBox};
 use crate::circuit::{self, CircuitError, Conditions, Figures};
 use crate::supply::Supply;
@@ -108,10 +108,7 @@ impl Nuisance {
             }
             let p = predicted(figures, k, cond, supply);
             if k == "ripple_hz" {
-                // A frequency is one or the other: a wrong one weighs as a gross misfit.
-                if (p - v).abs() > 0.1 * v {
-                    fixed += 50.0;
-                }
+                fixed += frequency_misfit(v, p);
                 continue;
             }
             let s = sigma(k, v, p);

@@ -893,7 +893,9 @@ impl App {
         let readings = visit.readings;
         // Readings the unit cannot show (a typed "2k" for the mains) are refused before they
         // become a record, whether or not there is a rail reading to diagnose.
-        readings.check_against(&o.saved).map_err(|e| e.to_string())?;
+        readings
+            .check_against(&o.saved)
+            .map_err(|e| e.to_string())?;
         o.last_diagnosis = None;
         if !readings.present().iter().all(|(k, _)| *k == "mains_vrms") {
             let d = crate::diagnose::diagnose(&o.saved, &readings).map_err(|e| e.to_string())?;
