@@ -669,6 +669,7 @@ fn run_log(supply: &Supply, json: bool) -> Result<ExitCode> {
     if let Some(c) = &trend.crossing {
         let range = match (&c.earliest, &c.latest) {
             (Some(a), Some(b)) => format!(" (between {a} and {b})"),
+            (Some(a), None) => format!(" (from {a}; how late is not yet clear)"),
             _ => String::new(),
         };
         if c.already {

@@ -152,6 +152,7 @@ impl Report {
             out.push_str("  split rail: figures are the + rail; the - rail mirrors it\n");
         }
         if let Ok(w) = s.winding()
+            && w.source == crate::supply::WindingSource::Nameplate
             && let Some(r) = w.assumed_regulation_pct
         {
             out.push_str(&format!(
@@ -163,6 +164,10 @@ impl Report {
             "  tolerances: {}\n",
             self.worst.tolerances.join("; ")
         ));
+        // What the file leaves out is a range, not an ideal value: each said as assumed.
+        for a in &self.worst.assumed {
+            out.push_str(&format!("  assumed: {}\n", printable(&a.why)));
+        }
         out.push('\n');
         // Corners are long in words: the table names them by letter, the legend spells them.
         let mut legend: Vec<String> = Vec::new();
@@ -287,6 +292,7 @@ impl Report {
             "hand_estimate": self.hand,
             "hand_differences": self.differences,
             "tolerances": self.worst.tolerances,
+            "assumed": self.worst.assumed,
             "worst_case": worst,
             "checks": self.checks,
             "not_rated": self.not_rated,

@@ -153,8 +153,21 @@ pub struct Mains {
     #[serde(default = "ten")]
     pub high_pct: f64,
     /// Peak over RMS of the mains wave; below sqrt 2 when other rectifier loads flatten the tops.
-    #[serde(default = "sqrt2")]
-    pub crest: f64,
+    /// Left out, it is taken as a sine (sqrt 2) with flattened tops down to
+    /// [`ASSUMED_CREST_LOW`] allowed for in the worst case and the diagnosis.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub crest: Option<f64>,
+}
+
+/// The flattest mains crest assumed when the file states none: building mains flattened by the
+/// rectifier loads on the same line read 1.34-1.40 peak over RMS (practice).
+pub const ASSUMED_CREST_LOW: f64 = 1.34;
+
+impl Mains {
+    /// The crest factor the nominal uses: the stated one, or a sine's sqrt 2.
+    pub fn crest(&self) -> f64 {
+        self.crest.unwrap_or(std::f64::consts::SQRT_2)
+    }
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -385,9 +398,6 @@ fn ten() -> f64 {
 fn twenty() -> f64 {
     20.0
 }
-fn sqrt2() -> f64 {
-    std::f64::consts::SQRT_2
-}
 fn silicon() -> DiodeSpec {
     DiodeSpec::Preset("silicon".into())
 }
@@ -404,6 +414,50 @@ pub struct WindingModel {
     pub primary_ohms: f64,
     /// Regulation assumed from the rating when the nameplate gave none, percent.
     pub assumed_regulation_pct: Option<f64>,
+    /// Where the resistance comes from, and the range the worst case and the diagnosis allow
+    /// it.
+    pub source: WindingSource,
+}
+
+/// Where a winding's resistance comes from.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum WindingSource {
+    /// Measured (cold, with an ohmmeter) and written in the file.
+    Measured,
+    /// Worked out from the nameplate's regulation and VA rating.
+    Nameplate,
+    /// Not stated: sized for the load (see [`Supply::assumed_winding`]).
+    Assumed {
+        /// The rating the transformer is taken to have, volt-amperes.
+        rated_va: f64,
+        /// The resistance range allowed, whole secondary, ohms.
+        low_ohms: f64,
+        high_ohms: f64,
+    },
+}
+
+/// Copper's resistance rises 0.39 %/degC (memory of the handbook value); a winding in service
+/// runs 20-40 degC above the cold ohmmeter reading (practice): up to 15.6 % more.
+pub const WARM_WINDING_FACTOR: f64 = 1.0 + 0.0039 * 40.0;
+
+/// The regulation of small transformers, 5-25 % (practice), the range assumed for a winding
+/// whose resistance the file leaves out.
+pub const ASSUMED_REGULATION_PCT: (f64, f64) = (5.0, 25.0);
+
+/// A transformer may be up to this many times larger than its load needs (a bench or
+/// general-purpose unit on a light load), which the low end of an assumed winding allows.
+pub const ASSUMED_OVERSIZE: f64 = 4.0;
+
+/// Volt-amperes a transformer needs per watt of DC it feeds through a capacitor-input filter:
+/// the charging pulses raise the winding's RMS current well above the DC (practice: about 1.8
+/// for a bridge; a center tap's halves and a half-wave winding carry pulses less of the time,
+/// which costs more).
+fn va_per_dc_watt(topology: Topology) -> f64 {
+    match topology {
+        Topology::Bridge | Topology::SplitRail => 1.8,
+        Topology::CenterTap => 2.3,
+        Topology::HalfWave | Topology::Doubler => 3.0,
+    }
 }
 
 /// Field practice for small transformers with no regulation figure on the plate: the smaller
@@ -839,7 +893,9 @@ impl Supply {
         MAINS_HZ.check(m.hz)?;
         MAINS_LOW_PCT.check(m.low_pct)?;
         MAINS_HIGH_PCT.check(m.high_pct)?;
-        MAINS_CREST.check(m.crest)?;
+        if let Some(c) = m.crest {
+            MAINS_CREST.check(c)?;
+        }
         self.winding()?;
         if let Some(p) = self.transformer.ratio_pct {
             RATIO_PCT.check(p)?;
@@ -1037,11 +1093,17 @@ impl Supply {
         PRIMARY_OHMS.check(primary_ohms)?;
         if let Some(ratio) = t.ratio {
             RATIO.check(ratio)?;
-            return Ok(WindingModel {
-                ratio,
-                secondary_ohms,
-                primary_ohms,
-                assumed_regulation_pct: None,
+            let measured = t.secondary_ohms.is_some() || t.primary_ohms.is_some();
+            return Ok(if measured {
+                WindingModel {
+                    ratio,
+                    secondary_ohms,
+                    primary_ohms,
+                    assumed_regulation_pct: None,
+                    source: WindingSource::Measured,
+                }
+            } else {
+                self.assumed_winding(ratio, None)
             });
         }
         let missing = |key| SupplyError::Missing {
@@ -1086,17 +1148,70 @@ impl Supply {
             ));
         }
         let measured = t.secondary_ohms.is_some() || t.primary_ohms.is_some();
-        let secondary_ohms = match (measured, t.rated_va) {
-            (true, _) => secondary_ohms,
-            (false, Some(va)) => secondary * secondary * regulation / 100.0 / va,
-            (false, None) => 0.0,
-        };
-        Ok(WindingModel {
-            ratio,
-            secondary_ohms,
-            primary_ohms,
-            assumed_regulation_pct: assumed,
+        Ok(match (measured, t.rated_va) {
+            (true, _) => WindingModel {
+                ratio,
+                secondary_ohms,
+                primary_ohms,
+                assumed_regulation_pct: assumed,
+                source: WindingSource::Measured,
+            },
+            (false, Some(va)) => WindingModel {
+                ratio,
+                secondary_ohms: secondary * secondary * regulation / 100.0 / va,
+                primary_ohms,
+                assumed_regulation_pct: assumed,
+                source: WindingSource::Nameplate,
+            },
+            (false, None) => self.assumed_winding(ratio, Some(regulation)),
         })
+    }
+
+    /// The winding of a transformer whose resistance the file leaves out, taken as sized for
+    /// its load: the DC power the load draws (its current, or the rail's paper estimate over
+    /// its resistance) times the volt-amperes a capacitor-input filter needs per watt, at
+    /// least 1 VA. Copper loss as regulation: R = regulation x V^2 / VA on the whole
+    /// secondary. The range runs from 5 % regulation on a transformer four times larger to
+    /// 25 % on one just large enough (practice); the nominal is the nameplate's regulation on
+    /// a transformer that size when given, otherwise the range's middle on a log scale, ohms.
+    pub fn assumed_winding(&self, ratio: f64, regulation_pct: Option<f64>) -> WindingModel {
+        let secondary_v = self.mains.vrms / ratio;
+        let topology = self.rectifier.topology;
+        let (share, diodes) = match topology {
+            Topology::HalfWave => (1.0, 1.0),
+            Topology::CenterTap | Topology::SplitRail => (0.5, 1.0),
+            Topology::Bridge => (1.0, 2.0),
+            Topology::Doubler => (2.0, 2.0),
+        };
+        // A rough rail: the peak less about 0.8 V a silicon diode (practice).
+        let rail_v = (share * secondary_v * std::f64::consts::SQRT_2 - 0.8 * diodes).max(0.1);
+        let amps = match (&self.regulator, self.load.amps, self.load.ohms) {
+            (_, Some(a), _) => a,
+            (Some(reg), None, Some(r)) => reg.output_v / r,
+            (None, None, Some(r)) => rail_v / r,
+            _ => 0.0,
+        };
+        let rated_va = (va_per_dc_watt(topology) * rail_v * amps).max(1.0);
+        let ohms = |reg_pct: f64, va: f64| reg_pct / 100.0 * secondary_v * secondary_v / va;
+        let low_ohms = ohms(ASSUMED_REGULATION_PCT.0, ASSUMED_OVERSIZE * rated_va);
+        let high_ohms = ohms(ASSUMED_REGULATION_PCT.1, rated_va);
+        // With no more to go on, the middle of the range on a log scale: neither the tight
+        // large unit nor the soft small one.
+        let nominal = match regulation_pct {
+            Some(r) => ohms(r, rated_va).clamp(low_ohms, high_ohms),
+            None => (low_ohms * high_ohms).sqrt(),
+        };
+        WindingModel {
+            ratio,
+            secondary_ohms: nominal,
+            primary_ohms: 0.0,
+            assumed_regulation_pct: regulation_pct,
+            source: WindingSource::Assumed {
+                rated_va,
+                low_ohms,
+                high_ohms,
+            },
+        }
     }
 
     /// The diode law parameters after presets are resolved.

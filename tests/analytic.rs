@@ -4,7 +4,8 @@
 use railcheck::{Conditions, Supply, solve};
 use std::f64::consts::{PI, SQRT_2};
 
-/// A supply with an ideal diode, no winding resistance: `vrms` on the (whole) secondary.
+/// A supply with an ideal diode and an ideal winding (its resistance stated as zero: a file
+/// that leaves it out has one assumed): `vrms` on the (whole) secondary.
 fn ideal(topology: &str, filter: &str, load: &str) -> Supply {
     let text = format!(
         r#"
@@ -15,6 +16,7 @@ vrms = 100.0
 hz = 50.0
 [transformer]
 ratio = 1.0
+secondary_ohms = 0.0
 [rectifier]
 topology = "{topology}"
 diode = "ideal"

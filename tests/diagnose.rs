@@ -296,3 +296,138 @@ fn the_trend_projects_when_the_capacitor_reaches_its_limit() {
         "the old capacitor was drying out"
     );
 }
+
+fn days(date: &str) -> i64 {
+    let p: Vec<i64> = date.split('-').map(|x| x.parse().unwrap()).collect();
+    railcheck::visit::days_from_civil(p[0], p[1], p[2])
+}
+
+#[test]
+fn the_crossing_range_is_as_wide_as_the_meters_and_the_scatter_make_it() {
+    // Three visits over four years of the demo dosing controller (invented readings). A
+    // scope's ripple reading is good to about 5 % (common practice), so each visit's implied
+    // capacitance is good to about 5 % and three of them cannot date the crossing to the week:
+    // the earlier trend gave eight days.
+    let s = Supply::from_toml_str(&railcheck::library::demo::supplies()[1].1).unwrap();
+    let t = railcheck::diagnose::trend::trend(&s);
+    let c = t.crossing.clone().unwrap();
+    let (a, b) = (c.earliest.clone().unwrap(), c.latest.clone().unwrap());
+    let span = days(&b) - days(&a);
+    assert!(span >= 90, "{a} .. {b}: {span} days");
+    assert!(a <= c.date && c.date <= b, "{a} {} {b}", c.date);
+    // More scatter, a wider range: the middle visit's ripple read 12 % higher.
+    let mut scattered = s.clone();
+    let r = scattered.visits[1].readings.ripple_pp_v.unwrap();
+    scattered.visits[1].readings.ripple_pp_v = Some(r * 1.12);
+    let t2 = railcheck::diagnose::trend::trend(&scattered);
+    let c2 = t2.crossing.unwrap();
+    let span2 = match (&c2.earliest, &c2.latest) {
+        (Some(a), Some(b)) => days(b) - days(a),
+        // Too unclear to bound: wider than any bounded range.
+        (Some(_), None) => i64::MAX,
+        _ => panic!("no earliest date"),
+    };
+    assert!(span2 > span, "{span2} days with scatter, {span} without");
+}
+
+#[test]
+fn the_crossing_is_never_dated_before_the_first_visit() {
+    // A unit first seen long after its capacitor dried past the limit: the line projects the
+    // crossing years before the first visit, which no visit can tell; the dates start at it.
+    let mut s = Supply::from_toml_str(&railcheck::library::demo::supplies()[1].1).unwrap();
+    for v in s.visits.iter_mut() {
+        v.readings.ripple_pp_v = v.readings.ripple_pp_v.map(|r| r * 2.2);
+        v.readings.dc_v = v.readings.dc_v.map(|d| d * 0.96);
+    }
+    let t = railcheck::diagnose::trend::trend(&s);
+    let c = t.crossing.unwrap();
+    assert!(c.already);
+    let first = s.visits.iter().map(|v| v.date_text()).min().unwrap();
+    assert!(c.date >= first, "{} before {first}", c.date);
+    assert!(c.earliest.unwrap() >= first);
+}
+
+/// The trade's bench supply as a technician writes it: what the plate and the bench give, no
+/// winding resistance and no crest, which were not known.
+fn bench_supply(filter: &str) -> Supply {
+    Supply::from_toml_str(&format!(
+        "format = 1\nname = \"bench\"\n[mains]\nvrms = 80.0\nhz = 60.0\n[transformer]\n\
+         ratio = 4.85\n[rectifier]\ntopology = \"center-tap\"\ndiode = \"silicon\"\n\
+         [filter]\n{filter}\n[load]\nohms = 680.0\n"
+    ))
+    .unwrap()
+}
+
+#[test]
+fn the_trades_bench_supply_is_judged_healthy_as_the_practitioner_judged_it() {
+    // Fact of the trade (common practice): a working center-tapped supply, 80 V rms 60 Hz,
+    // 4.85:1 to the whole secondary, silicon diodes, 680 ohm, read 6.69 V DC with no filter
+    // capacitor and 9.62 V DC with 47 uF, ripple about 2.8 V p-p at 120 Hz; a good circuit.
+    let bare = bench_supply("kind = \"none\"");
+    let r = Readings {
+        mains_vrms: Some(80.0),
+        dc_v: Some(6.69),
+        ..Readings::default()
+    };
+    let d = diagnose(&bare, &r).unwrap();
+    assert_eq!(
+        d.hypotheses[0].fault,
+        Fault::Healthy,
+        "{:?}",
+        d.hypotheses[0]
+    );
+    // No window is of zero width: what the file leaves out is a range.
+    let dc = d.expectations.iter().find(|e| e.reading == "dc_v").unwrap();
+    assert!(dc.max - dc.min > 0.02 * dc.nominal, "{dc:?}");
+    assert_eq!(dc.status, "within");
+
+    let filtered = bench_supply("kind = \"capacitor\"\nuf = 47.0");
+    let r = Readings {
+        mains_vrms: Some(80.0),
+        dc_v: Some(9.62),
+        ..Readings::default()
+    };
+    let d = diagnose(&filtered, &r).unwrap();
+    assert_eq!(
+        d.hypotheses[0].fault,
+        Fault::Healthy,
+        "{:?}",
+        d.hypotheses[0]
+    );
+    // With the ripple as well: a capacitor at the low end of its tolerance is a fair
+    // suspicion, not a fault (railcheck says: suspect, capacitance-low first, about 30 uF).
+    let r = Readings {
+        ripple_pp_v: Some(2.8),
+        ..r
+    };
+    let d = diagnose(&filtered, &r).unwrap();
+    assert_ne!(d.verdict, "fault", "{:?}", d.hypotheses[0]);
+}
+
+#[test]
+fn readings_the_unit_cannot_show_are_refused_as_likely_typos() {
+    let s = supply("examples/pump-house-relay-rail.toml");
+    // A typed "2k" for 230 V mains.
+    let r = Readings {
+        mains_vrms: Some(2000.0),
+        dc_v: Some(27.0),
+        ..Readings::default()
+    };
+    let e = diagnose(&s, &r).unwrap_err().to_string();
+    assert!(e.contains("mains_vrms 2000") && e.contains("typo"), "{e}");
+    // A DC above the winding's peak at the highest mains (230 V + 10 %, ratio 9.58, bridge:
+    // 253 sqrt 2 / 9.58 = 37.3 V, less nothing): no rectifier rail can pass it.
+    let r = Readings {
+        dc_v: Some(45.0),
+        ..Readings::default()
+    };
+    let e = diagnose(&s, &r).unwrap_err().to_string();
+    assert!(e.contains("dc_v 45"), "{e}");
+    // Readings inside what the unit can show are diagnosed.
+    let r = Readings {
+        mains_vrms: Some(226.0),
+        dc_v: Some(27.4),
+        ..Readings::default()
+    };
+    assert!(diagnose(&s, &r).is_ok());
+}

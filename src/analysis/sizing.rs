@@ -103,7 +103,27 @@ pub fn size(supply: &Supply, target: Target) -> Result<Vec<Sized>, SizingError> 
     let evaluate = |uf: f64| -> Result<(bool, Sized), SizingError> {
         let mut s = supply.clone();
         s.filter.uf = Some(uf);
-        let wc = worst_case(&s)?;
+        let wc = match worst_case(&s) {
+            Ok(wc) => wc,
+            // A value the solver cannot settle within its budget (a tiny first capacitor
+            // behind a large second one is stiff) is not one to recommend: it does not meet
+            // the target, and the search goes on among the larger values.
+            Err(CircuitError::Refused { .. } | CircuitError::WorstCaseRefused { .. }) => {
+                return Ok((
+                    false,
+                    Sized {
+                        series: "",
+                        uf,
+                        worst_ripple_pp_v: f64::INFINITY,
+                        worst_valley_v: f64::NEG_INFINITY,
+                        worst_peak_v: 0.0,
+                        rated_v: None,
+                        ripple_a: 0.0,
+                    },
+                ));
+            }
+            Err(e) => return Err(e.into()),
+        };
         let ripple = wc.extent("ripple_pp_v").map_or(f64::INFINITY, |e| e.max);
         let valley = wc.extent("min_v").map_or(0.0, |e| e.min);
         let ripple_a = wc.extent("cap_ripple_rms_a").map_or(0.0, |e| e.max);

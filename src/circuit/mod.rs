@@ -36,6 +36,10 @@ pub struct Conditions {
     pub leg_open: bool,
     /// The filter capacitor open or missing.
     pub capacitor_open: bool,
+    /// Multiplies both windings' resistances (a warm winding, or an assumed one's range).
+    pub winding_factor: f64,
+    /// The mains crest factor instead of the file's (peak over RMS).
+    pub crest: Option<f64>,
 }
 
 impl Default for Conditions {
@@ -50,6 +54,8 @@ impl Default for Conditions {
             load: None,
             leg_open: false,
             capacitor_open: false,
+            winding_factor: 1.0,
+            crest: None,
         }
     }
 }
@@ -72,6 +78,12 @@ pub enum CircuitError {
     /// constants are named, since those are what make a circuit hard to settle.
     #[error("{why}; the values that set its time constants: {values}")]
     Refused { why: SolveError, values: String },
+    /// The worst case gave up within its own budget over the whole tolerance box.
+    #[error(
+        "the worst case spent its {evaluations} circuit evaluations (about 0.7 s) over the \
+         tolerance box without finishing; the values that set its time constants: {values}"
+    )]
+    WorstCaseRefused { evaluations: usize, values: String },
 }
 
 /// A rectifier's input knee for a constant-current load with no regulator: an electronic
@@ -85,6 +97,11 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
     let mains = cond.mains_vrms.unwrap_or(supply.mains.vrms) * cond.mains_factor;
     let ratio = winding.ratio * cond.ratio_factor;
     let emf_rms_v = mains / ratio;
+    let winding = crate::supply::WindingModel {
+        secondary_ohms: winding.secondary_ohms * cond.winding_factor,
+        primary_ohms: winding.primary_ohms * cond.winding_factor,
+        ..winding
+    };
     let whole = winding.secondary_ohms + winding.primary_ohms / (ratio * ratio);
     let half = 0.5 * winding.secondary_ohms;
     let topology = supply.rectifier.topology;
@@ -185,7 +202,7 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         paths
     };
     Ok(Network {
-        wave: MainsWave::with_crest(supply.mains.crest),
+        wave: MainsWave::with_crest(cond.crest.unwrap_or(supply.mains.crest())),
         emf_rms_v,
         line_hz: supply.mains.hz,
         paths,
@@ -365,6 +382,15 @@ pub fn solve(supply: &Supply, cond: &Conditions) -> Result<Operating, CircuitErr
     })
 }
 
+/// The supply's fields behind each time constant of its network at nominal, in words, for a
+/// refusal that must name them.
+pub fn time_constant_words(supply: &Supply) -> String {
+    match network(supply, &Conditions::default()) {
+        Ok(net) => time_constants(supply, &net),
+        Err(e) => e.to_string(),
+    }
+}
+
 /// The supply's fields behind each time constant of its network, with the time constant and
 /// the period they are measured against, in words (seconds shown with SI prefixes).
 fn time_constants(supply: &Supply, net: &Network) -> String {
@@ -535,7 +561,7 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
         crate::supply::DiodeSpec::Fixed { drop_v, .. } => *drop_v,
         _ => 0.7,
     };
-    let secondary_peak = supply.mains.vrms / winding.ratio * supply.mains.crest;
+    let secondary_peak = supply.mains.vrms / winding.ratio * supply.mains.crest();
     let (share, diodes) = match topology {
         Topology::HalfWave | Topology::Doubler => (1.0, 1.0),
         Topology::CenterTap | Topology::SplitRail => (0.5, 1.0),
@@ -632,10 +658,10 @@ pub fn hand_differences(supply: &Supply, op: &Operating, hand: &HandEstimate) ->
             f.conduction_deg
         ));
     }
-    if (supply.mains.crest - std::f64::consts::SQRT_2).abs() > 0.002 {
+    if (supply.mains.crest() - std::f64::consts::SQRT_2).abs() > 0.002 {
         out.push(format!(
             "the mains peak is {:.3} x RMS (flat-topped), which both take into account",
-            supply.mains.crest
+            supply.mains.crest()
         ));
     }
     out

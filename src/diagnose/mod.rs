@@ -2,9 +2,10 @@
 //! fault that explains the readings best, each fault a changed circuit solved by the engine
 //! with at most one free parameter fitted to the readings.
 
+mod nuisance;
 pub mod trend;
 
-use crate::analysis::worst_case::{ToleranceBox, worst_case_in};
+use crate::analysis::worst_case::{AxisKind, ToleranceBox, worst_case_in};
 use crate::circuit::{self, Conditions, Figures, LoadOverride};
 use crate::supply::{FilterKind, Supply, Topology};
 use serde::Serialize;
@@ -50,6 +51,17 @@ pub enum ReadingError {
         "give at least one reading of the rail: --dc, --ripple-pp, --ripple-rms or --ripple-hz"
     )]
     Nothing,
+    #[error(
+        "{reading} {value} is outside what this unit can show ({low} .. {high}): {hint}; \
+         nothing was diagnosed or saved"
+    )]
+    Implausible {
+        reading: &'static str,
+        value: f64,
+        low: String,
+        high: String,
+        hint: &'static str,
+    },
     #[error("{0}")]
     Solve(String),
 }
@@ -165,6 +177,22 @@ impl Fault {
         }
     }
 
+    /// The tolerance axes this fault sets itself, which its fit holds at nominal: a shrunken
+    /// capacitor is not also at the low end of its tolerance.
+    fn holds(self) -> &'static [AxisKind] {
+        match self {
+            Fault::CapacitanceLow | Fault::CapacitorOpen => &[AxisKind::Capacitance],
+            Fault::MainsLow | Fault::MainsHigh => &[AxisKind::Mains],
+            Fault::LoadHeavy | Fault::LoadLight => &[AxisKind::LoadAmps, AxisKind::LoadOhms],
+            Fault::SecondaryLow => &[AxisKind::Ratio],
+            Fault::Healthy
+            | Fault::EsrHigh
+            | Fault::RectifierLegOpen
+            | Fault::RegulatorDropout
+            | Fault::NoOutput => &[],
+        }
+    }
+
     /// The check that would tell this fault from the others.
     pub fn next_check(self) -> &'static str {
         match self {
@@ -233,9 +261,8 @@ fn predicted(f: &Figures, reading: &str, cond: &Conditions, supply: &Supply) -> 
     }
 }
 
-/// Weighted squared misfit of the readings against a solved circuit. The model's own
-/// uncertainty (the other parts' tolerances) widens each reading's error: 2 % on volts and
-/// amps, 10 % on ripple, which keeps a healthy supply's spread from looking like a fault.
+/// Weighted squared misfit of the readings against a solved circuit, each reading with its
+/// [`sigma`].
 fn misfit(readings: &Readings, f: &Figures, cond: &Conditions, supply: &Supply) -> f64 {
     let mut chi2 = 0.0;
     for (k, v) in readings.present() {
@@ -244,21 +271,31 @@ fn misfit(readings: &Readings, f: &Figures, cond: &Conditions, supply: &Supply) 
         }
         let p = predicted(f, k, cond, supply);
         if k == "ripple_hz" {
-            // A frequency is one or the other: a wrong one weighs as a gross misfit.
-            if (p - v).abs() > 0.1 * v {
-                chi2 += 50.0;
-            }
+            chi2 += frequency_misfit(v, p);
             continue;
         }
-        let model_share = match k {
-            "ripple_pp_v" | "ripple_rms_v" => 0.10,
-            _ => 0.02,
-        };
-        let sigma = (meter_uncertainty(k, v).powi(2) + (model_share * p.abs()).powi(2)).sqrt();
-        let sigma = sigma.max(1e-3);
-        chi2 += ((v - p) / sigma).powi(2);
+        chi2 += ((v - p) / sigma(k, v, p)).powi(2);
     }
     chi2
+}
+
+/// A ripple frequency is one harmonic or another: a reading `v` hertz away from the predicted
+/// `p` by more than 10 % weighs as a gross misfit (50 in chi-square).
+fn frequency_misfit(v: f64, p: f64) -> f64 {
+    if (p - v).abs() > 0.1 * v { 50.0 } else { 0.0 }
+}
+
+/// The uncertainty a reading `k` of `v` is judged with against a prediction `p`: the meter's,
+/// and a share of the prediction for what the model leaves out (2 % on volts and amps, 10 %
+/// on ripple, whose shape the winding's leakage and the mains' harmonics change).
+fn sigma(k: &str, v: f64, p: f64) -> f64 {
+    let model_share = match k {
+        "ripple_pp_v" | "ripple_rms_v" => 0.10,
+        _ => 0.02,
+    };
+    (meter_uncertainty(k, v).powi(2) + (model_share * p.abs()).powi(2))
+        .sqrt()
+        .max(1e-3)
 }
 
 /// The conditions a fault sets at parameter `x` (a factor, or ohms for ESR).
@@ -360,9 +397,59 @@ fn fit(lo: f64, hi: f64, mut cost: impl FnMut(f64) -> f64) -> (f64, f64) {
 /// this is its cost in chi-square units (a prior that a given part has failed).
 const FAULT_PRIOR: f64 = 4.0;
 
+impl Readings {
+    /// Refuses readings that this unit cannot show, as likely typos or a wrong meter range:
+    /// a mains reading outside half to one and a half times the nominal (a typed "2k" is
+    /// 2000 V), or a DC above the winding's own peak at the highest mains (no rectifier rail
+    /// rises above the peak it is charged from, whatever its parts), volts.
+    pub fn check_against(&self, supply: &Supply) -> Result<(), ReadingError> {
+        self.check(supply.mains.hz)?;
+        let nominal = supply.mains.vrms;
+        if let Some(m) = self.mains_vrms
+            && !(0.5 * nominal..=1.5 * nominal).contains(&m)
+        {
+            return Err(ReadingError::Implausible {
+                reading: "mains_vrms",
+                value: m,
+                low: format!("{:.0} V", 0.5 * nominal),
+                high: format!("{:.0} V", 1.5 * nominal),
+                hint: "more likely a typo or the meter's range than the mains (a typed \"2k\" \
+                       is 2000 V)",
+            });
+        }
+        if let (Some(dc), Ok(w)) = (self.dc_v, supply.winding()) {
+            let share = match supply.rectifier.topology {
+                Topology::HalfWave | Topology::Bridge => 1.0,
+                Topology::CenterTap | Topology::SplitRail => 0.5,
+                Topology::Doubler => 2.0,
+            };
+            let highest_mains = self
+                .mains_vrms
+                .map_or(nominal * (1.0 + supply.mains.high_pct / 100.0), |m| {
+                    m + meter_uncertainty("mains_vrms", m)
+                });
+            // A sine's crest, the flattest tops only lower it.
+            let peak = highest_mains / w.ratio * std::f64::consts::SQRT_2 * share;
+            let high = peak + meter_uncertainty("dc_v", peak);
+            if dc > high {
+                return Err(ReadingError::Implausible {
+                    reading: "dc_v",
+                    value: dc,
+                    low: "0 V".into(),
+                    high: format!("{high:.3} V"),
+                    hint: "above the winding's peak at the highest mains, which no rail can \
+                           pass: check the meter's range, the probe point and the file's \
+                           transformer",
+                });
+            }
+        }
+        Ok(())
+    }
+}
+
 /// Diagnoses `supply` from `readings`: expectations, ranked faults, a verdict.
 pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, ReadingError> {
-    readings.check(supply.mains.hz)?;
+    readings.check_against(supply)?;
     let solve_err = |e: circuit::CircuitError| ReadingError::Solve(e.to_string());
     let base = Conditions {
         mains_vrms: readings.mains_vrms,
@@ -372,20 +459,19 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
     // tolerances remain).
     let mut tbox = ToleranceBox::of(supply);
     if readings.mains_vrms.is_some() {
-        tbox.axes
-            .retain(|a| a.kind != crate::analysis::worst_case::AxisKind::Mains);
+        tbox.axes.retain(|a| a.kind != AxisKind::Mains);
     }
     let wc = worst_case_in(supply, &tbox, &base).map_err(solve_err)?;
     let nominal = circuit::solve(supply, &base).map_err(solve_err)?.figures;
     let mut expectations = Vec::new();
-    let mut healthy_chi2 = 0.0;
+    // The mains reading against the supply's stated tolerance: its own term in every
+    // hypothesis's misfit.
+    let mut mains_term = 0.0;
     for (k, v) in readings.present() {
         if k == "mains_vrms" {
-            // The mains reading is checked against the supply's stated tolerance.
             let lo = supply.mains.vrms * (1.0 - supply.mains.low_pct / 100.0);
             let hi = supply.mains.vrms * (1.0 + supply.mains.high_pct / 100.0);
             expectations.push(window(k, v, supply.mains.vrms, lo, hi));
-            let u = meter_uncertainty(k, v);
             let out = if v < lo {
                 lo - v
             } else if v > hi {
@@ -393,7 +479,7 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             } else {
                 0.0
             };
-            healthy_chi2 += (out / u).powi(2);
+            mains_term += (out / meter_uncertainty(k, v)).powi(2);
             continue;
         }
         let name = match k {
@@ -403,22 +489,16 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
         let Some(e) = wc.extent(name) else { continue };
         let nom = predicted(&nominal, k, &base, supply);
         expectations.push(window(k, v, nom, e.min, e.max));
-        if k == "ripple_hz" {
-            if v < e.min * 0.9 || v > e.max * 1.1 {
-                healthy_chi2 += 50.0;
-            }
-            continue;
-        }
-        let u = meter_uncertainty(k, v);
-        let out = if v < e.min {
-            e.min - v
-        } else if v > e.max {
-            v - e.max
-        } else {
-            0.0
-        };
-        healthy_chi2 += (out / u).powi(2);
     }
+    // The healthy unit at its best within the stated and assumed tolerances, rather than at
+    // nominal.
+    let nuisance = nuisance::Nuisance::new(supply, &tbox, &base).map_err(solve_err)?;
+    let healthy_chi2 = mains_term + nuisance.misfit(readings, &nominal, &base, supply, &[]);
+    // A fault's circuit under `cond`, judged with the nuisance free but for what it sets.
+    let judged = |fault: Fault, cond: Conditions| match circuit::solve(supply, &cond) {
+        Ok(op) => mains_term + nuisance.misfit(readings, &op.figures, &cond, supply, fault.holds()),
+        Err(_) => f64::INFINITY,
+    };
     let mains_known = readings.mains_vrms.is_some();
     let full_wave = supply.rectifier.topology != Topology::HalfWave;
     let filtered = supply.filter.kind != FilterKind::None;
@@ -474,11 +554,7 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             _ => match search_range(fault, supply, mains_known) {
                 Some((lo, hi)) if lo < hi => {
                     let (x, chi2) = fit(lo, hi, |x| {
-                        let cond = conditions(fault, x, &base, supply);
-                        match circuit::solve(supply, &cond) {
-                            Ok(op) => misfit(readings, &op.figures, &cond, supply),
-                            Err(_) => f64::INFINITY,
-                        }
+                        judged(fault, conditions(fault, x, &base, supply))
                     });
                     (Some(estimate_of(fault, x, supply, &base)), chi2)
                 }
@@ -499,15 +575,10 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
                         let op = circuit::solve(supply, &base).map_err(solve_err)?;
                         (
                             Some(("vrms", v)),
-                            misfit(readings, &op.figures, &base, supply),
+                            nuisance.misfit(readings, &op.figures, &base, supply, fault.holds()),
                         )
                     } else {
-                        let cond = conditions(fault, 1.0, &base, supply);
-                        let chi2 = match circuit::solve(supply, &cond) {
-                            Ok(op) => misfit(readings, &op.figures, &cond, supply),
-                            Err(_) => f64::INFINITY,
-                        };
-                        (None, chi2)
+                        (None, judged(fault, conditions(fault, 1.0, &base, supply)))
                     }
                 }
             },

@@ -1,7 +1,7 @@
 //! The drift across a supply's visits: the capacitance each visit's readings imply, a straight
 //! line through them, and the date it crosses the supply's limit, with its uncertainty.
 
-use super::{Readings, misfit};
+use super::{Readings, meter_uncertainty, misfit, predicted};
 use crate::analysis::worst_case::worst_case;
 use crate::circuit::{self, Conditions, Figures};
 use crate::supply::{FilterKind, Supply};
@@ -22,7 +22,9 @@ pub struct Crossing {
     pub date: String,
     /// Whether that date is already past the last visit: the part is below its limit now.
     pub already: bool,
-    /// The same with the slope one standard error steeper and shallower (three visits or more).
+    /// The earliest and latest dates of the 90 % band from the meters' uncertainty and the
+    /// visits' scatter: never before the first visit; no latest while the drift is too
+    /// unclear to bound it.
     pub earliest: Option<String>,
     pub latest: Option<String>,
 }
@@ -187,6 +189,55 @@ impl<'a> CapacitanceFit<'a> {
     /// The capacitance, microfarads, that best explains `readings` (which must be read at a
     /// mains these tables cover), or None without a DC or ripple reading or a stated one.
     pub fn uf(&self, readings: &Readings) -> Option<f64> {
+        self.estimate(readings).map(|e| e.uf)
+    }
+
+    /// As [`CapacitanceFit::uf`], with the spread the meters alone put on it (microfarads,
+    /// one standard deviation): from how sharply the readings' misfit, weighed by the meters'
+    /// uncertainty only, rises either side of the estimate (a change of one in chi-square is
+    /// one standard deviation). The other parts' tolerances are left out: on one unit they
+    /// are the same at every visit, so they do not scatter a trend.
+    pub fn estimate(&self, readings: &Readings) -> Option<Estimate> {
+        let uf = self.fit(readings)?;
+        let mains = readings.mains_vrms.unwrap_or(self.supply.mains.vrms);
+        let cond = Conditions {
+            mains_vrms: readings.mains_vrms,
+            ..Conditions::default()
+        };
+        let meters_only = |u: f64| -> f64 {
+            let Some(f) = self.figures(mains, u) else {
+                return f64::NAN;
+            };
+            ["dc_v", "ripple_pp_v", "ripple_rms_v"]
+                .into_iter()
+                .filter_map(|k| {
+                    let v = match k {
+                        "dc_v" => readings.dc_v,
+                        "ripple_pp_v" => readings.ripple_pp_v,
+                        _ => readings.ripple_rms_v,
+                    }?;
+                    let p = predicted(&f, k, &cond, self.supply);
+                    Some(((v - p) / meter_uncertainty(k, v).max(1e-6)).powi(2))
+                })
+                .sum()
+        };
+        let u = (uf / self.supply.filter.uf?).ln();
+        let h = 0.02;
+        let curvature = (meters_only(u + h) - 2.0 * meters_only(u) + meters_only(u - h)) / (h * h);
+        // A reading that hardly moves with capacitance (DC alone on a stiff rail) pins it to
+        // no better than a factor of e either way.
+        let sigma_u = if curvature.is_finite() && curvature > 0.0 {
+            (2.0 / curvature).sqrt().min(1.0)
+        } else {
+            1.0
+        };
+        Some(Estimate {
+            uf,
+            sigma_uf: uf * sigma_u,
+        })
+    }
+
+    fn fit(&self, readings: &Readings) -> Option<f64> {
         let uf = self.supply.filter.uf?;
         if readings.ripple_pp_v.is_none()
             && readings.ripple_rms_v.is_none()
@@ -239,6 +290,13 @@ impl<'a> CapacitanceFit<'a> {
     }
 }
 
+/// One visit's implied capacitance and the spread its meters put on it, microfarads.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Estimate {
+    pub uf: f64,
+    pub sigma_uf: f64,
+}
+
 /// The capacitance that best explains one visit's readings (microfarads).
 pub fn capacitance_from(supply: &Supply, readings: &Readings) -> Option<f64> {
     CapacitanceFit::new(supply, [readings.mains_vrms]).uf(readings)
@@ -286,30 +344,121 @@ pub fn limit_uf(supply: &Supply) -> (f64, String) {
     )
 }
 
-/// A least-squares line through (day, microfarads) points: its slope and the mean point it
-/// passes through, with the spread of the days for the slope's standard error.
+/// A weighted least-squares line through (day, microfarads, spread) points: its slope, the
+/// weighted mean point it passes through, the total weight and the weighted spread of the days,
+/// and the scale on the points' spreads that their scatter about the line asks for.
 struct LineFit {
     slope: f64,
     mean_x: f64,
     mean_y: f64,
+    weight: f64,
     sxx: f64,
+    /// Reduced chi-square of the residuals, None for two points.
+    reduced_chi2: Option<f64>,
+    /// Degrees of freedom of the residuals (n - 2).
+    dof: f64,
 }
 
-fn line_fit(xy: &[(f64, f64)]) -> Option<LineFit> {
-    if xy.len() < 2 {
+fn line_fit(points: &[(f64, f64, f64)]) -> Option<LineFit> {
+    if points.len() < 2 {
         return None;
     }
-    let n = xy.len() as f64;
-    let mean_x = xy.iter().map(|p| p.0).sum::<f64>() / n;
-    let mean_y = xy.iter().map(|p| p.1).sum::<f64>() / n;
-    let sxx: f64 = xy.iter().map(|p| (p.0 - mean_x).powi(2)).sum();
-    let sxy: f64 = xy.iter().map(|p| (p.0 - mean_x) * (p.1 - mean_y)).sum();
-    (sxx > 0.0).then(|| LineFit {
-        slope: sxy / sxx,
+    let w = |p: &(f64, f64, f64)| 1.0 / p.2.max(1e-9).powi(2);
+    let weight: f64 = points.iter().map(w).sum();
+    let mean_x = points.iter().map(|p| w(p) * p.0).sum::<f64>() / weight;
+    let mean_y = points.iter().map(|p| w(p) * p.1).sum::<f64>() / weight;
+    let sxx: f64 = points.iter().map(|p| w(p) * (p.0 - mean_x).powi(2)).sum();
+    let sxy: f64 = points
+        .iter()
+        .map(|p| w(p) * (p.0 - mean_x) * (p.1 - mean_y))
+        .sum();
+    if sxx <= 0.0 {
+        return None;
+    }
+    let slope = sxy / sxx;
+    let dof = points.len() as f64 - 2.0;
+    let reduced_chi2 = (dof > 0.0).then(|| {
+        points
+            .iter()
+            .map(|p| w(p) * (p.1 - mean_y - slope * (p.0 - mean_x)).powi(2))
+            .sum::<f64>()
+            / dof
+    });
+    Some(LineFit {
+        slope,
         mean_x,
         mean_y,
+        weight,
         sxx,
+        reduced_chi2,
+        dof,
     })
+}
+
+/// The one-sided 95 % point of Student's t with `dof` degrees of freedom (two-sided 90 %),
+/// from the standard tables (values from memory of the tables).
+fn t_95(dof: f64) -> f64 {
+    const TABLE: [(f64, f64); 12] = [
+        (1.0, 6.314),
+        (2.0, 2.920),
+        (3.0, 2.353),
+        (4.0, 2.132),
+        (5.0, 2.015),
+        (6.0, 1.943),
+        (8.0, 1.860),
+        (10.0, 1.812),
+        (15.0, 1.753),
+        (20.0, 1.725),
+        (30.0, 1.697),
+        (120.0, 1.658),
+    ];
+    TABLE
+        .iter()
+        .find(|(d, _)| dof <= *d)
+        .map_or(1.645, |(_, t)| *t)
+}
+
+/// Where a falling line's 90 % band holds the limit, in days: the earliest and (when the drift
+/// is clear enough to bound it) the latest day the line may cross `limit`, never before
+/// `first_day`.
+fn crossing_band(fit: &LineFit, limit: f64, first_day: f64) -> (f64, Option<f64>) {
+    // The points' own spreads, scaled up (never down) by their scatter about the line; with
+    // the scatter setting the scale, Student's t for the few points there are.
+    let (scale, k) = match fit.reduced_chi2 {
+        Some(r) if r > 1.0 => (r, t_95(fit.dof)),
+        _ => (1.0, 1.645),
+    };
+    let q = k * k * scale;
+    // (A + b d)^2 = q (1/W + d^2/Sxx), with d the day from the mean day: where the band's edge
+    // meets the limit.
+    let a = fit.mean_y - limit;
+    let b = fit.slope;
+    let a2 = b * b - q / fit.sxx;
+    let half_b = a * b;
+    let c = a * a - q / fit.weight;
+    let centre = -a / b;
+    let disc = half_b * half_b - a2 * c;
+    let (earliest, latest) = if disc < 0.0 {
+        (f64::NEG_INFINITY, None)
+    } else {
+        let r = disc.sqrt();
+        let (d1, d2) = {
+            let x = (-half_b - r) / a2;
+            let y = (-half_b + r) / a2;
+            (x.min(y), x.max(y))
+        };
+        if a2 > 0.0 {
+            // A clear drift: the crossing lies between the two.
+            (d1, Some(d2))
+        } else if centre >= d2 {
+            // The drift is not clear enough to say how late.
+            (d2, None)
+        } else {
+            (f64::NEG_INFINITY, Some(d1))
+        }
+    };
+    let to_day = |d: f64| (fit.mean_x + d).max(first_day);
+    (to_day(earliest), latest.map(to_day))
 }
 
 /// The trend of `supply`'s visits.
@@ -337,21 +486,21 @@ pub fn trend(supply: &Supply) -> Trend {
                 .then_some(r)
         })
         .collect();
-    let fit = CapacitanceFit::new(supply, usable.iter().flatten().map(|r| r.mains_vrms));
+    let tables = CapacitanceFit::new(supply, usable.iter().flatten().map(|r| r.mains_vrms));
     let mut points = Vec::new();
     let mut xy = Vec::new();
     let mut old_xy = Vec::new();
     for (i, (v, r)) in visits.iter().zip(&usable).enumerate() {
-        let uf = r.as_ref().and_then(|r| fit.uf(r));
-        if let (Some(u), Some(d)) = (uf, v.days()) {
+        let estimate = r.as_ref().and_then(|r| tables.estimate(r));
+        if let (Some(e), Some(d)) = (estimate, v.days()) {
             match replaced_at {
-                Some(r) if i <= r => old_xy.push((d as f64, u)),
-                _ => xy.push((d as f64, u)),
+                Some(r) if i <= r => old_xy.push((d as f64, e.uf, e.sigma_uf)),
+                _ => xy.push((d as f64, e.uf, e.sigma_uf)),
             }
         }
         points.push(TrendPoint {
             date: v.date_text(),
-            uf,
+            uf: estimate.map(|e| e.uf),
         });
     }
     let mut out = Trend {
@@ -374,63 +523,34 @@ pub fn trend(supply: &Supply) -> Trend {
         }
         return out;
     }
-    let Some(LineFit {
-        slope,
-        mean_x: mx,
-        mean_y: my,
-        sxx,
-    }) = line_fit(&xy)
-    else {
+    let Some(fit) = line_fit(&xy) else {
         out.note = "the visits share one date: no trend".into();
         return out;
     };
-    let n = xy.len() as f64;
-    let intercept = my - slope * mx;
-    out.uf_per_year = Some(slope * 365.25);
-    let se = if xy.len() >= 3 {
-        let resid: f64 = xy
-            .iter()
-            .map(|p| (p.1 - intercept - slope * p.0).powi(2))
-            .sum();
-        Some((resid / (n - 2.0) / sxx).sqrt())
+    out.uf_per_year = Some(fit.slope * 365.25);
+    if fit.slope < 0.0 {
+        // The line through the weighted mean point.
+        let day = fit.mean_x + (limit_uf - fit.mean_y) / fit.slope;
+        let first_day = xy.iter().map(|p| p.0).fold(f64::INFINITY, f64::min);
+        let last_day = xy.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
+        let (earliest, latest) = crossing_band(&fit, limit_uf, first_day);
+        let date = |d: f64| civil_from_days(d.round() as i64);
+        out.crossing = Some(Crossing {
+            date: date(day.max(first_day)),
+            already: day <= last_day,
+            earliest: Some(date(earliest)),
+            latest: latest.map(date),
+        });
+        out.note = match latest {
+            Some(_) => "range: 90 % band from the meters' uncertainty and the visits' scatter",
+            None => {
+                "range: 90 % band from the meters' uncertainty and the visits' scatter; \
+                 the drift is not yet clear enough to say how late"
+            }
+        }
+        .into();
     } else {
-        None
-    };
-    let cross = |s: f64| -> Option<i64> {
-        if s >= 0.0 {
-            return None;
-        }
-        // The line through the mean point with slope s.
-        Some((mx + (limit_uf - my) / s).round() as i64)
-    };
-    match cross(slope) {
-        Some(day) => {
-            let (earliest, latest) = match se {
-                Some(se) => (
-                    cross(slope - se).map(civil_from_days),
-                    cross(slope + se).map(civil_from_days),
-                ),
-                None => (None, None),
-            };
-            // Whichever way the line's spread falls, the earlier date comes first.
-            let (earliest, latest) = match (earliest, latest) {
-                (Some(a), Some(b)) if a > b => (Some(b), Some(a)),
-                pair => pair,
-            };
-            let last_day = xy.iter().map(|p| p.0).fold(f64::NEG_INFINITY, f64::max);
-            out.crossing = Some(Crossing {
-                date: civil_from_days(day),
-                already: (day as f64) <= last_day,
-                earliest,
-                latest,
-            });
-            out.note = if se.is_none() {
-                "two visits: no uncertainty on the date".into()
-            } else {
-                "range: slope plus or minus one standard error".into()
-            };
-        }
-        None => out.note = "no downward drift: no crossing projected".into(),
+        out.note = "no downward drift: no crossing projected".into();
     }
     out
 }

@@ -891,6 +891,11 @@ impl App {
         // The verdict on these readings goes with the visit; readings that cannot be true
         // are refused with the reason, so they can be corrected before saving.
         let readings = visit.readings;
+        // Readings the unit cannot show (a typed "2k" for the mains) are refused before they
+        // become a record, whether or not there is a rail reading to diagnose.
+        readings
+            .check_against(&o.saved)
+            .map_err(|e| e.to_string())?;
         o.last_diagnosis = None;
         if !readings.present().iter().all(|(k, _)| *k == "mains_vrms") {
             let d = crate::diagnose::diagnose(&o.saved, &readings).map_err(|e| e.to_string())?;

@@ -188,7 +188,10 @@ impl Key {
             Key::MainsHz => num(Some(s.mains.hz)),
             Key::MainsLowPct => num(Some(s.mains.low_pct)),
             Key::MainsHighPct => num(Some(s.mains.high_pct)),
-            Key::Crest => format!("{:.3}", s.mains.crest),
+            Key::Crest => match s.mains.crest {
+                Some(c) => format!("{c:.3}"),
+                None => "-".into(),
+            },
             Key::Ratio => match s.winding() {
                 Ok(w) if s.transformer.ratio.is_none() => format!("{:.3} (nameplate)", w.ratio),
                 _ => num(s.transformer.ratio),
@@ -242,7 +245,7 @@ impl Key {
             Key::MainsHz => out.mains.hz = value()?,
             Key::MainsLowPct => out.mains.low_pct = value()?,
             Key::MainsHighPct => out.mains.high_pct = value()?,
-            Key::Crest => out.mains.crest = value()?,
+            Key::Crest => out.mains.crest = Some(value()?),
             Key::Ratio => {
                 out.transformer.ratio = Some(value()?);
                 out.transformer.primary_vrms = None;

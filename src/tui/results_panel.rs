@@ -137,6 +137,7 @@ impl Widget for &ResultsPanel<'_> {
                         c.date,
                         match (&c.earliest, &c.latest) {
                             (Some(a), Some(b)) => format!(" ({a}..{b})"),
+                            (Some(a), None) => format!(" ({a}.., no later bound)"),
                             _ => String::new(),
                         }
                     ),

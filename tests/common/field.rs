@@ -1,0 +1,304 @@
+//! The simulated field population of issue 10: real units whose circuits differ from their
+//! files as real units do (tests/reference/field_population.csv, written with ngspice by
+//! tests/reference/field_population.py), each unit's readings diagnosed against its supply's
+//! file, once with the winding resistance stated and once without it, and counted as false
+//! alarms (healthy units not ranked healthy) and detections (faulted units ranked as their
+//! fault). One piece of code for `examples/field_population.rs` (which includes this file by
+//! path) and for any test that declares `mod common;` with a `common/mod.rs` naming `field`.
+// A test may use only part of this module.
+#![allow(dead_code)]
+
+use railcheck::diagnose::{Readings, diagnose};
+use railcheck::supply::Supply;
+use std::collections::{BTreeMap, HashMap};
+
+/// The population's readings and true parameters, one row per unit.
+pub const CSV_PATH: &str = concat!(
+    env!("CARGO_MANIFEST_DIR"),
+    "/tests/reference/field_population.csv"
+);
+/// The supplies' files: `NAME.toml` (winding resistance stated) and `NAME-unstated.toml`.
+pub const FIELD_DIR: &str = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/reference/field");
+
+/// Which of a supply's two files a unit is judged against.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Variant {
+    /// `secondary_ohms` and `primary_ohms` as measured cold.
+    Stated,
+    /// The same file without them (railcheck takes 0 ohm).
+    Unstated,
+}
+
+impl Variant {
+    pub const BOTH: [Variant; 2] = [Variant::Stated, Variant::Unstated];
+
+    /// Words for a report's heading.
+    pub fn label(self) -> &'static str {
+        match self {
+            Variant::Stated => "winding resistance stated",
+            Variant::Unstated => "winding resistance left out",
+        }
+    }
+
+    /// The file of `supply` for this variant, e.g. `br_lv-unstated.toml`.
+    pub fn file_name(self, supply: &str) -> String {
+        match self {
+            Variant::Stated => format!("{supply}.toml"),
+            Variant::Unstated => format!("{supply}-unstated.toml"),
+        }
+    }
+}
+
+/// One simulated unit: what it really is and what the meters read.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FieldUnit {
+    pub unit: String,
+    /// The base supply's file name without `.toml` or `-unstated`.
+    pub supply: String,
+    /// `healthy` or the fault's key (`capacitance-low`, `esr-high`, ...).
+    pub condition: String,
+    pub crest: f64,
+    pub winding_factor: f64,
+    pub leakage_h: f64,
+    pub cap_factor: f64,
+    pub cap2_factor: Option<f64>,
+    pub load_factor: f64,
+    pub is_factor: f64,
+    pub true_mains_vrms: f64,
+    /// The fault's factor (capacitance, load, mains) or ESR in ohms; None without one.
+    pub fault_param: Option<f64>,
+    /// Mains, DC, ripple peak to peak and ripple frequency as read (volts, hertz).
+    pub readings: Readings,
+}
+
+/// Parses the population's CSV: `#` comment lines, a header, one row per unit.
+pub fn parse(text: &str) -> Result<Vec<FieldUnit>, String> {
+    let mut lines = text
+        .lines()
+        .enumerate()
+        .filter(|(_, l)| !l.trim().is_empty() && !l.starts_with('#'));
+    let (_, header) = lines.next().ok_or("the CSV has no header line")?;
+    let columns: Vec<&str> = header.split(',').map(str::trim).collect();
+    let mut units = Vec::new();
+    for (i, line) in lines {
+        let line_no = i + 1;
+        let cells: Vec<&str> = line.split(',').map(str::trim).collect();
+        if cells.len() != columns.len() {
+            return Err(format!(
+                "line {line_no}: {} cells, the header has {}",
+                cells.len(),
+                columns.len()
+            ));
+        }
+        let row: HashMap<&str, &str> = columns.iter().copied().zip(cells).collect();
+        let text_of = |key: &str| -> Result<String, String> {
+            row.get(key)
+                .map(|s| s.to_string())
+                .ok_or_else(|| format!("line {line_no}: no column `{key}`"))
+        };
+        let maybe = |key: &str| -> Result<Option<f64>, String> {
+            let cell = row
+                .get(key)
+                .ok_or_else(|| format!("line {line_no}: no column `{key}`"))?;
+            if cell.is_empty() {
+                return Ok(None);
+            }
+            cell.parse::<f64>()
+                .map(Some)
+                .map_err(|_| format!("line {line_no}: `{key}` is not a number (got {cell:?})"))
+        };
+        let number = |key: &str| -> Result<f64, String> {
+            maybe(key)?.ok_or_else(|| format!("line {line_no}: `{key}` is empty"))
+        };
+        units.push(FieldUnit {
+            unit: text_of("unit")?,
+            supply: text_of("supply")?,
+            condition: text_of("condition")?,
+            crest: number("crest")?,
+            winding_factor: number("winding_factor")?,
+            leakage_h: number("leakage_h")?,
+            cap_factor: number("cap_factor")?,
+            cap2_factor: maybe("cap2_factor")?,
+            load_factor: number("load_factor")?,
+            is_factor: number("is_factor")?,
+            true_mains_vrms: number("true_mains_vrms")?,
+            fault_param: maybe("fault_param")?,
+            readings: Readings {
+                mains_vrms: maybe("mains_vrms")?,
+                dc_v: Some(number("dc_v")?),
+                ripple_pp_v: Some(number("ripple_pp_v")?),
+                ripple_hz: Some(number("ripple_hz")?),
+                ..Readings::default()
+            },
+        });
+    }
+    Ok(units)
+}
+
+/// The stored population (tests/reference/field_population.csv).
+pub fn population() -> Result<Vec<FieldUnit>, String> {
+    let text = std::fs::read_to_string(CSV_PATH).map_err(|e| format!("reading {CSV_PATH}: {e}"))?;
+    parse(&text)
+}
+
+/// The file of `supply` in `variant`, parsed.
+pub fn load_supply(supply: &str, variant: Variant) -> Result<Supply, String> {
+    let path = format!("{FIELD_DIR}/{}", variant.file_name(supply));
+    let text = std::fs::read_to_string(&path).map_err(|e| format!("reading {path}: {e}"))?;
+    Supply::from_toml_str(&text).map_err(|e| format!("{path}: {e}"))
+}
+
+/// One unit's diagnosis, reduced to what the counts need.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Outcome {
+    pub unit: String,
+    pub supply: String,
+    /// The unit's true condition.
+    pub truth: String,
+    /// The top hypothesis' fault key, or `refused: REASON` when the readings were refused.
+    pub top: String,
+    /// The top hypothesis' score (0 when refused).
+    pub score: f64,
+    /// The engine's verdict: healthy, suspect or fault (empty when refused).
+    pub verdict: String,
+}
+
+impl Outcome {
+    /// Whether the top hypothesis is the unit's true condition.
+    pub fn right(&self) -> bool {
+        self.top == self.truth
+    }
+}
+
+/// Every unit's outcome against one variant of the files.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Tally {
+    pub variant: Variant,
+    pub outcomes: Vec<Outcome>,
+}
+
+impl Tally {
+    /// (healthy units whose top hypothesis is not healthy, healthy units).
+    pub fn false_alarms(&self) -> (usize, usize) {
+        let healthy: Vec<_> = self
+            .outcomes
+            .iter()
+            .filter(|o| o.truth == "healthy")
+            .collect();
+        let wrong = healthy.iter().filter(|o| !o.right()).count();
+        (wrong, healthy.len())
+    }
+
+    /// (faulted units whose top hypothesis is their fault, faulted units).
+    pub fn detected(&self) -> (usize, usize) {
+        let faulted: Vec<_> = self
+            .outcomes
+            .iter()
+            .filter(|o| o.truth != "healthy")
+            .collect();
+        let right = faulted.iter().filter(|o| o.right()).count();
+        (right, faulted.len())
+    }
+
+    /// For each true condition: (condition, ranked right, units), in key order.
+    pub fn by_condition(&self) -> Vec<(String, usize, usize)> {
+        Self::group(self.outcomes.iter().map(|o| (o.truth.clone(), o.right())))
+    }
+
+    /// For each supply: (supply, ranked right, units), in name order.
+    pub fn by_supply(&self) -> Vec<(String, usize, usize)> {
+        Self::group(self.outcomes.iter().map(|o| (o.supply.clone(), o.right())))
+    }
+
+    fn group(items: impl Iterator<Item = (String, bool)>) -> Vec<(String, usize, usize)> {
+        let mut map: BTreeMap<String, (usize, usize)> = BTreeMap::new();
+        for (key, right) in items {
+            let e = map.entry(key).or_default();
+            e.0 += usize::from(right);
+            e.1 += 1;
+        }
+        map.into_iter().map(|(k, (r, n))| (k, r, n)).collect()
+    }
+
+    /// The units whose top hypothesis is not their condition.
+    pub fn misses(&self) -> Vec<&Outcome> {
+        self.outcomes.iter().filter(|o| !o.right()).collect()
+    }
+}
+
+/// Diagnoses every unit against its supply's file in `variant` and keeps the top hypothesis.
+pub fn tally(units: &[FieldUnit], variant: Variant) -> Result<Tally, String> {
+    let mut supplies: HashMap<String, Supply> = HashMap::new();
+    let mut outcomes = Vec::with_capacity(units.len());
+    for u in units {
+        if !supplies.contains_key(&u.supply) {
+            supplies.insert(u.supply.clone(), load_supply(&u.supply, variant)?);
+        }
+        let supply = &supplies[&u.supply];
+        let (top, score, verdict) = match diagnose(supply, &u.readings) {
+            Ok(d) => {
+                let h = &d.hypotheses[0];
+                (h.fault.key().to_string(), h.score, d.verdict.to_string())
+            }
+            Err(e) => (format!("refused: {e}"), 0.0, String::new()),
+        };
+        outcomes.push(Outcome {
+            unit: u.unit.clone(),
+            supply: u.supply.clone(),
+            truth: u.condition.clone(),
+            top,
+            score,
+            verdict,
+        });
+    }
+    Ok(Tally { variant, outcomes })
+}
+
+fn pct(part: usize, whole: usize) -> f64 {
+    if whole == 0 {
+        0.0
+    } else {
+        100.0 * part as f64 / whole as f64
+    }
+}
+
+/// The tally as text: false alarms, detection, per condition and per supply, the misses.
+pub fn report(t: &Tally) -> String {
+    use std::fmt::Write;
+    let mut s = String::new();
+    let (fa, healthy) = t.false_alarms();
+    let (det, faulted) = t.detected();
+    let _ = writeln!(s, "== {} ==", t.variant.label());
+    let _ = writeln!(
+        s,
+        "false alarms: {fa}/{healthy} healthy units not ranked healthy ({:.0} %)",
+        pct(fa, healthy)
+    );
+    let _ = writeln!(
+        s,
+        "detection:    {det}/{faulted} faulted units ranked as their fault ({:.0} %)",
+        pct(det, faulted)
+    );
+    let _ = writeln!(s, "by condition (ranked right / units):");
+    for (k, r, n) in t.by_condition() {
+        let _ = writeln!(s, "  {k:<20} {r:>3}/{n:<3} ({:.0} %)", pct(r, n));
+    }
+    let _ = writeln!(s, "by supply (ranked right / units):");
+    for (k, r, n) in t.by_supply() {
+        let _ = writeln!(s, "  {k:<20} {r:>3}/{n:<3} ({:.0} %)", pct(r, n));
+    }
+    let misses = t.misses();
+    let _ = writeln!(
+        s,
+        "misses ({}): unit, truth -> top hypothesis (score, verdict)",
+        misses.len()
+    );
+    for o in misses {
+        let _ = writeln!(
+            s,
+            "  {:<14} {:<20} -> {} ({:.2}, {})",
+            o.unit, o.truth, o.top, o.score, o.verdict
+        );
+    }
+    s
+}

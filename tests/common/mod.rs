@@ -1,0 +1,2 @@
+//! Helpers shared by several test files.
+pub mod field;
