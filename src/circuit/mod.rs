@@ -80,8 +80,8 @@ pub enum CircuitError {
     Refused { why: SolveError, values: String },
     /// The worst case gave up within its own budget over the whole tolerance box.
     #[error(
-        "the worst case spent its {evaluations} circuit evaluations (about 0.7 s) over the \
-         tolerance box without finishing; the values that set its time constants: {values}"
+        "the worst case spent its {evaluations} circuit evaluations over the tolerance box \
+         without finishing; the values that set its time constants: {values}"
     )]
     WorstCaseRefused { evaluations: usize, values: String },
 }
