@@ -285,6 +285,13 @@ impl Widget for &ResultsPanel<'_> {
                 look.dim(),
             )));
         }
+        // What the file leaves out is a range the worst case includes: said as assumed.
+        for a in &solved.worst.assumed {
+            lines.push(Line::from(Span::styled(
+                format!("assumed: {}", a.why),
+                look.dim(),
+            )));
+        }
         let rest = Rect {
             y: table_area.y + table_height,
             height: inner.height.saturating_sub(table_height),
