@@ -41,9 +41,11 @@ fn winding_left_out_few_false_alarms_and_most_faults_found() {
     let ((fa, healthy), (found, faulted), misses) = figures(Variant::Unstated);
     println!("left out: false alarms {fa}/{healthy}, detected {found}/{faulted}\n{misses}");
     assert_eq!((healthy, faulted), (32, 64));
-    // Target at most 10 % (3 of 32); 6 of 32 now, against 27 of 32 when a winding left out
-    // was taken as ideal.
-    assert!(fa <= 6, "false alarms {fa}/{healthy}");
-    // Target 80 %; 41 of 64 (64 %) now, against 29 when a winding left out was ideal.
-    assert!(found >= 41, "detected {found}/{faulted}");
+    // Target met: at most 10 % false alarms (0 of 32 now, against 27 of 32 when a winding
+    // left out was taken as ideal).
+    assert!(fa * 10 <= healthy, "false alarms {fa}/{healthy}");
+    // Target 80 %; 39 of 64 (61 %) now, against 29 when a winding left out was ideal: with
+    // the winding's range as wide as a soft transformer's, a heavy load or a low mains is
+    // harder to tell from a healthy unit.
+    assert!(found >= 39, "detected {found}/{faulted}");
 }

@@ -660,14 +660,16 @@ fn winding_axis(w: &WindingModel) -> Axis {
             high_ohms,
         } => (
             low_ohms / w.secondary_ohms,
-            high_ohms / w.secondary_ohms,
+            high_ohms / w.secondary_ohms * leak,
             format!(
                 "winding resistance not stated: {}-{} ohm assumed for a transformer sized for \
-                 the load ({} VA, or up to {:.0} times that; regulation 5-25 %)",
+                 the load ({} VA, or up to {:.0} times that; regulation 5-25 %), and up to \
+                 {:.0} % more for leakage inductance, which is not modelled",
                 format_number(round3(low_ohms)),
                 format_number(round3(high_ohms)),
                 format_number(round3(rated_va)),
-                ASSUMED_OVERSIZE
+                ASSUMED_OVERSIZE,
+                LEAKAGE_ALLOWANCE * 100.0
             ),
         ),
     };
