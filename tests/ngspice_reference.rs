@@ -5,28 +5,10 @@
 //! Tolerances (the engine issue's acceptance figures): DC, min and max within 1 %; ripple
 //! peak-peak within 3 %; RMS currents within 4 %; peak diode current within 5 %.
 
+mod common;
 use railcheck::{Conditions, Supply, solve};
 use std::collections::BTreeMap;
 use std::path::Path;
-
-fn reference() -> Vec<(String, BTreeMap<String, f64>)> {
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference");
-    let text =
-        std::fs::read_to_string(dir.join("ngspice.csv")).expect("tests/reference/ngspice.csv");
-    let mut lines = text.lines().filter(|l| !l.starts_with('#'));
-    let header: Vec<&str> = lines.next().expect("a header").split(',').collect();
-    lines
-        .map(|line| {
-            let cells: Vec<&str> = line.split(',').collect();
-            let values = header[1..]
-                .iter()
-                .zip(&cells[1..])
-                .map(|(k, v)| (k.to_string(), v.parse::<f64>().expect("a number")))
-                .collect();
-            (cells[0].to_string(), values)
-        })
-        .collect()
-}
 
 fn engine(case: &str) -> railcheck::Figures {
     let path = Path::new(env!("CARGO_MANIFEST_DIR"))
@@ -41,7 +23,7 @@ fn engine(case: &str) -> railcheck::Figures {
 
 #[test]
 fn engine_matches_ngspice_across_the_matrix() {
-    let cases = reference();
+    let cases = common::reference_csv("ngspice.csv");
     assert!(cases.len() >= 20, "the matrix needs at least 20 supplies");
     // (figure, tolerance as a fraction, scale floor for figures that can be near zero)
     let checks: [(&str, f64); 11] = [

@@ -6,9 +6,9 @@
 //! (counted in circuit evaluations, never timed), and agree with ngspice
 //! (tests/reference/ngspice_stiff.csv, written by `generate.py --stiff` from Debian's ngspice).
 
+mod common;
 use railcheck::analysis::worst_case::{ToleranceBox, points, voltage_stress};
 use railcheck::{Conditions, Supply, report, solve};
-use std::collections::BTreeMap;
 use std::path::Path;
 
 const CASES: [&str; 2] = ["ct_crc_16hz_stiff", "sr_crc_500hz_stiff"];
@@ -60,29 +60,11 @@ fn stiff_supplies_report_in_bounded_work() {
     }
 }
 
-fn reference() -> Vec<(String, BTreeMap<String, f64>)> {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/ngspice_stiff.csv");
-    let text = std::fs::read_to_string(path).expect("tests/reference/ngspice_stiff.csv");
-    let mut lines = text.lines().filter(|l| !l.starts_with('#'));
-    let header: Vec<&str> = lines.next().expect("a header").split(',').collect();
-    lines
-        .map(|line| {
-            let cells: Vec<&str> = line.split(',').collect();
-            let values = header[1..]
-                .iter()
-                .zip(&cells[1..])
-                .map(|(k, v)| (k.to_string(), v.parse::<f64>().expect("a number")))
-                .collect();
-            (cells[0].to_string(), values)
-        })
-        .collect()
-}
-
 #[test]
 fn stiff_supplies_match_ngspice() {
     // Only the 500 Hz case is stored: ngspice did not finish 60 periods of the 16 Hz one (its
     // 1.5 us node holds its steps down) within 15 minutes on this machine.
-    let cases = reference();
+    let cases = common::reference_csv("ngspice_stiff.csv");
     assert!(!cases.is_empty());
     let mut compared = 0;
     for (case, want) in &cases {
