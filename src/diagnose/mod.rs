@@ -492,7 +492,7 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
     }
     // The healthy unit at its best within the stated and assumed tolerances, rather than at
     // nominal.
-    let nuisance = nuisance::Nuisance::new(supply, &tbox, &base).map_err(solve_err)?;
+    let nuisance = nuisance::Nuisance::new(supply, &tbox, &base, &nominal).map_err(solve_err)?;
     let healthy_chi2 = mains_term + nuisance.misfit(readings, &nominal, &base, supply, &[]);
     // A fault's circuit under `cond`, judged with the nuisance free but for what it sets.
     let judged = |fault: Fault, cond: Conditions| match circuit::solve(supply, &cond) {

@@ -42,18 +42,18 @@ pub(super) struct Nuisance {
 }
 
 impl Nuisance {
-    /// Solves `supply` once either side of the nominal on every axis of `tbox` (at a quarter
-    /// of the way to each end), over `base` (a measured mains, say).
+    /// Solves `supply` once either side of the nominal on every axis of `tbox` (half way to
+    /// each end), over `base` (a measured mains, say), whose solve is `nominal`.
     pub(super) fn new(
         supply: &Supply,
         tbox: &ToleranceBox,
         base: &Conditions,
+        nominal: &Figures,
     ) -> Result<Nuisance, CircuitError> {
-        let nominal = circuit::solve(supply, base)?.figures;
         let value = |cond: &Conditions, f: &Figures| -> [f64; MOVED.len()] {
             MOVED.map(|k| predicted(f, k, cond, supply))
         };
-        let at_nominal = value(base, &nominal);
+        let at_nominal = value(base, nominal);
         let mut axes = Vec::new();
         for a in &tbox.axes {
             let z_high = if a.high > a.nominal { 2.0 } else { 0.0 };
