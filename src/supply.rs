@@ -1080,6 +1080,26 @@ impl Supply {
         Ok(())
     }
 
+    /// Whether the filter has two capacitors a fault can tell apart: a CRC's pair, or a
+    /// doubler's stack (a split rail's two rails are measured one at a time, each with its own).
+    pub fn has_capacitor_pair(&self) -> bool {
+        self.filter.kind == FilterKind::Crc
+            || (self.filter.kind != FilterKind::None
+                && self.rectifier.topology == Topology::Doubler)
+    }
+
+    /// The capacitor a capacitor fault concerns, in a technician's words: the one the
+    /// rectifier charges.
+    pub fn reservoir_words(&self) -> &'static str {
+        if self.filter.kind == FilterKind::Crc {
+            "CRC's first capacitor"
+        } else if self.rectifier.topology == Topology::Doubler {
+            "one capacitor of the doubler's pair"
+        } else {
+            "filter capacitor"
+        }
+    }
+
     /// Turns the transformer section into a turns ratio and resistances (volts, ohms).
     ///
     /// Nameplate form: no-load secondary = `secondary_vrms * (1 + regulation_pct/100)`; without

@@ -33,7 +33,7 @@ fn winding_stated_few_false_alarms_and_most_faults_found() {
     // Target 90 %; 47 of 64 (73 %) now: capacitance-low and ESR-high are told apart only by
     // the ripple's shape, and the doubler's and CRC's one-capacitor faults have no fault
     // model of their own yet.
-    assert!(found >= 47, "detected {found}/{faulted}");
+    assert!(found >= 50, "detected {found}/{faulted}");
 }
 
 #[test]
@@ -47,5 +47,5 @@ fn winding_left_out_few_false_alarms_and_most_faults_found() {
     // Target 80 %; 39 of 64 (61 %) now, against 29 when a winding left out was ideal: with
     // the winding's range as wide as a soft transformer's, a heavy load or a low mains is
     // harder to tell from a healthy unit.
-    assert!(found >= 39, "detected {found}/{faulted}");
+    assert!(found >= 42, "detected {found}/{faulted}");
 }

@@ -77,3 +77,58 @@ fn engine_matches_ngspice_across_the_matrix() {
         failures.join("\n")
     );
 }
+
+/// One capacitor of two changed (a doubler's top one, a CRC's first), the other as drawn:
+/// ngspice ran each (tests/reference/ngspice_one_capacitor.csv, from `generate.py
+/// --one-capacitor`), the engine solves the same change through `Conditions`. The same
+/// tolerances as the matrix for the rail's figures, and the ripple's strongest harmonic alike.
+#[test]
+fn one_failed_capacitor_of_two_matches_ngspice() {
+    let cases = common::reference_csv("ngspice_one_capacitor.csv");
+    assert!(cases.len() >= 6);
+    let mut failures = Vec::new();
+    for (key, want) in &cases {
+        let (case, change) = key.split_once('/').expect("case/change=parameter");
+        let (what, x) = change.split_once('=').expect("change=parameter");
+        let x: f64 = x.parse().unwrap();
+        let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("tests/reference/supplies")
+            .join(format!("{case}.toml"));
+        let supply = Supply::from_toml_str(&std::fs::read_to_string(&path).unwrap()).unwrap();
+        let mut cond = Conditions::default();
+        match what {
+            "first_factor" => cond.reservoir_factor = x,
+            "first_esr" => cond.esr_ohms = Some(x),
+            "first_open" => cond.capacitor_open = true,
+            other => panic!("{key}: unknown change {other}"),
+        }
+        let got = serde_json::to_value(solve(&supply, &cond).unwrap().figures).unwrap();
+        for (figure, tol) in [
+            ("dc_v", 0.01),
+            ("min_v", 0.01),
+            ("max_v", 0.01),
+            ("ripple_pp_v", 0.03),
+            ("ripple_rms_v", 0.04),
+        ] {
+            let (g, w) = (got[figure].as_f64().unwrap(), want[figure]);
+            let err = (g - w).abs() / w.abs();
+            println!(
+                "{key} {figure}: engine {g:.5}, ngspice {w:.5} ({:.2} %)",
+                100.0 * err
+            );
+            if err > tol {
+                failures.push(format!("{key} {figure}: engine {g:.5}, ngspice {w:.5}"));
+            }
+        }
+        // The ngspice figure is a period's length measured on its time grid.
+        let (g, w) = (got["ripple_hz"].as_f64().unwrap(), want["ripple_hz"]);
+        if (g - w).abs() > 0.01 * w {
+            failures.push(format!("{key} ripple_hz: engine {g}, ngspice {w}"));
+        }
+    }
+    assert!(
+        failures.is_empty(),
+        "outside tolerance:\n{}",
+        failures.join("\n")
+    );
+}

@@ -22,9 +22,14 @@ pub struct Conditions {
     pub mains_vrms: Option<f64>,
     /// Multiplies the mains RMS (1.1 for +10 %).
     pub mains_factor: f64,
-    /// Multiplies every filter capacitance.
+    /// Multiplies every filter capacitance (their tolerance, or all of them ageing alike).
     pub cap_factor: f64,
-    /// ESR instead of the stated one, ohms.
+    /// Multiplies the reservoir capacitor's capacitance alone, on top of `cap_factor`: the
+    /// capacitor a fault concerns, which is the one the rectifier charges (a CRC's first, the
+    /// first of a doubler's pair; the others keep their value, as a real unit's do when one
+    /// part fails).
+    pub reservoir_factor: f64,
+    /// The reservoir capacitor's ESR instead of the stated one, ohms (the others keep theirs).
     pub esr_ohms: Option<f64>,
     /// Multiplies the turns ratio (above 1: a lower secondary).
     pub ratio_factor: f64,
@@ -34,7 +39,9 @@ pub struct Conditions {
     pub load: Option<LoadOverride>,
     /// One leg of a full-wave rectifier open (a diode or half a winding).
     pub leg_open: bool,
-    /// The filter capacitor open or missing.
+    /// The reservoir capacitor open or missing: a capacitor filter's only one, a CRC's first
+    /// (its resistor and second capacitor then filter alone), a doubler's whole stack (the
+    /// rail then follows one diode).
     pub capacitor_open: bool,
     /// Multiplies both windings' resistances (a warm winding, or an assumed one's range).
     pub winding_factor: f64,
@@ -48,6 +55,7 @@ impl Default for Conditions {
             mains_vrms: None,
             mains_factor: 1.0,
             cap_factor: 1.0,
+            reservoir_factor: 1.0,
             esr_ohms: None,
             ratio_factor: 1.0,
             drop_factor: 1.0,
@@ -165,28 +173,52 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         ),
     };
     let f = &supply.filter;
-    let esr = cond.esr_ohms.unwrap_or(f.esr_ohms);
-    let farads = f.uf.unwrap_or(0.0) * 1e-6 * cond.cap_factor;
-    let filtered = f.kind != FilterKind::None && !cond.capacitor_open;
-    let reservoirs = if filtered {
-        let count = if topology == Topology::Doubler { 2 } else { 1 };
-        vec![
-            Reservoir {
-                farads,
-                esr_ohms: esr,
-            };
-            count
-        ]
-    } else {
-        Vec::new()
+    let stated = Reservoir {
+        farads: f.uf.unwrap_or(0.0) * 1e-6 * cond.cap_factor,
+        esr_ohms: f.esr_ohms,
     };
-    let second = match (f.kind, f.series_ohms, f.second_uf) {
-        (FilterKind::Crc, Some(ohms), Some(uf)) if filtered => Some(SecondStage {
+    // The capacitor a fault concerns is the first the rectifier charges.
+    let faulted = Reservoir {
+        farads: stated.farads * cond.reservoir_factor,
+        esr_ohms: cond.esr_ohms.unwrap_or(f.esr_ohms),
+    };
+    let crc = match (f.kind, f.series_ohms, f.second_uf) {
+        (FilterKind::Crc, Some(ohms), Some(uf)) => Some(SecondStage {
             ohms,
             farads: uf * 1e-6 * cond.cap_factor,
         }),
         _ => None,
     };
+    let mut paths = paths;
+    let (reservoirs, second) = match (f.kind, crc) {
+        (FilterKind::None, _) => (Vec::new(), None),
+        // A CRC whose first capacitor is open: the rectifier charges the second one through
+        // the resistor, which is then simply more resistance in every charging path (nothing
+        // else hangs on the rectifier's side of it).
+        (_, Some(stage)) if cond.capacitor_open => {
+            for p in &mut paths {
+                p.ohms += stage.ohms;
+            }
+            (
+                vec![Reservoir {
+                    farads: stage.farads,
+                    esr_ohms: 0.0,
+                }],
+                None,
+            )
+        }
+        _ if cond.capacitor_open => (Vec::new(), None),
+        (_, stage) => {
+            let reservoirs = if topology == Topology::Doubler {
+                vec![faulted, stated]
+            } else {
+                vec![faulted]
+            };
+            (reservoirs, stage)
+        }
+    };
+    let filtered = !reservoirs.is_empty();
+    let farads = reservoirs.first().map_or(0.0, |r| r.farads);
     let load = load_law(supply, cond);
     // Zero source resistance makes conduction a constraint; a time constant of 1e-4 of the
     // period stands in for it, moving the figures by well under 1e-4 relative.

@@ -230,7 +230,8 @@ pub struct Hypothesis {
     pub fault: Fault,
     /// Share of belief, all hypotheses summing to 1.
     pub score: f64,
-    /// The fitted part value: {"uf" | "esr_ohms" | "vrms" | "ratio" | "load_a": value}.
+    /// The fitted part value: {"uf" (the reservoir capacitor) | "uf_each" (every filter
+    /// capacitor alike) | "esr_ohms" | "vrms" | "ratio" | "load_a": value}.
     pub estimate: Option<(&'static str, f64)>,
     pub why: String,
     pub next_check: &'static str,
@@ -302,7 +303,7 @@ fn sigma(k: &str, v: f64, p: f64) -> f64 {
 fn conditions(fault: Fault, x: f64, base: &Conditions, supply: &Supply) -> Conditions {
     let mut c = *base;
     match fault {
-        Fault::CapacitanceLow => c.cap_factor = x,
+        Fault::CapacitanceLow => c.reservoir_factor = x,
         Fault::EsrHigh => c.esr_ohms = Some(x),
         Fault::CapacitorOpen => c.capacitor_open = true,
         Fault::RectifierLegOpen => c.leg_open = true,
@@ -556,7 +557,27 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
                     let (x, chi2) = fit(lo, hi, |x| {
                         judged(fault, conditions(fault, x, &base, supply))
                     });
-                    (Some(estimate_of(fault, x, supply, &base)), chi2)
+                    let one = (Some(estimate_of(fault, x, supply, &base)), chi2);
+                    if fault == Fault::CapacitanceLow && supply.has_capacitor_pair() {
+                        // One capacitor of the pair failing, or both ageing together (they
+                        // share the heat and the years): whichever explains the readings.
+                        let (x, chi2) = fit(lo, hi, |x| {
+                            judged(
+                                fault,
+                                Conditions {
+                                    cap_factor: x,
+                                    ..base
+                                },
+                            )
+                        });
+                        if chi2 < one.1 {
+                            (Some(("uf_each", supply.filter.uf.unwrap_or(0.0) * x)), chi2)
+                        } else {
+                            one
+                        }
+                    } else {
+                        one
+                    }
                 }
                 Some(_) => continue,
                 None => {
@@ -704,15 +725,27 @@ fn reason(h: &Hypothesis, supply: &Supply, ex: &[Expectation]) -> String {
     };
     match (h.fault, h.estimate) {
         (Fault::Healthy, _) => format!("fits the supply within its tolerances: {off}"),
+        (Fault::CapacitanceLow, Some(("uf_each", uf))) => format!(
+            "the filter capacitors behave like about {:.0} uF each of their {:.0} uF ({off})",
+            uf,
+            supply.filter.uf.unwrap_or(0.0)
+        ),
         (Fault::CapacitanceLow, Some((_, uf))) => format!(
-            "the filter capacitor behaves like about {:.0} uF of its {:.0} uF ({off})",
+            "the {} behaves like about {:.0} uF of its {:.0} uF ({off})",
+            supply.reservoir_words(),
             uf,
             supply.filter.uf.unwrap_or(0.0)
         ),
         (Fault::EsrHigh, Some((_, r))) => format!(
-            "an ESR of about {r:.2} ohm (stated {:.2}) would explain it ({off})",
-            supply.filter.esr_ohms
+            "an ESR of about {r:.2} ohm (stated {:.2}) in the {} would explain it ({off})",
+            supply.filter.esr_ohms,
+            supply.reservoir_words()
         ),
+        (Fault::CapacitorOpen, _) if supply.filter.kind == FilterKind::Crc => {
+            format!(
+                "the rail looks filtered by the CRC's resistor and second capacitor alone ({off})"
+            )
+        }
         (Fault::CapacitorOpen, _) => format!("the rail looks unfiltered ({off})"),
         (Fault::RectifierLegOpen, _) => {
             format!("one leg missing: ripple at the line frequency, half the pulses ({off})")

@@ -176,12 +176,20 @@ def netlist(c, tstop, tstart, tmax, out_file, options=".options reltol=1e-4 meth
     elif top == "split-rail":
         lines += ["D1 a d1 DREF", "VD1 d1 out 0", "D2 b out DREF", "D3 neg a DREF",
                   "D4 neg b DREF"]
+    # One capacitor's fault (--one-capacitor): the first capacitor the rectifier charges (a
+    # CRC's first, a doubler's top one) at `first_factor` of its value, with `first_esr`, or
+    # removed (`first_open`); the other capacitors keep theirs.
+    uf1 = c["uf"] * c.get("first_factor", 1.0) if c["uf"] else None
+    esr1 = c.get("first_esr", c["esr"])
+    first_open = c.get("first_open", False)
     if c["kind"] != "none":
         if top == "doubler":
-            lines += ["VCS out out_s 0"] + cap("1", "out_s", c["uf"], c["esr"], "b")
+            lines += ["VCS out out_s 0"] + cap("1", "out_s", uf1, esr1, "b")
             lines += [f"R2 b b_c {max(c['esr'], 1e-6)}", f"C2 b_c 0 {c['uf']}u"]
+        elif first_open:
+            pass
         else:
-            lines += ["VCS out out_s 0"] + cap("1", "out_s", c["uf"], c["esr"])
+            lines += ["VCS out out_s 0"] + cap("1", "out_s", uf1, esr1)
             if top == "split-rail":
                 lines += cap("N", "neg", c["uf"], c["esr"])
         if c["kind"] == "crc":
@@ -206,9 +214,11 @@ def netlist(c, tstop, tstart, tmax, out_file, options=".options reltol=1e-4 meth
     if c["kind"] != "none":
         if top == "doubler":
             ic = [f"v(out)={2 * guess}", f"v(b)={guess}", f"v(out_s_c)={2 * guess}", f"v(b_c)={guess}"]
+        elif first_open:
+            ic = []
         else:
             ic = [f"v(out)={guess}", f"v(out_s)={guess}"]
-            if c["esr"] > 0:
+            if esr1 > 0:
                 ic.append(f"v(out_s_c)={guess}")
             if top == "split-rail":
                 ic += [f"v(neg)={-guess}"]
@@ -225,7 +235,7 @@ def netlist(c, tstop, tstart, tmax, out_file, options=".options reltol=1e-4 meth
     # Columns: rail, one diode's current, winding current, reverse voltage on that diode, and
     # the first capacitor's current when there is one.
     vectors = f"{probe_out} i(VD1) {wind} v(out)-v(a) v(a)-v(b)"
-    if c["kind"] != "none":
+    if c["kind"] != "none" and not first_open:
         vectors += " i(VCS)"
     lines += [options,
               f".tran {tmax} {tstop} {tstart} {tmax} uic",
@@ -435,6 +445,41 @@ def fault_rows(work):
     return rows
 
 
+# One capacitor of two failing (issue 10): the reservoir the rectifier charges changed, the
+# other capacitor as drawn. (base case, what, parameter); written to ngspice_one_capacitor.csv.
+ONE_CAPACITOR = [
+    ("dbl_cc_60", "first_factor", 0.4),
+    ("dbl_cc_60", "first_esr", 3.0),
+    ("crc_br_50", "first_factor", 0.3),
+    ("crc_br_50", "first_esr", 2.0),
+    ("crc_br_50", "first_open", True),
+    ("crc_ct_60", "first_open", True),
+]
+
+
+def one_capacitor_main(version):
+    by_name = {c["name"]: c for c in MATRIX}
+    rows = []
+    with tempfile.TemporaryDirectory() as work:
+        for name, what, x in ONE_CAPACITOR:
+            c = dict(by_name[name])
+            c[what] = x
+            c["name"] = f"{name}_{what}_{x}"
+            fig, drift, periods = run_case(c, work)
+            print(f"{c['name']}: dc {fig['dc_v']:.4f} V pp {fig['ripple_pp_v']:.4f} V "
+                  f"{fig['ripple_hz']} Hz, drift {drift:.1e}/period after {periods} periods",
+                  file=sys.stderr)
+            rows.append((name, what, x, fig))
+    with open(os.path.join(HERE, "ngspice_one_capacitor.csv"), "w") as fh:
+        fh.write(f"# {version}; written by tests/reference/generate.py --one-capacitor; "
+                 "one capacitor of two changed\n")
+        fh.write("case/change=parameter," + ",".join(COLUMNS) + ",ripple_hz\n")
+        for name, what, x, fig in rows:
+            cells = [f"{name}/{what}={'1' if x is True else x}"]
+            cells += [f"{fig[k]:.6g}" for k in COLUMNS] + [f"{fig['ripple_hz']:.6g}"]
+            fh.write(",".join(cells) + "\n")
+
+
 # Stiff supplies (issue 9): a CRC whose second capacitor's time constant is microseconds or
 # nanoseconds against the period. Their files are written by hand under tests/reference/stiff/
 # (the first in the nameplate form); the netlist takes the winding they imply: ratio =
@@ -491,6 +536,9 @@ def main():
                    "ngspice (unknown version)")
     if "--stiff" in sys.argv[1:]:
         stiff_main(version)
+        return
+    if "--one-capacitor" in sys.argv[1:]:
+        one_capacitor_main(version)
         return
     os.makedirs(SUPPLIES, exist_ok=True)
     rows = []
