@@ -2,6 +2,7 @@
 //! by solving the real circuit. No I/O and no terminal here; the command line and the screens
 //! are thin shells around these functions.
 
+pub mod calibration;
 pub mod circuit;
 pub mod diagnose;
 pub mod escape;

@@ -170,6 +170,23 @@ enum Command {
         /// Record the readings and the verdict as a visit in the library.
         #[arg(long)]
         save: bool,
+        /// The unit is known good (after a repair, at commissioning): record the readings as
+        /// its baseline visit and calibrate the unit on them (implies --save; needs --mains
+        /// and --dc).
+        #[arg(long)]
+        baseline: bool,
+    },
+    /// Calibrates a unit on a known-good visit of its own: fits what its file cannot state
+    /// (the winding's resistance in service, the mains crest, the capacitors' effective value)
+    /// to that visit's readings and stores it in the file's [calibration] table.
+    Calibrate {
+        #[arg(value_name = "NAME")]
+        name: String,
+        /// The visit's date (YYYY-MM-DD); the latest visit when left out.
+        #[arg(long, value_name = "DATE")]
+        visit: Option<String>,
+        #[arg(long)]
+        json: bool,
     },
     /// A supply's visits, newest first, with their readings and the capacitance trend.
     Log {
@@ -230,6 +247,7 @@ fn main() -> ExitCode {
         Some(Command::Export { .. }) => "the exported file",
         Some(Command::Diagnose { .. }) => "the diagnosis",
         Some(Command::Log { .. }) => "the log",
+        Some(Command::Calibrate { .. }) => "the calibration",
     };
     // Whatever is still buffered is written here, so that its failure is seen too.
     let outcome = try_main(cli).and_then(|code| {
@@ -348,6 +366,7 @@ fn try_main(cli: Cli) -> Result<ExitCode> {
             load,
             json,
             save,
+            baseline,
         }) => {
             let readings = Readings {
                 mains_vrms: mains,
@@ -358,7 +377,17 @@ fn try_main(cli: Cli) -> Result<ExitCode> {
                 ripple_hz,
                 load_a: load,
             };
+            let save = if baseline {
+                Save::Baseline
+            } else if save {
+                Save::Visit
+            } else {
+                Save::No
+            };
             run_diagnose(&name, readings, json, save, &cli.library, cli.no_demo)
+        }
+        Some(Command::Calibrate { name, visit, json }) => {
+            run_calibrate(&name, visit.as_deref(), json, &cli.library, cli.no_demo)
         }
         Some(Command::Log { name, json }) => {
             let (supply, _) = resolve(&name, &cli.library, cli.no_demo)?;
@@ -685,49 +714,108 @@ fn run_log(supply: &Supply, json: bool) -> Result<ExitCode> {
     Ok(ExitCode::SUCCESS)
 }
 
+/// What `diagnose` keeps of its readings.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Save {
+    No,
+    /// A visit with the verdict.
+    Visit,
+    /// A visit marked as the unit's baseline, and the calibration fitted to it.
+    Baseline,
+}
+
+/// The library holding `file`, or a refusal naming `what` needs it.
+fn library_holding(
+    file: &str,
+    what: &str,
+    cli_dir: &Option<PathBuf>,
+    no_demo: bool,
+) -> Result<Library> {
+    let lib = library(cli_dir, no_demo)?;
+    let in_library = Path::new(file)
+        .parent()
+        .zip(std::fs::canonicalize(&lib.dir).ok())
+        .and_then(|(p, lib_dir)| {
+            let p = if p.as_os_str().is_empty() {
+                Path::new(".")
+            } else {
+                p
+            };
+            std::fs::canonicalize(p).ok().filter(|p| *p == lib_dir)
+        })
+        .is_some();
+    if !in_library {
+        bail!("{what}, and {file} is not in the library (railcheck import it first)");
+    }
+    Ok(lib)
+}
+
 fn run_diagnose(
     name: &str,
     readings: Readings,
     json: bool,
-    save: bool,
+    save: Save,
     cli_dir: &Option<PathBuf>,
     no_demo: bool,
 ) -> Result<ExitCode> {
     let (supply, file) = resolve(name, cli_dir, no_demo)?;
     let d = diagnose::diagnose(&supply, &readings).map_err(|e| anyhow::anyhow!("{e}"))?;
-    if save {
-        let lib = library(cli_dir, no_demo)?;
-        let in_library = Path::new(&file)
-            .parent()
-            .zip(std::fs::canonicalize(&lib.dir).ok())
-            .and_then(|(p, lib_dir)| {
-                let p = if p.as_os_str().is_empty() {
-                    Path::new(".")
-                } else {
-                    p
-                };
-                std::fs::canonicalize(p).ok().filter(|p| *p == lib_dir)
-            })
-            .is_some();
-        if !in_library {
-            bail!(
-                "--save records a visit in the library, and {file} is not in it (railcheck import it first)"
-            );
+    let today = railcheck::tui::app::today();
+    let mut fitted = None;
+    match save {
+        Save::No => {}
+        Save::Visit => {
+            let lib = library_holding(
+                &file,
+                "--save records a visit in the library",
+                cli_dir,
+                no_demo,
+            )?;
+            // The visit is appended to the file as it is at the moment of saving, under the
+            // library's lock: visits others recorded meanwhile are kept; a change to the
+            // supply's values meanwhile is refused (the verdict would be stale).
+            let visit = diagnose::visit_of(&readings, &d, &today);
+            let written = lib.append_visit(Path::new(&file), &supply, visit)?;
+            if !json {
+                outln!(
+                    "recorded as a visit in {}",
+                    printable(&written.file.display().to_string())
+                );
+            }
         }
-        // The visit is appended to the file as it is at the moment of saving, under the
-        // library's lock: visits others recorded meanwhile are kept; a change to the supply's
-        // values meanwhile is refused (the verdict would be stale).
-        let visit = diagnose::visit_of(&readings, &d, &railcheck::tui::app::today());
-        let written = lib.append_visit(Path::new(&file), &supply, visit)?;
-        if !json {
-            outln!(
-                "recorded as a visit in {}",
-                printable(&written.file.display().to_string())
-            );
+        Save::Baseline => {
+            let lib = library_holding(
+                &file,
+                "--baseline records a visit and a calibration in the library",
+                cli_dir,
+                no_demo,
+            )?;
+            let date: railcheck::visit::Date = today.parse().context("today's date")?;
+            let fit = diagnose::calibrate::calibrate(&supply, &readings, date)
+                .map_err(|e| anyhow::anyhow!("{e}"))?;
+            let visit = diagnose::visit_of(&readings, &d, &today);
+            let written = lib.record_calibration(
+                Path::new(&file),
+                &supply,
+                fit.calibration.clone(),
+                &readings,
+                Some(visit),
+            )?;
+            if !json {
+                outln!(
+                    "recorded as the baseline visit in {}",
+                    printable(&written.file.display().to_string())
+                );
+            }
+            fitted = Some(fit);
         }
     }
     if json {
-        outln!("{}", diagnose::json(&supply, &d));
+        let mut v = diagnose::json(&supply, &d);
+        if let Some(fit) = &fitted {
+            v["calibration"] = calibration_json(&supply, fit);
+        }
+        outln!("{v}");
         return Ok(ExitCode::SUCCESS);
     }
     outln!("{}: {}", printable(&supply.name), d.verdict.to_uppercase());
@@ -753,5 +841,135 @@ fn run_diagnose(
         outln!("           next: {}", h.next_check);
     }
     outln!("  Caution: discharge the filter and verify with a meter before touching.");
+    if let Some(fit) = &fitted {
+        print_calibration(&supply, fit)?;
+    }
+    Ok(ExitCode::SUCCESS)
+}
+
+/// The calibration as JSON: its values, the windows before and after, the values at a limit.
+fn calibration_json(supply: &Supply, fit: &diagnose::calibrate::Fitted) -> serde_json::Value {
+    let c = &fit.calibration;
+    serde_json::json!({
+        "visit": c.visit.to_string(),
+        "winding_factor": c.winding_factor,
+        "crest": c.crest,
+        "cap_factor": c.cap_factor,
+        "uf": c.cap_factor.map(|f| f * supply.filter.uf.unwrap_or(0.0)),
+        "before": fit.before,
+        "after": fit.after,
+        "at_limit": fit.at_limit,
+    })
+}
+
+/// The calibration in words: what was fitted, and each reading's window before and after.
+fn print_calibration(supply: &Supply, fit: &diagnose::calibrate::Fitted) -> Result<()> {
+    let c = &fit.calibration;
+    outln!("Calibrated on the visit of {}:", c.visit);
+    if let Some(w) = c.winding_factor {
+        outln!("  winding resistance  {w:.3} times the file's (stated, nameplate or assumed)");
+    }
+    if let Some(k) = c.crest {
+        outln!("  mains crest         {k:.3} (a sine is 1.414)");
+    }
+    if let Some(f) = c.cap_factor {
+        outln!(
+            "  capacitance         {} uF effective, {f:.3} of the label",
+            format_number((f * supply.filter.uf.unwrap_or(0.0) * 10.0).round() / 10.0)
+        );
+    }
+    outln!("  Windows at the visit's mains, before -> after:");
+    for (b, a) in fit.before.iter().zip(&fit.after) {
+        if b.reading == "mains_vrms" {
+            continue;
+        }
+        outln!(
+            "  {:<14} {:>10}  {:.3} .. {:.3}  ->  {:.3} .. {:.3}",
+            b.reading,
+            format_number(b.value),
+            b.min,
+            b.max,
+            a.min,
+            a.max
+        );
+    }
+    for note in &fit.at_limit {
+        outln!("  Note: {note}");
+    }
+    Ok(())
+}
+
+fn run_calibrate(
+    name: &str,
+    date: Option<&str>,
+    json: bool,
+    cli_dir: &Option<PathBuf>,
+    no_demo: bool,
+) -> Result<ExitCode> {
+    let (supply, file) = resolve(name, cli_dir, no_demo)?;
+    let lib = library_holding(
+        &file,
+        "calibrate stores the calibration in the library",
+        cli_dir,
+        no_demo,
+    )?;
+    let dates = || {
+        let mut d: Vec<String> = supply.visits.iter().map(|v| v.date_text()).collect();
+        d.dedup();
+        d.join(", ")
+    };
+    let visit = match date {
+        Some(want) => supply
+            .visits
+            .iter()
+            .rev()
+            .find(|v| v.date_text() == want)
+            .with_context(|| {
+                format!(
+                    "--visit {}: {} has no visit on that date (its visits: {})",
+                    printable(want),
+                    printable(&supply.name),
+                    if supply.visits.is_empty() {
+                        "none".into()
+                    } else {
+                        dates()
+                    }
+                )
+            })?,
+        None => supply
+            .visits
+            .iter()
+            .max_by_key(|v| v.days())
+            .with_context(|| {
+                format!(
+                    "{} has no visits to calibrate on: record one with `railcheck diagnose {} \
+                 --mains V --dc V --ripple-pp V --baseline`",
+                    printable(&supply.name),
+                    printable(name)
+                )
+            })?,
+    };
+    let fit = diagnose::calibrate::calibrate(&supply, &visit.readings, visit.date)
+        .map_err(|e| anyhow::anyhow!("the visit of {}: {e}", visit.date_text()))?;
+    let written = lib.record_calibration(
+        Path::new(&file),
+        &supply,
+        fit.calibration.clone(),
+        &visit.readings,
+        None,
+    )?;
+    if json {
+        let mut v = calibration_json(&supply, &fit);
+        v["name"] = serde_json::json!(supply.name);
+        v["file"] = serde_json::json!(written.file.display().to_string());
+        outln!("{v}");
+        return Ok(ExitCode::SUCCESS);
+    }
+    outln!(
+        "{}: calibration stored in {}",
+        printable(&supply.name),
+        printable(&written.file.display().to_string())
+    );
+    print_calibration(&supply, &fit)?;
     Ok(ExitCode::SUCCESS)
 }

@@ -138,6 +138,9 @@ pub struct Supply {
     pub load: Load,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub regulator: Option<Regulator>,
+    /// What a known-good visit told of the unit's unknowns (`[calibration]`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub calibration: Option<crate::calibration::Calibration>,
     /// The service history, oldest first as written (`[[visit]]` tables).
     #[serde(default, rename = "visit", skip_serializing_if = "Vec::is_empty")]
     pub visits: Vec<crate::visit::Visit>,
@@ -585,6 +588,27 @@ pub const MAINS_CREST: Range = range(
     "1.414 is a clean sine, 1.35-1.40 mains flattened by other rectifiers (practice); under \
      1.1 it is a square wave, which the clipped-sine model does not describe",
 );
+pub const CALIBRATION_WINDING: Range = range(
+    "calibration.winding_factor",
+    AtLeast(0.05),
+    20.0,
+    "",
+    "the fit keeps within the winding's assumed range, which never spans more than this",
+);
+pub const CALIBRATION_CREST: Range = range(
+    "calibration.crest",
+    AtLeast(1.1),
+    1.415,
+    "",
+    "as mains.crest: a clean sine is 1.414, under 1.1 a square wave the model does not describe",
+);
+pub const CALIBRATION_CAP: Range = range(
+    "calibration.cap_factor",
+    AtLeast(0.01),
+    3.0,
+    "",
+    "a capacitor at under 1 % of its value is open, and none measures three times its label",
+);
 pub const RATIO: Range = range(
     "transformer.ratio",
     AtLeast(0.01),
@@ -835,6 +859,9 @@ pub const RANGES: &[Range] = &[
     OUTPUT_V,
     DROPOUT_V,
     REGULATOR_RATED_W,
+    CALIBRATION_WINDING,
+    CALIBRATION_CREST,
+    CALIBRATION_CAP,
     VISIT_MAINS_VRMS,
     VISIT_SECONDARY_VAC,
     VISIT_DC_V,
@@ -961,6 +988,24 @@ impl Supply {
             }
         }
         self.validate_load()?;
+        if let Some(c) = &self.calibration {
+            if c.visit.date.is_none() {
+                return Err(SupplyError::out_of_range(
+                    "calibration.visit",
+                    c.visit.to_string(),
+                    "a calendar date such as 2026-11-30",
+                ));
+            }
+            for (range, v) in [
+                (&CALIBRATION_WINDING, c.winding_factor),
+                (&CALIBRATION_CREST, c.crest),
+                (&CALIBRATION_CAP, c.cap_factor),
+            ] {
+                if let Some(v) = v {
+                    range.check(v)?;
+                }
+            }
+        }
         for (i, v) in self.visits.iter().enumerate() {
             let in_visit = |e: SupplyError| match e {
                 SupplyError::OutOfRange {
@@ -1078,6 +1123,23 @@ impl Supply {
             ));
         }
         Ok(())
+    }
+
+    /// The calibration in force (factors of 1 without one): what the baseline visit fitted,
+    /// less what a later replacement reset.
+    pub fn calibration_in_force(&self) -> crate::calibration::InForce {
+        self.calibration
+            .as_ref()
+            .map(|c| c.in_force(&self.visits))
+            .unwrap_or_default()
+    }
+
+    /// The supply with a new filter capacitor: its capacitance calibration no longer applies
+    /// (sizing a replacement, or a trend measured against the label).
+    pub fn forget_capacitance_calibration(&mut self) {
+        if let Some(c) = &mut self.calibration {
+            c.cap_factor = None;
+        }
     }
 
     /// Whether the filter has two capacitors a fault can tell apart: a CRC's pair, or a

@@ -61,6 +61,10 @@ pub struct Visit {
     pub notes: String,
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     pub replaced: Vec<String>,
+    /// The visit the unit is calibrated on (`baseline = true`): after a repair, at
+    /// commissioning, or known good (see [`crate::calibration`]).
+    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    pub baseline: bool,
     /// The verdict railcheck gave on these readings, when it was asked.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub diagnosis: Option<VisitDiagnosis>,
@@ -117,9 +121,39 @@ pub fn civil_from_days(days: i64) -> String {
 impl Visit {
     /// The visit's date in days since 1970-01-01.
     pub fn days(&self) -> Option<i64> {
-        self.date
-            .date
+        Visit::day_of(&self.date)
+    }
+
+    /// Days since 1970-01-01 of a date (None for a time without a date).
+    pub fn day_of(date: &Date) -> Option<i64> {
+        date.date
             .map(|d| days_from_civil(d.year as i64, d.month as i64, d.day as i64))
+    }
+
+    /// Whether the visit replaced a filter capacitor: a part named by its value in uF or by a
+    /// reference designator starting with C ("C12", "C1 4700uF 35V"), as technicians write.
+    pub fn replaced_capacitor(&self) -> bool {
+        self.replaced.iter().any(|p| {
+            let p = p.trim();
+            let upper = p.to_uppercase();
+            // CR1 is a diode's designator in much of the trade, not a capacitor's.
+            let diode = upper
+                .strip_prefix("CR")
+                .is_some_and(|rest| rest.starts_with(|c: char| c.is_ascii_digit()));
+            upper.contains("UF") || (upper.starts_with('C') && !diode)
+        })
+    }
+
+    /// Whether the visit replaced the transformer: "transformer", or a designator T1, TR1.
+    pub fn replaced_transformer(&self) -> bool {
+        self.replaced.iter().any(|p| {
+            let p = p.trim().to_uppercase();
+            let designator = p
+                .strip_prefix("TR")
+                .or_else(|| p.strip_prefix('T'))
+                .is_some_and(|rest| rest.starts_with(|c: char| c.is_ascii_digit()));
+            p.contains("TRANSFORMER") || designator
+        })
     }
 }
 

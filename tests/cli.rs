@@ -368,3 +368,138 @@ fn a_failed_rating_check_exits_with_status_1() {
     let shown = String::from_utf8(out.stdout).unwrap();
     assert!(shown.contains("FAIL  cap-voltage"), "{shown}");
 }
+
+/// Calibrating a unit from the command line: refused without a visit, on readings no healthy
+/// unit shows, and on a date with no visit, each without touching the file; stored with its
+/// baseline marked otherwise, and the windows of later diagnoses narrower. The readings are
+/// those of a simulated real unit (tests/reference/field_calibration.csv, ngspice-39, unit
+/// ct_amp-101), judged against its file with the winding resistance left out.
+#[test]
+fn calibrate_stores_the_fit_marks_the_baseline_and_narrows_the_windows() {
+    let dir = std::env::temp_dir().join(format!("railcheck-cli-cal-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    let d = dir.display().to_string();
+    let src =
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/field/ct_amp-unstated.toml");
+    let out = railcheck(&[
+        "--library",
+        &d,
+        "--no-demo",
+        "import",
+        &src.display().to_string(),
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let file = dir.join("field-ct-amp.toml");
+    let name = "field ct_amp";
+    let lib = |args: &[&str]| {
+        let mut argv = vec!["--library", d.as_str(), "--no-demo"];
+        argv.extend_from_slice(args);
+        railcheck(&argv)
+    };
+    let unchanged = std::fs::read(&file).unwrap();
+    // No visit yet: nothing to calibrate on.
+    let out = lib(&["calibrate", name]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("no visits to calibrate on"));
+    // A rail far below anything a healthy unit shows is refused as a baseline.
+    let out = lib(&[
+        "diagnose",
+        name,
+        "--mains",
+        "229",
+        "--dc",
+        "12.0",
+        "--ripple-pp",
+        "0.75",
+        "--baseline",
+    ]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("would hide a fault") && err.contains("dc_v 12"),
+        "{err}"
+    );
+    assert_eq!(std::fs::read(&file).unwrap(), unchanged, "nothing written");
+    // The baseline visit, recorded as an ordinary visit first.
+    let baseline = [
+        "--mains",
+        "228.967",
+        "--dc",
+        "18.6564",
+        "--ripple-pp",
+        "0.754535",
+        "--ripple-hz",
+        "100",
+    ];
+    let mut argv = vec!["diagnose", name];
+    argv.extend_from_slice(&baseline);
+    argv.push("--save");
+    assert!(lib(&argv).status.success());
+    let later = [
+        "--mains",
+        "236.701",
+        "--dc",
+        "19.1502",
+        "--ripple-pp",
+        "1.0589",
+        "--ripple-hz",
+        "100",
+        "--json",
+    ];
+    let window = |json: &[u8], reading: &str| -> (f64, f64) {
+        let v: serde_json::Value = serde_json::from_slice(json).unwrap();
+        let r = v["readings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .find(|r| r["reading"] == reading)
+            .unwrap()
+            .clone();
+        (r["min"].as_f64().unwrap(), r["max"].as_f64().unwrap())
+    };
+    let mut argv = vec!["diagnose", name];
+    argv.extend_from_slice(&later);
+    let before = lib(&argv);
+    // A date with no visit is refused, naming the dates there are.
+    let out = lib(&["calibrate", name, "--visit", "1999-01-01"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&out.stderr).contains("no visit on that date"));
+    let out = lib(&["calibrate", name, "--json"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let cal: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    for key in ["winding_factor", "crest", "cap_factor"] {
+        assert!(cal[key].as_f64().is_some(), "{key}: {cal}");
+    }
+    let text = std::fs::read_to_string(&file).unwrap();
+    assert!(
+        text.contains("[calibration]") && text.contains("baseline = true"),
+        "{text}"
+    );
+    let after = lib(&argv);
+    assert!(after.status.success());
+    for reading in ["dc_v", "ripple_pp_v"] {
+        let (b0, b1) = window(&before.stdout, reading);
+        let (a0, a1) = window(&after.stdout, reading);
+        println!("{reading}: {b0:.3}..{b1:.3} -> {a0:.3}..{a1:.3}");
+        assert!(
+            a1 - a0 < 0.5 * (b1 - b0),
+            "{reading}: {b0}..{b1} -> {a0}..{a1}"
+        );
+    }
+    // The text form says what was fitted and shows the windows before and after.
+    let out = lib(&["calibrate", name]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        text.contains("winding resistance") && text.contains("->"),
+        "{text}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -85,6 +85,8 @@ pub fn voltage_rating_for(peak_v: f64) -> Option<f64> {
 pub fn size(supply: &Supply, target: Target) -> Result<Vec<Sized>, SizingError> {
     // An unfiltered supply is sized for the capacitor that would be added to it.
     let mut supply = supply.clone();
+    // The candidates are new parts: the old capacitor's calibrated value is not theirs.
+    supply.forget_capacitance_calibration();
     if supply.filter.kind == FilterKind::None {
         supply.filter.kind = FilterKind::Capacitor;
     }

@@ -90,6 +90,23 @@ pub const ASSUMED_DROP_SPREAD_PCT: f64 = 5.0;
 /// resistors' +-5 %, practice).
 pub const ASSUMED_LOAD_PCT: f64 = 5.0;
 
+/// A calibrated winding's resistance may differ from the baseline's by this factor either way:
+/// copper's +0.39 %/degC over the 25 degC a winding's temperature varies between a cold start
+/// and a warm afternoon (practice), about 10 %.
+pub const CALIBRATED_WINDING_SPREAD: f64 = 1.1;
+
+/// A calibrated mains crest may differ by this much at another visit: a building's other
+/// rectifier loads come and go through the day (practice; from memory, site surveys show
+/// crest factors moving by a few hundredths).
+pub const CALIBRATED_CREST_SPREAD: f64 = 0.03;
+
+/// A calibrated capacitance's healthy band, percent below and above the fitted value: the fit's
+/// own uncertainty (a scope's ripple reading is good to a few percent) and slow wear since the
+/// baseline. Below it the capacitor has lost a tenth since it was known good, which is a
+/// fault's beginning (an electrolytic's end of life is usually put at -20 %, practice).
+pub const CALIBRATED_CAP_LOW_PCT: f64 = 10.0;
+pub const CALIBRATED_CAP_HIGH_PCT: f64 = 5.0;
+
 /// The tolerances a worst case spans, exactly as the supply file states them.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ToleranceBox {
@@ -106,9 +123,31 @@ impl ToleranceBox {
             supply.mains.high_pct,
         )];
         let f = &supply.filter;
+        let cal = supply.calibration_in_force();
+        let on = supply
+            .calibration
+            .as_ref()
+            .map(|c| c.visit.to_string())
+            .unwrap_or_default();
         if f.kind != crate::supply::FilterKind::None {
             let aged = f.aged_pct.unwrap_or(0.0);
-            let mut cap = Axis::percent(AxisKind::Capacitance, f.low_pct + aged, f.high_pct);
+            let mut cap = if cal.capacitance {
+                // The capacitor's own value is known now: what is left is the fit's
+                // uncertainty and the wear since the baseline.
+                let mut a = Axis::percent(
+                    AxisKind::Capacitance,
+                    CALIBRATED_CAP_LOW_PCT,
+                    CALIBRATED_CAP_HIGH_PCT,
+                );
+                a.assumed = Some(format!(
+                    "capacitance calibrated on {on}: {} uF effective ({:.2} of the label),                      -{CALIBRATED_CAP_LOW_PCT:.0} % / +{CALIBRATED_CAP_HIGH_PCT:.0} % allowed                      for the fit and the wear since",
+                    format_number(round3(f.uf.unwrap_or(0.0) * cal.cap_factor)),
+                    cal.cap_factor
+                ));
+                a
+            } else {
+                Axis::percent(AxisKind::Capacitance, f.low_pct + aged, f.high_pct)
+            };
             // A capacitor never goes to nothing within its tolerance, however the file reads.
             cap.low = cap.low.max(0.01);
             axes.push(cap);
@@ -153,9 +192,35 @@ impl ToleranceBox {
         if let Ok(w) = supply.winding()
             && (w.secondary_ohms > 0.0 || w.primary_ohms > 0.0)
         {
-            axes.push(winding_axis(&w));
+            if cal.winding {
+                let t = CALIBRATED_WINDING_SPREAD;
+                axes.push(Axis {
+                    kind: AxisKind::Winding,
+                    low: 1.0 / t,
+                    high: t,
+                    nominal: 1.0,
+                    assumed: Some(format!(
+                        "winding resistance calibrated on {on}: {:.2} times the file's,                          -{:.0} % / +{:.0} % allowed for its temperature on the day",
+                        cal.winding_factor,
+                        (1.0 - 1.0 / t) * 100.0,
+                        (t - 1.0) * 100.0
+                    )),
+                });
+            } else {
+                axes.push(winding_axis(&w));
+            }
         }
-        if supply.mains.crest.is_none() {
+        if let (None, Some(c)) = (supply.mains.crest, cal.crest) {
+            axes.push(Axis {
+                kind: AxisKind::Crest,
+                low: (c - CALIBRATED_CREST_SPREAD).max(1.1),
+                high: (c + CALIBRATED_CREST_SPREAD).min(std::f64::consts::SQRT_2),
+                nominal: c,
+                assumed: Some(format!(
+                    "mains crest calibrated on {on}: {c:.3}, +-{CALIBRATED_CREST_SPREAD} allowed                      (the building's other loads change through the day)"
+                )),
+            });
+        } else if supply.mains.crest.is_none() {
             axes.push(Axis {
                 kind: AxisKind::Crest,
                 low: ASSUMED_CREST_LOW,

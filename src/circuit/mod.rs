@@ -105,11 +105,16 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
     let mains = cond.mains_vrms.unwrap_or(supply.mains.vrms) * cond.mains_factor;
     let ratio = winding.ratio * cond.ratio_factor;
     let emf_rms_v = mains / ratio;
+    // A calibrated unit is solved as the baseline visit found it; the conditions' factors
+    // act on top of that.
+    let cal = supply.calibration_in_force();
+    let winding_factor = cond.winding_factor * cal.winding_factor;
     let winding = crate::supply::WindingModel {
-        secondary_ohms: winding.secondary_ohms * cond.winding_factor,
-        primary_ohms: winding.primary_ohms * cond.winding_factor,
+        secondary_ohms: winding.secondary_ohms * winding_factor,
+        primary_ohms: winding.primary_ohms * winding_factor,
         ..winding
     };
+    let cap_factor = cond.cap_factor * cal.cap_factor;
     let whole = winding.secondary_ohms + winding.primary_ohms / (ratio * ratio);
     let half = 0.5 * winding.secondary_ohms;
     let topology = supply.rectifier.topology;
@@ -174,7 +179,7 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
     };
     let f = &supply.filter;
     let stated = Reservoir {
-        farads: f.uf.unwrap_or(0.0) * 1e-6 * cond.cap_factor,
+        farads: f.uf.unwrap_or(0.0) * 1e-6 * cap_factor,
         esr_ohms: f.esr_ohms,
     };
     // The capacitor a fault concerns is the first the rectifier charges.
@@ -185,7 +190,7 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
     let crc = match (f.kind, f.series_ohms, f.second_uf) {
         (FilterKind::Crc, Some(ohms), Some(uf)) => Some(SecondStage {
             ohms,
-            farads: uf * 1e-6 * cond.cap_factor,
+            farads: uf * 1e-6 * cap_factor,
         }),
         _ => None,
     };
@@ -234,7 +239,11 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         paths
     };
     Ok(Network {
-        wave: MainsWave::with_crest(cond.crest.unwrap_or(supply.mains.crest())),
+        wave: MainsWave::with_crest(
+            cond.crest
+                .or(cal.crest.filter(|_| supply.mains.crest.is_none()))
+                .unwrap_or(supply.mains.crest()),
+        ),
         emf_rms_v,
         line_hz: supply.mains.hz,
         paths,

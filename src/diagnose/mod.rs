@@ -2,6 +2,7 @@
 //! fault that explains the readings best, each fault a changed circuit solved by the engine
 //! with at most one free parameter fitted to the readings.
 
+pub mod calibrate;
 mod nuisance;
 pub mod trend;
 
@@ -275,7 +276,7 @@ fn misfit(readings: &Readings, f: &Figures, cond: &Conditions, supply: &Supply) 
             chi2 += frequency_misfit(v, p);
             continue;
         }
-        chi2 += ((v - p) / sigma(k, v, p)).powi(2);
+        chi2 += ((v - p) / sigma(k, v, p, supply.calibration_in_force().any())).powi(2);
     }
     chi2
 }
@@ -288,11 +289,16 @@ fn frequency_misfit(v: f64, p: f64) -> f64 {
 
 /// The uncertainty a reading `k` of `v` is judged with against a prediction `p`: the meter's,
 /// and a share of the prediction for what the model leaves out (2 % on volts and amps, 10 %
-/// on ripple, whose shape the winding's leakage and the mains' harmonics change).
-fn sigma(k: &str, v: f64, p: f64) -> f64 {
-    let model_share = match k {
-        "ripple_pp_v" | "ripple_rms_v" => 0.10,
-        _ => 0.02,
+/// on ripple, whose shape the winding's leakage and the mains' harmonics change). On a
+/// `calibrated` unit the baseline visit has fitted most of that: what is left is how the
+/// leakage's share moves with the working point, taken as 1 % and 4 %.
+fn sigma(k: &str, v: f64, p: f64, calibrated: bool) -> f64 {
+    let ripple = matches!(k, "ripple_pp_v" | "ripple_rms_v");
+    let model_share = match (ripple, calibrated) {
+        (true, false) => 0.10,
+        (false, false) => 0.02,
+        (true, true) => 0.04,
+        (false, true) => 0.01,
     };
     (meter_uncertainty(k, v).powi(2) + (model_share * p.abs()).powi(2))
         .sqrt()
@@ -334,6 +340,12 @@ fn search_range(fault: Fault, supply: &Supply, mains_known: bool) -> Option<(f64
     let low = 1.0 - supply.mains.low_pct / 100.0;
     let high = 1.0 + supply.mains.high_pct / 100.0;
     match fault {
+        // A calibrated capacitor is judged against its own value at the baseline, below the
+        // band its calibration allows; otherwise below its tolerance and ageing.
+        Fault::CapacitanceLow if supply.calibration_in_force().capacitance => Some((
+            0.01,
+            1.0 - crate::analysis::worst_case::CALIBRATED_CAP_LOW_PCT / 100.0,
+        )),
         Fault::CapacitanceLow => {
             Some((0.01, 1.0 - (f.low_pct + f.aged_pct.unwrap_or(0.0)) / 100.0))
         }
@@ -571,7 +583,10 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
                             )
                         });
                         if chi2 < one.1 {
-                            (Some(("uf_each", supply.filter.uf.unwrap_or(0.0) * x)), chi2)
+                            let uf = supply.filter.uf.unwrap_or(0.0)
+                                * x
+                                * supply.calibration_in_force().cap_factor;
+                            (Some(("uf_each", uf)), chi2)
                         } else {
                             one
                         }
@@ -678,7 +693,10 @@ fn window(k: &'static str, v: f64, nominal: f64, min: f64, max: f64) -> Expectat
 /// The fitted parameter as the part value a technician would name.
 fn estimate_of(fault: Fault, x: f64, supply: &Supply, base: &Conditions) -> (&'static str, f64) {
     match fault {
-        Fault::CapacitanceLow => ("uf", supply.filter.uf.unwrap_or(0.0) * x),
+        Fault::CapacitanceLow => (
+            "uf",
+            supply.filter.uf.unwrap_or(0.0) * x * supply.calibration_in_force().cap_factor,
+        ),
         Fault::EsrHigh => ("esr_ohms", x),
         Fault::MainsLow | Fault::MainsHigh => {
             ("vrms", base.mains_vrms.unwrap_or(supply.mains.vrms) * x)
@@ -805,6 +823,7 @@ pub fn visit_of(readings: &Readings, d: &Diagnosis, date: &str) -> crate::visit:
         readings: *readings,
         notes: String::new(),
         replaced: Vec::new(),
+        baseline: false,
         diagnosis: Some(crate::visit::VisitDiagnosis {
             verdict: d.verdict.to_string(),
             fault: top.fault.key().to_string(),

@@ -39,6 +39,8 @@ struct Axis {
 /// The nuisance axes of one supply under one set of base conditions.
 pub(super) struct Nuisance {
     axes: Vec<Axis>,
+    /// Whether the unit is calibrated (the readings' model share is then smaller).
+    calibrated: bool,
 }
 
 impl Nuisance {
@@ -84,7 +86,10 @@ impl Nuisance {
                 down: slope(a.low, z_low)?,
             });
         }
-        Ok(Nuisance { axes })
+        Ok(Nuisance {
+            axes,
+            calibrated: supply.calibration_in_force().any(),
+        })
     }
 
     /// The least chi-square of `readings` against `figures` (solved under `cond`) with the
@@ -111,7 +116,7 @@ impl Nuisance {
                 fixed += frequency_misfit(v, p);
                 continue;
             }
-            let s = sigma(k, v, p);
+            let s = sigma(k, v, p, self.calibrated);
             let Some(m) = MOVED.iter().position(|x| *x == k) else {
                 continue;
             };

@@ -463,16 +463,23 @@ fn crossing_band(fit: &LineFit, limit: f64, first_day: f64) -> (f64, Option<f64>
 
 /// The trend of `supply`'s visits.
 pub fn trend(supply: &Supply) -> Trend {
+    // The trend follows the capacitor against its label, from every visit, the baseline's
+    // included: a calibrated capacitance would move the scale it is read on.
+    let uncalibrated;
+    let supply = if supply.calibration_in_force().capacitance {
+        let mut s = supply.clone();
+        s.forget_capacitance_calibration();
+        uncalibrated = s;
+        &uncalibrated
+    } else {
+        supply
+    };
     let (limit_uf, limit) = limit_uf(supply);
     let mut visits: Vec<_> = supply.visits.iter().collect();
     visits.sort_by_key(|v| v.days());
     // A replaced filter capacitor starts the trend again: the readings of the visit that
     // replaced it were taken on the old part, so the new trend begins after it.
-    let replaced_at = visits.iter().rposition(|v| {
-        v.replaced
-            .iter()
-            .any(|p| p.to_lowercase().contains("uf") || p.to_uppercase().starts_with('C'))
-    });
+    let replaced_at = visits.iter().rposition(|v| v.replaced_capacitor());
     // The trend is the capacitor's: the ripple frequency says nothing of its value. Visits
     // whose readings cannot be true, and supplies with no filter capacitor, give no point.
     let usable: Vec<Option<Readings>> = visits

@@ -388,6 +388,69 @@ impl Library {
         write_merged(file, text, supply, &next, &|_| Ok(()))
     }
 
+    /// Stores `calibration` in the library file `file` and marks its baseline visit: the
+    /// visit `new_visit` when given (appended), otherwise the file's visit dated as the
+    /// calibration whose readings are `baseline`. Whole under the lock on the file as it is
+    /// then; if the supply's values (its visits and calibration aside) changed since `basis`
+    /// was read, the fit may be stale and nothing is written.
+    pub fn record_calibration(
+        &self,
+        file: &Path,
+        basis: &Supply,
+        calibration: crate::calibration::Calibration,
+        baseline: &crate::visit::Readings,
+        new_visit: Option<Visit>,
+    ) -> Result<Entry, LibraryError> {
+        let _lock = self.lock()?;
+        let fresh = read_library_entry(file);
+        let EntryState::Ok { supply, text, .. } = &fresh.state else {
+            let EntryState::Unreadable { error } = fresh.state else {
+                unreachable!()
+            };
+            return Err(LibraryError::Unreadable {
+                path: fresh.file,
+                error,
+            });
+        };
+        let values = |s: &Supply| {
+            let mut s = without_visits(s);
+            s.calibration = None;
+            s
+        };
+        if values(supply) != values(basis) {
+            return Err(LibraryError::ChangedWhileRunning {
+                name: basis.name.clone(),
+                path: file.to_path_buf(),
+            });
+        }
+        let mut next = (**supply).clone();
+        for v in &mut next.visits {
+            v.baseline = false;
+        }
+        match new_visit {
+            Some(mut v) => {
+                v.baseline = true;
+                next.visits.push(v);
+            }
+            None => {
+                if let Some(v) = next
+                    .visits
+                    .iter_mut()
+                    .rev()
+                    .find(|v| v.date == calibration.visit && v.readings == *baseline)
+                {
+                    v.baseline = true;
+                }
+            }
+        }
+        next.calibration = Some(calibration);
+        next.validate().map_err(|e| LibraryError::Unreadable {
+            path: file.to_path_buf(),
+            error: e.to_string(),
+        })?;
+        write_merged(file, text, supply, &next, &|_| Ok(()))
+    }
+
     /// Adds a supply as a new file (its name made into a unique file name); `text` is the
     /// original file text to keep, when importing.
     pub fn add(&self, supply: &Supply, text: Option<&str>) -> Result<PathBuf, LibraryError> {

@@ -53,6 +53,9 @@ impl Variant {
 #[derive(Debug, Clone, PartialEq)]
 pub struct FieldUnit {
     pub unit: String,
+    /// Which visit of the unit, in the calibration set (`baseline`, `later-healthy`, ...);
+    /// empty in the population.
+    pub visit: String,
     /// The base supply's file name without `.toml` or `-unstated`.
     pub supply: String,
     /// `healthy` or the fault's key (`capacitance-low`, `esr-high`, ...).
@@ -112,6 +115,7 @@ pub fn parse(text: &str) -> Result<Vec<FieldUnit>, String> {
         };
         units.push(FieldUnit {
             unit: text_of("unit")?,
+            visit: row.get("visit").map(|s| s.to_string()).unwrap_or_default(),
             supply: text_of("supply")?,
             condition: text_of("condition")?,
             crest: number("crest")?,
@@ -133,6 +137,19 @@ pub fn parse(text: &str) -> Result<Vec<FieldUnit>, String> {
         });
     }
     Ok(units)
+}
+
+/// The calibration set: a baseline and three later visits of 16 more simulated units.
+pub const CALIBRATION_CSV_PATH: &str = concat!(
+    env!("CARGO_MANIFEST_DIR"),
+    "/tests/reference/field_calibration.csv"
+);
+
+/// The stored calibration set (tests/reference/field_calibration.csv), one row per visit.
+pub fn calibration_visits() -> Result<Vec<FieldUnit>, String> {
+    let text = std::fs::read_to_string(CALIBRATION_CSV_PATH)
+        .map_err(|e| format!("reading {CALIBRATION_CSV_PATH}: {e}"))?;
+    parse(&text)
 }
 
 /// The stored population (tests/reference/field_population.csv).
