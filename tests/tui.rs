@@ -478,3 +478,50 @@ fn a_command_saving_under_an_open_screen_brings_the_dialog_not_a_loss() {
     assert_eq!(mine.supply.filter.uf, Some(1000.0));
     assert!(theirs.contains("recorded by the command"));
 }
+
+#[test]
+fn b_in_the_visits_calibrates_on_the_newest_visit_and_u_takes_it_back() {
+    let (mut app, _dir) = demo("calibrate");
+    select(&mut app, PUMP);
+    app.wait_idle();
+    let mains = app.open.as_ref().unwrap().supply.mains.vrms;
+    let (dc, pp) = (figure(&app, "dc_v"), figure(&app, "ripple_pp_v"));
+    // A known-good visit: the nominal readings, as a healthy unit gives them.
+    keys(&mut app, &[Msg::Char('a')]);
+    typed(&mut app, &format!("{mains}"));
+    keys(&mut app, &[Msg::Down, Msg::Down]);
+    typed(&mut app, &format!("{dc:.3}"));
+    keys(&mut app, &[Msg::Down]);
+    typed(&mut app, &format!("{pp:.3}"));
+    keys(&mut app, &[Msg::Enter]);
+    assert_eq!(app.mode, Mode::Normal, "{:?}", app.mode);
+    assert!(screen(&app, 100, 30).contains("b: the newest visit is known good"));
+    keys(&mut app, &[Msg::Char('b')]);
+    app.wait_idle();
+    assert!(
+        app.status.starts_with("calibrated on the visit of"),
+        "{}",
+        app.status
+    );
+    let o = app.open.as_ref().unwrap();
+    let on_disk = Supply::from_toml_str(&std::fs::read_to_string(&o.entry.file).unwrap()).unwrap();
+    assert!(on_disk.calibration.is_some());
+    assert!(
+        on_disk
+            .visits
+            .iter()
+            .rev()
+            .find(|v| v.readings.dc_v.is_some())
+            .unwrap()
+            .baseline
+    );
+    assert_eq!(on_disk.visits.iter().filter(|v| v.baseline).count(), 1);
+    let shown = screen(&app, 100, 30);
+    assert!(
+        shown.contains("baseline") && shown.contains("Calibrated on"),
+        "{shown}"
+    );
+    // Undo takes the calibration back, like any edit.
+    keys(&mut app, &[Msg::Char('u')]);
+    assert!(app.open.as_ref().unwrap().supply.calibration.is_none());
+}

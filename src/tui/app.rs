@@ -558,6 +558,9 @@ impl App {
                     }
                 }
             }
+            Msg::Char('b') if self.open.as_ref().is_some_and(|o| o.show_visits) => {
+                self.calibrate_on_newest();
+            }
             Msg::AddVisit | Msg::Char('a') if self.open.is_some() => {
                 let mut values = vec![String::new(); VISIT_FIELDS.len()];
                 values[0] = today();
@@ -925,6 +928,55 @@ impl App {
             self.status = "visit recorded and saved".into();
         }
         Ok(())
+    }
+
+    /// Calibrates the open supply on its newest visit, marks that visit as the baseline and
+    /// saves; `u` takes it back. Worked out here rather than on the worker: it is asked for
+    /// once, and the visit form's diagnosis runs here too.
+    fn calibrate_on_newest(&mut self) {
+        let Some(o) = &mut self.open else { return };
+        if o.what_if.is_some() {
+            self.status = "not in what-if: a calibration is a record of the real unit".into();
+            return;
+        }
+        let Some(i) = (0..o.supply.visits.len()).max_by_key(|&i| o.supply.visits[i].days()) else {
+            self.status = "no visits to calibrate on: a records one (mains and DC at least)".into();
+            return;
+        };
+        let visit = o.supply.visits[i].clone();
+        match crate::diagnose::calibrate::calibrate(&o.supply, &visit.readings, visit.date) {
+            Err(e) => self.status = format!("not calibrated: {e}"),
+            Ok(fit) => {
+                let mut next = o.supply.clone();
+                for v in &mut next.visits {
+                    v.baseline = false;
+                }
+                next.visits[i].baseline = true;
+                next.calibration = Some(fit.calibration.clone());
+                let dc = fit
+                    .before
+                    .iter()
+                    .zip(&fit.after)
+                    .find(|(b, _)| b.reading == "dc_v")
+                    .map(|(b, a)| {
+                        format!(
+                            "; DC window {:.2}..{:.2} -> {:.2}..{:.2} V",
+                            b.min, b.max, a.min, a.max
+                        )
+                    })
+                    .unwrap_or_default();
+                if o.set(next) {
+                    self.request_solve();
+                    self.request_trend();
+                }
+                if self.save_open() {
+                    self.status = format!(
+                        "calibrated on the visit of {} (baseline){dc}; u undoes",
+                        visit.date_text()
+                    );
+                }
+            }
+        }
     }
 
     fn conflict(&mut self, msg: Msg) {

@@ -11,7 +11,7 @@ pub struct Help {
 }
 
 /// Every key the screen knows, as the overlay lists it.
-pub const KEYS: [(&str, &str); 18] = [
+pub const KEYS: [(&str, &str); 19] = [
     ("Up/Down, k/j", "move in the list or the form"),
     (
         "Left/Right, h/l",
@@ -30,6 +30,7 @@ pub const KEYS: [(&str, &str); 18] = [
     ("D", "delete: moves the file to .trash (recoverable)"),
     ("v", "the supply's visits, or back to the results"),
     ("a", "record a visit (readings form; Enter saves)"),
+    ("b", "visits: calibrate on the newest visit (known good)"),
     ("R", "reload the library from disk"),
     ("?", "this help"),
     (

@@ -82,6 +82,31 @@ impl Widget for &ResultsPanel<'_> {
             if visits.is_empty() {
                 lines.push(Line::from("No visits yet: a records one."));
             }
+            if let Some(c) = &open.supply.calibration {
+                let f = open.supply.calibration_in_force();
+                let mut parts = Vec::new();
+                if f.winding {
+                    parts.push(format!("winding x{:.2}", f.winding_factor));
+                }
+                if let Some(k) = f.crest {
+                    parts.push(format!("crest {k:.3}"));
+                }
+                if f.capacitance {
+                    parts.push(format!(
+                        "{:.0} uF",
+                        f.cap_factor * open.supply.filter.uf.unwrap_or(0.0)
+                    ));
+                }
+                lines.push(Line::from(Span::styled(
+                    format!("Calibrated on {}: {}", c.visit, parts.join(", ")),
+                    look.dim(),
+                )));
+            } else if !visits.is_empty() {
+                lines.push(Line::from(Span::styled(
+                    "b: the newest visit is known good, calibrate on it",
+                    look.dim(),
+                )));
+            }
             for v in visits {
                 let readings: Vec<String> = v
                     .readings
@@ -91,8 +116,10 @@ impl Widget for &ResultsPanel<'_> {
                         format!("{} {x}", k.trim_end_matches("_v").trim_end_matches("_a"))
                     })
                     .collect();
+                let mark = if v.baseline { "  baseline" } else { "" };
                 lines.push(Line::from(vec![
                     Span::styled(v.date_text(), look.heading()),
+                    Span::styled(mark, look.ok()),
                     Span::raw(format!("  {}", readings.join(", "))),
                 ]));
                 if !v.notes.is_empty() {
