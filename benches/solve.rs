@@ -117,6 +117,21 @@ fn diagnosis(c: &mut Criterion) {
     g.bench_function("every_fault_model_fitted", |b| {
         b.iter(|| diagnose(black_box(&s), black_box(&r)).unwrap())
     });
+    // A known-good visit of the same unit (readings near its nominal, our own): the fit, and
+    // the two diagnoses that give the windows before and after.
+    let good = Readings {
+        dc_v: Some(27.2),
+        ripple_pp_v: Some(1.2),
+        secondary_vac: None,
+        ..r
+    };
+    let date: railcheck::visit::Date = "2026-01-10".parse().unwrap();
+    g.bench_function("calibrate_on_a_known_good_visit", |b| {
+        b.iter(|| {
+            railcheck::diagnose::calibrate::calibrate(black_box(&s), black_box(&good), date)
+                .unwrap()
+        })
+    });
     let demo = Supply::from_toml_str(&railcheck::library::demo::supplies()[1].1).unwrap();
     g.bench_function("trend_three_visits", |b| {
         b.iter(|| trend::trend(black_box(&demo)))

@@ -12,7 +12,13 @@
 mod common;
 use common::field::{Variant, population, tally};
 
-fn figures(variant: Variant) -> ((usize, usize), (usize, usize), String) {
+struct Figures {
+    false_alarms: (usize, usize),
+    detected: (usize, usize),
+    part_found: (usize, usize),
+}
+
+fn figures(variant: Variant) -> Figures {
     let units = population().unwrap();
     let t = tally(&units, variant).unwrap();
     let misses: Vec<String> = t
@@ -20,32 +26,51 @@ fn figures(variant: Variant) -> ((usize, usize), (usize, usize), String) {
         .iter()
         .map(|o| format!("{} {} -> {}", o.unit, o.truth, o.top))
         .collect();
-    (t.false_alarms(), t.detected(), misses.join("\n"))
+    let f = Figures {
+        false_alarms: t.false_alarms(),
+        detected: t.detected(),
+        part_found: t.part_found(),
+    };
+    println!(
+        "{}: false alarms {:?}, detected {:?}, failed part first {:?}\n{}",
+        variant.label(),
+        f.false_alarms,
+        f.detected,
+        f.part_found,
+        misses.join("\n")
+    );
+    f
 }
 
 #[test]
 fn winding_stated_few_false_alarms_and_most_faults_found() {
-    let ((fa, healthy), (found, faulted), misses) = figures(Variant::Stated);
-    println!("stated: false alarms {fa}/{healthy}, detected {found}/{faulted}\n{misses}");
+    let f = figures(Variant::Stated);
+    let ((fa, healthy), (found, faulted)) = (f.false_alarms, f.detected);
     assert_eq!((healthy, faulted), (32, 64));
     // Target met: at most 5 % false alarms (0 of 32 now).
     assert!(fa * 20 <= healthy, "false alarms {fa}/{healthy}");
-    // Target 90 %; 47 of 64 (73 %) now: capacitance-low and ESR-high are told apart only by
-    // the ripple's shape, and the doubler's and CRC's one-capacitor faults have no fault
-    // model of their own yet.
+    // Target 90 %; 50 of 64 (78 %) now. Nine of the fourteen misses are capacitance-low
+    // taken for ESR-high or the reverse: from the rail's DC and ripple peak to peak they
+    // differ only by the DC's fall at equal ripple (about 2 % on br_small), which a winding
+    // 0-30 % warm covers; both name the filter capacitor, and the next check (an ESR meter)
+    // tells them apart. With that pair counted as one part, 59 of 64 (92 %).
     assert!(found >= 50, "detected {found}/{faulted}");
+    assert!(f.part_found.0 >= 59, "failed part first {:?}", f.part_found);
 }
 
 #[test]
 fn winding_left_out_few_false_alarms_and_most_faults_found() {
-    let ((fa, healthy), (found, faulted), misses) = figures(Variant::Unstated);
-    println!("left out: false alarms {fa}/{healthy}, detected {found}/{faulted}\n{misses}");
+    let f = figures(Variant::Unstated);
+    let ((fa, healthy), (found, faulted)) = (f.false_alarms, f.detected);
     assert_eq!((healthy, faulted), (32, 64));
     // Target met: at most 10 % false alarms (0 of 32 now, against 27 of 32 when a winding
     // left out was taken as ideal).
     assert!(fa * 10 <= healthy, "false alarms {fa}/{healthy}");
-    // Target 80 %; 39 of 64 (61 %) now, against 29 when a winding left out was ideal: with
-    // the winding's range as wide as a soft transformer's, a heavy load or a low mains is
-    // harder to tell from a healthy unit.
+    // Target 80 %; 42 of 64 (66 %) now, against 29 when a winding left out was ideal. A
+    // mains 13-20 % low and never read looks, from the rail, like a mains at its -10 % with
+    // a winding at the soft end of its assumed range (8 of 11 mains-low units are called
+    // healthy or suspect-healthy; the next check reads the mains), and a heavy load is hard
+    // to tell from a worn capacitor when the winding's drop is unknown.
     assert!(found >= 42, "detected {found}/{faulted}");
+    assert!(f.part_found.0 >= 46, "failed part first {:?}", f.part_found);
 }

@@ -217,6 +217,22 @@ impl Tally {
         (right, faulted.len())
     }
 
+    /// (faulted units whose top hypothesis names the failed part, faulted units): the filter
+    /// capacitor for capacitance-low, ESR-high and capacitor-open alike (the same part to
+    /// replace, told apart by the next check), the rectifier, the load, the mains.
+    pub fn part_found(&self) -> (usize, usize) {
+        let faulted: Vec<_> = self
+            .outcomes
+            .iter()
+            .filter(|o| o.truth != "healthy")
+            .collect();
+        let right = faulted
+            .iter()
+            .filter(|o| part_of(&o.top) == part_of(&o.truth))
+            .count();
+        (right, faulted.len())
+    }
+
     /// For each true condition: (condition, ranked right, units), in key order.
     pub fn by_condition(&self) -> Vec<(String, usize, usize)> {
         Self::group(self.outcomes.iter().map(|o| (o.truth.clone(), o.right())))
@@ -240,6 +256,17 @@ impl Tally {
     /// The units whose top hypothesis is not their condition.
     pub fn misses(&self) -> Vec<&Outcome> {
         self.outcomes.iter().filter(|o| !o.right()).collect()
+    }
+}
+
+/// The part a fault key concerns, as a technician would go for it.
+pub fn part_of(fault: &str) -> &str {
+    match fault {
+        "capacitance-low" | "esr-high" | "capacitor-open" => "filter capacitor",
+        "rectifier-leg-open" => "rectifier",
+        "load-heavy" | "load-light" => "load",
+        "mains-low" | "mains-high" => "mains",
+        other => other,
     }
 }
 
@@ -295,6 +322,12 @@ pub fn report(t: &Tally) -> String {
         s,
         "detection:    {det}/{faulted} faulted units ranked as their fault ({:.0} %)",
         pct(det, faulted)
+    );
+    let (part, _) = t.part_found();
+    let _ = writeln!(
+        s,
+        "failed part:  {part}/{faulted} faulted units with the failed part ranked first ({:.0} %)",
+        pct(part, faulted)
     );
     let _ = writeln!(s, "by condition (ranked right / units):");
     for (k, r, n) in t.by_condition() {
