@@ -116,6 +116,28 @@ pub fn parse_si(text: &str) -> Result<f64, UnitParseError> {
     Ok(sign * value)
 }
 
+/// A capacitance as technicians order it: microfarads, with no prefix games
+/// (`format_uf(3900.0)` -> `"3900 uF"`, `format_uf(4.7)` -> `"4.7 uF"`, `format_uf(0.0047)`
+/// -> `"0.0047 uF"`), three significant digits at most, whole microfarads from 100 up.
+pub fn format_uf(uf: f64) -> String {
+    if !uf.is_finite() {
+        return "-- uF".to_string();
+    }
+    if uf.abs() >= 100.0 {
+        return format!("{:.0} uF", uf);
+    }
+    format!("{} uF", format_number(round_sig(uf, 3)))
+}
+
+/// `x` rounded to `digits` significant digits.
+fn round_sig(x: f64, digits: i32) -> f64 {
+    if x == 0.0 {
+        return 0.0;
+    }
+    let scale = 10f64.powi(digits - 1 - x.abs().log10().floor() as i32);
+    (x * scale).round() / scale
+}
+
 /// Formats an SI value (volts, amps, farads, ohms...) with three significant digits and a
 /// prefix: `format_si(0.0161, "A")` -> `"16.1 mA"`, `format_si(4.7e-3, "F")` -> `"4.70 mF"`.
 pub fn format_si(value: f64, unit: &str) -> String {
@@ -225,6 +247,11 @@ mod tests {
 
     #[test]
     fn numbers_as_typed_stay_short() {
+        assert_eq!(format_uf(3900.0), "3900 uF");
+        assert_eq!(format_uf(4.7), "4.7 uF");
+        assert_eq!(format_uf(0.0047), "0.0047 uF");
+        assert_eq!(format_uf(47.04), "47 uF");
+        assert_eq!(format_uf(f64::NAN), "-- uF");
         assert_eq!(format_number(230.0), "230");
         assert_eq!(format_number(0.35), "0.35");
         assert_eq!(format_number(-47.0), "-47");

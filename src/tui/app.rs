@@ -168,6 +168,9 @@ pub struct Open {
     pub solving: bool,
     /// A trend of the visits as they are now is on its way.
     pub trending: bool,
+    /// How many lines the results panel (or the visits view) is scrolled down; the view
+    /// clamps it to what there is to show.
+    pub results_scroll: u16,
 }
 
 impl Open {
@@ -185,6 +188,7 @@ impl Open {
             what_if: None,
             solved,
             show_visits: false,
+            results_scroll: 0,
             last_diagnosis: None,
             trend: None,
             solving: true,
@@ -242,6 +246,10 @@ pub enum Msg {
     Quit,
     Up,
     Down,
+    /// A page up or down: the results panel scrolls by a screenful, the list and the form
+    /// move by ten.
+    PageUp,
+    PageDown,
     Left,
     Right,
     NextPanel,
@@ -516,6 +524,8 @@ impl App {
             }
             Msg::Up | Msg::Char('k') => self.move_by(-1),
             Msg::Down | Msg::Char('j') => self.move_by(1),
+            Msg::PageUp => self.move_by(-10),
+            Msg::PageDown => self.move_by(10),
             Msg::Left | Msg::Char('h') => self.cycle_choice(false),
             Msg::Right | Msg::Char('l') => self.cycle_choice(true),
             Msg::Enter => match self.panel {
@@ -603,7 +613,11 @@ impl App {
                     o.field = (o.field as i64 + delta).clamp(0, n - 1) as usize;
                 }
             }
-            Panel::Results => {}
+            Panel::Results => {
+                if let Some(o) = &mut self.open {
+                    o.results_scroll = (o.results_scroll as i64 + delta).clamp(0, 1000) as u16;
+                }
+            }
         }
     }
 

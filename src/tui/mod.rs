@@ -33,6 +33,8 @@ pub fn message(key: KeyEvent) -> Option<Msg> {
         KeyCode::Char(c) => Msg::Char(c),
         KeyCode::Up => Msg::Up,
         KeyCode::Down => Msg::Down,
+        KeyCode::PageUp => Msg::PageUp,
+        KeyCode::PageDown => Msg::PageDown,
         KeyCode::Left => Msg::Left,
         KeyCode::Right => Msg::Right,
         KeyCode::Tab => Msg::NextPanel,
