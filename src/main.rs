@@ -760,7 +760,7 @@ fn run_diagnose(
 ) -> Result<ExitCode> {
     let (supply, file) = resolve(name, cli_dir, no_demo)?;
     let d = diagnose::diagnose(&supply, &readings).map_err(|e| anyhow::anyhow!("{e}"))?;
-    let today = railcheck::tui::app::today();
+    let today = railcheck::clock::today();
     let mut fitted = None;
     match save {
         Save::No => {}

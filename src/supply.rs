@@ -138,6 +138,11 @@ pub struct Supply {
     pub load: Load,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub regulator: Option<Regulator>,
+    /// Keys whose values came from a template or were filled in by the form, not yet
+    /// confirmed by the technician (`unconfirmed = ["filter.esr_ohms", ...]`): the screen
+    /// marks them as guesses until they are set.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub unconfirmed: Vec<String>,
     /// What a known-good visit told of the unit's unknowns (`[calibration]`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub calibration: Option<crate::calibration::Calibration>,

@@ -4,7 +4,7 @@
 use railcheck::library::Library;
 use railcheck::supply::Supply;
 use railcheck::tui::app::{App, Mode, Msg};
-use railcheck::tui::fields::{FIELDS, Key};
+use railcheck::tui::fields::FIELDS;
 use ratatui::Terminal;
 use ratatui::backend::TestBackend;
 use std::path::PathBuf;
@@ -34,30 +34,32 @@ fn typed(app: &mut App, text: &str) {
     }
 }
 
-fn go_to_field(app: &mut App, key: Key) {
+/// Moves the form's cursor to the row of the file key `path` as a technician would: Tab to
+/// the form, then Up to the top and Down until there.
+fn go_to_field(app: &mut App, path: &str) {
     for _ in 0..3 {
         if app.panel == railcheck::tui::app::Panel::Form {
             break;
         }
         app.update(Msg::NextPanel);
     }
-    let target = FIELDS.iter().position(|f| f.key == key).unwrap();
     for _ in 0..FIELDS.len() {
         app.update(Msg::Up);
     }
-    for _ in 0..target {
+    for _ in 0..FIELDS.len() {
+        if FIELDS[app.open.as_ref().unwrap().field].path == path {
+            return;
+        }
         app.update(Msg::Down);
     }
+    panic!("no row {path} in the form");
 }
 
-/// Types `text` into the field `key` as a technician would: move there, Enter, clear, type,
-/// Enter.
-fn set_field(app: &mut App, key: Key, text: &str) {
-    go_to_field(app, key);
+/// Types `text` into the field of `path` as a technician would: move there, Enter, type (the
+/// old value, selected, goes with the first key), Enter.
+fn set_field(app: &mut App, path: &str, text: &str) {
+    go_to_field(app, path);
     app.update(Msg::Enter);
-    for _ in 0..10 {
-        app.update(Msg::Backspace);
-    }
     typed(app, text);
     app.update(Msg::Enter);
 }
@@ -103,7 +105,7 @@ fn editing_the_capacitance_changes_the_results_and_saves() {
     let (mut app, _) = demo("edit");
     select(&mut app, PUMP);
     let ripple_before = figure(&app, "ripple_pp_v");
-    set_field(&mut app, Key::Uf, "1m");
+    set_field(&mut app, "filter.uf", "1m");
     let o = app.open.as_ref().unwrap();
     assert_eq!(o.supply.filter.uf, Some(1000.0), "1m is 1 mF, 1000 uF");
     let ripple_after = figure(&app, "ripple_pp_v");
@@ -127,7 +129,7 @@ fn editing_the_capacitance_changes_the_results_and_saves() {
 fn an_invalid_value_shows_why_and_keeps_the_old_value() {
     let (mut app, _) = demo("invalid");
     select(&mut app, PUMP);
-    set_field(&mut app, Key::Uf, "-47");
+    set_field(&mut app, "filter.uf", "-47");
     let o = app.open.as_ref().unwrap();
     assert_eq!(o.supply.filter.uf, Some(2200.0));
     let (_, why) = o.field_error.as_ref().expect("a reason is shown");
@@ -156,7 +158,7 @@ fn what_if_discard_leaves_the_file_as_it_was() {
     let file = app.open.as_ref().unwrap().entry.file.clone();
     let before = std::fs::read(&file).unwrap();
     app.update(Msg::Char('x'));
-    set_field(&mut app, Key::Uf, "470");
+    set_field(&mut app, "filter.uf", "470");
     assert_eq!(app.open.as_ref().unwrap().supply.filter.uf, Some(470.0));
     // The screen shows the change against the saved supply.
     let shown = screen(&app, 120, 40);
@@ -182,7 +184,7 @@ fn what_if_discard_leaves_the_file_as_it_was() {
 fn quitting_with_an_edit_in_progress_loses_nothing() {
     let (mut app, _) = demo("quit");
     select(&mut app, PUMP);
-    go_to_field(&mut app, Key::EsrOhms);
+    go_to_field(&mut app, "filter.esr_ohms");
     app.update(Msg::Enter);
     for _ in 0..10 {
         app.update(Msg::Backspace);
@@ -323,7 +325,7 @@ fn screens_at_80x24_and_120x40() {
         app.update(Msg::Char('v'));
         insta::assert_snapshot!(format!("visits_{w}x{h}"), screen(&app, w, h));
         app.update(Msg::Char('v'));
-        set_field(&mut app, Key::Uf, "-47");
+        set_field(&mut app, "filter.uf", "-47");
         insta::assert_snapshot!(format!("refused_value_{w}x{h}"), screen(&app, w, h));
     }
 }
@@ -433,8 +435,8 @@ fn only_the_newest_edit_s_solve_is_shown() {
     let (mut app, _) = demo("newest");
     select(&mut app, PUMP);
     app.patience = Some(std::time::Duration::ZERO);
-    set_field(&mut app, Key::Uf, "1500");
-    set_field(&mut app, Key::Uf, "1000");
+    set_field(&mut app, "filter.uf", "1500");
+    set_field(&mut app, "filter.uf", "1000");
     app.wait_idle();
     let o = app.open.as_ref().unwrap();
     assert!(!o.solving);
@@ -454,7 +456,7 @@ fn a_command_saving_under_an_open_screen_brings_the_dialog_not_a_loss() {
     let (mut app, dir) = demo("screen-and-command");
     select(&mut app, PUMP);
     // The screen's own save first: its idea of the file must be what it wrote.
-    set_field(&mut app, Key::Uf, "2m");
+    set_field(&mut app, "filter.uf", "2m");
     assert_eq!(app.mode, Mode::Normal);
     let file = app.open.as_ref().unwrap().entry.file.clone();
     // Meanwhile a command (its own library handle) records a visit.
@@ -466,7 +468,7 @@ fn a_command_saving_under_an_open_screen_brings_the_dialog_not_a_loss() {
     other.append_visit(&file, &basis, visit).unwrap();
     let theirs = std::fs::read_to_string(&file).unwrap();
     // The screen saves another edit: refused, the dialog opens, the file is theirs.
-    set_field(&mut app, Key::Uf, "1m");
+    set_field(&mut app, "filter.uf", "1m");
     assert_eq!(app.mode, Mode::Conflict, "{}", app.status);
     assert_eq!(std::fs::read_to_string(&file).unwrap(), theirs);
     assert!(screen(&app, 100, 30).contains("reload theirs"));

@@ -105,6 +105,13 @@ pub enum EntryState {
     Unreadable { error: String },
 }
 
+/// A supply in the library's trash.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Trashed {
+    pub file: PathBuf,
+    pub name: String,
+}
+
 impl Entry {
     /// The supply, when the file could be read.
     pub fn supply(&self) -> Option<&Supply> {
@@ -312,6 +319,69 @@ impl Library {
         self.dir.join(file)
     }
 
+    /// The library's trash folder, where deleted supplies go (`.trash`).
+    pub fn trash_dir(&self) -> PathBuf {
+        self.dir.join(".trash")
+    }
+
+    /// Moves `file` into the trash (under a name of its own there, so an older deleted file
+    /// of the same name is kept); returns where it went. Done under the lock.
+    pub fn trash(&self, file: &Path) -> Result<PathBuf, LibraryError> {
+        let _lock = self.lock()?;
+        let trash = self.trash_dir();
+        fs::create_dir_all(&trash).map_err(io_err(&trash))?;
+        let name = file
+            .file_name()
+            .map(|f| f.to_string_lossy().into_owned())
+            .unwrap_or_else(|| "supply.toml".into());
+        let stem = name.trim_end_matches(".toml");
+        let to = trash.join(slug::unique(stem, |f| {
+            fs::symlink_metadata(trash.join(f)).is_ok()
+        }));
+        fs::rename(file, &to).map_err(io_err(file))?;
+        Ok(to)
+    }
+
+    /// The supplies in the trash, newest first, each with its name (or its file name when
+    /// unreadable).
+    pub fn trashed(&self) -> Vec<Trashed> {
+        let Ok(dir) = fs::read_dir(self.trash_dir()) else {
+            return Vec::new();
+        };
+        let mut items: Vec<(std::time::SystemTime, Trashed)> = dir
+            .flatten()
+            .filter(|e| e.path().extension().is_some_and(|x| x == "toml"))
+            .filter(|e| e.file_type().is_ok_and(|t| t.is_file()))
+            .map(|e| {
+                let file = e.path();
+                let entry = read_library_entry(&file);
+                let when = e
+                    .metadata()
+                    .and_then(|m| m.modified())
+                    .unwrap_or(std::time::UNIX_EPOCH);
+                (
+                    when,
+                    Trashed {
+                        name: entry.name(),
+                        file,
+                    },
+                )
+            })
+            .collect();
+        items.sort_by(|a, b| b.0.cmp(&a.0).then_with(|| a.1.name.cmp(&b.1.name)));
+        items.into_iter().map(|(_, t)| t).collect()
+    }
+
+    /// Moves a trashed file back into the library under a file name not taken there; returns
+    /// its new path. Done under the lock.
+    pub fn restore(&self, trashed: &Path) -> Result<PathBuf, LibraryError> {
+        let _lock = self.lock()?;
+        let name = read_library_entry(trashed).name();
+        let to = self.new_file_for(name.trim_end_matches(".toml"));
+        fs::rename(trashed, &to).map_err(io_err(trashed))?;
+        Ok(to)
+    }
+
     /// Saves `new` over the entry it was loaded as, keeping the file's comments and unknown
     /// keys, refusing if the file changed on disk since; returns the file as written.
     pub fn save(&self, entry: &Entry, new: &Supply) -> Result<Entry, LibraryError> {
@@ -349,6 +419,35 @@ impl Library {
             return Err(LibraryError::ChangedOnDisk(entry.file.clone()));
         }
         write_merged(&entry.file, text, old, new, hook)
+    }
+
+    /// As [`Library::save`], but writing `new` into `base_text`, an earlier text of the same
+    /// file whose supply was `base` (an undo back to it): the comments and layout of that
+    /// text come back with its values, where a merge into the current text would add the
+    /// returning keys bare. The file must still be as `entry` was read.
+    pub fn save_restoring(
+        &self,
+        entry: &Entry,
+        new: &Supply,
+        base: &Supply,
+        base_text: &str,
+    ) -> Result<Entry, LibraryError> {
+        new.validate().map_err(|e| LibraryError::Unreadable {
+            path: entry.file.clone(),
+            error: e.to_string(),
+        })?;
+        let EntryState::Ok { fingerprint, .. } = &entry.state else {
+            return Err(LibraryError::Unreadable {
+                path: entry.file.clone(),
+                error: "an unreadable file is never overwritten".into(),
+            });
+        };
+        let _lock = self.lock()?;
+        let on_disk = store::read_plain(&entry.file, true).map_err(io_err(&entry.file))?;
+        if store::fingerprint(&on_disk) != *fingerprint {
+            return Err(LibraryError::ChangedOnDisk(entry.file.clone()));
+        }
+        write_merged(&entry.file, base_text, base, new, &|_| Ok(()))
     }
 
     /// Records `visit` in the library file `file`, whose supply (less its visits) was

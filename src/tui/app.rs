@@ -1,7 +1,9 @@
 //! The screen's state (the model) and how messages change it (the update). Nothing here draws
 //! or reads the terminal, so key sequences are tested by calling `update`.
 
-use super::fields::FIELDS;
+use super::fields::{Change, FIELDS};
+use super::keys::{Action, action};
+use super::line_editor::{LineEditor, LineKey};
 use super::worker::{Done, Job, Worker};
 use crate::analysis::cautions::{SAFE_TOUCH_V, cautions};
 use crate::analysis::checks::{self, Check};
@@ -26,7 +28,16 @@ pub enum Mode {
     Normal,
     /// Typing a new value into the form field.
     Editing {
-        buffer: String,
+        editor: LineEditor,
+    },
+    /// Choosing a choice field's word from a list.
+    Picker {
+        choice: usize,
+    },
+    /// The library's trash: deleted supplies, to restore one.
+    Trash {
+        items: Vec<crate::library::Trashed>,
+        selected: usize,
     },
     /// Typing the list filter.
     Filter,
@@ -43,11 +54,24 @@ pub enum Mode {
     Conflict,
 }
 
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq)]
 pub enum Confirm {
-    Delete,
+    /// Moving the highlighted supply's file to the trash.
+    Delete {
+        file: std::path::PathBuf,
+        name: String,
+    },
     /// Leaving what-if: keep the scratch values or go back.
     EndWhatIf,
+    /// A change that drops values (`key = value` each), e.g. switching the transformer from
+    /// its ratio to its nameplate.
+    Drop {
+        change: Box<Supply>,
+        what: String,
+        drops: Vec<String>,
+    },
+    /// Leaving a visit form that has readings typed in.
+    DropVisit(VisitForm),
 }
 
 /// The readings form of a visit being recorded.
@@ -58,9 +82,28 @@ pub struct VisitForm {
     pub error: Option<String>,
 }
 
+impl VisitForm {
+    /// A new form dated `date`, the cursor on the mains.
+    pub fn new(date: String) -> VisitForm {
+        let mut values = vec![String::new(); VISIT_FIELDS.len()];
+        values[0] = date;
+        VisitForm {
+            field: 2,
+            values,
+            error: None,
+        }
+    }
+
+    /// Whether anything beyond the date was typed.
+    pub fn touched(&self) -> bool {
+        self.values.iter().skip(1).any(|v| !v.trim().is_empty())
+    }
+}
+
 /// The readings a visit form asks for, in order, with their visit keys.
-pub const VISIT_FIELDS: [(&str, &str); 9] = [
+pub const VISIT_FIELDS: [(&str, &str); 11] = [
     ("Date (YYYY-MM-DD)", "date"),
+    ("Technician", "technician"),
     ("Mains RMS V", "mains_vrms"),
     ("Secondary AC V", "secondary_vac"),
     ("DC V", "dc_v"),
@@ -68,6 +111,7 @@ pub const VISIT_FIELDS: [(&str, &str); 9] = [
     ("Ripple RMS V (meter)", "ripple_rms_v"),
     ("Ripple Hz", "ripple_hz"),
     ("Load A", "load_a"),
+    ("Replaced (C1 4700uF, T1)", "replaced"),
     ("Notes", "notes"),
 ];
 
@@ -171,7 +215,13 @@ pub struct Open {
     /// How many lines the results panel (or the visits view) is scrolled down; the view
     /// clamps it to what there is to show.
     pub results_scroll: u16,
+    /// Earlier versions of the file as this screen wrote them, each with its supply: an undo
+    /// back to one writes that text again, its comments with it.
+    texts: Vec<(Supply, String)>,
 }
+
+/// How many earlier texts of the open file are kept for undo.
+const TEXTS_KEPT: usize = 32;
 
 impl Open {
     /// The supply opened; its solve is asked for by the caller ([`App::request_solve`]).
@@ -189,6 +239,7 @@ impl Open {
             solved,
             show_visits: false,
             results_scroll: 0,
+            texts: Vec::new(),
             last_diagnosis: None,
             trend: None,
             solving: true,
@@ -237,39 +288,43 @@ pub struct App {
     /// waits at most a frame and shows "working" past that; None waits for every answer, which
     /// makes a key sequence deterministic for tests, screenshots and benchmarks.
     pub patience: Option<Duration>,
+    /// Ctrl-Z asked to suspend: the terminal loop hands the terminal back to the shell and
+    /// takes it again on `fg`.
+    pub suspend: bool,
     worker: Worker,
 }
 
-/// What a key asks for, once the mode has read it.
+/// A key as the screen receives it; the mode reads it, and on the main screen the key table
+/// ([`super::keys`]) says what it asks for.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Msg {
+    /// Ctrl-C.
     Quit,
+    /// Ctrl-Z.
+    Suspend,
     Up,
     Down,
-    /// A page up or down: the results panel scrolls by a screenful, the list and the form
-    /// move by ten.
+    /// A page up or down: the results panel scrolls by ten lines, the list and the form move
+    /// by ten.
     PageUp,
     PageDown,
     Left,
     Right,
+    Home,
+    End,
     NextPanel,
     PrevPanel,
     Enter,
     Escape,
     Char(char),
+    /// A Ctrl+letter other than C and Z: the field editor reads some; elsewhere it does
+    /// nothing.
+    Ctrl(char),
     Backspace,
-    Help,
-    Save,
-    Undo,
-    Redo,
-    WhatIf,
-    SketchToggle,
-    New,
-    Duplicate,
+    /// The Delete key.
     Delete,
-    Visits,
-    AddVisit,
-    Reload,
+    /// F1.
+    Help,
 }
 
 impl App {
@@ -290,6 +345,7 @@ impl App {
             sketch_low: false,
             escaped: false,
             patience: None,
+            suspend: false,
             worker: Worker::start(),
         };
         app.open_selected();
@@ -410,8 +466,27 @@ impl App {
             Some((before, _)) => before.clone(),
             None => open.supply.clone(),
         };
-        match self.library.save(&open.entry, &to_save) {
+        // Back to a version this screen wrote (an undo): that text, comments and all.
+        let earlier = open
+            .texts
+            .iter()
+            .rev()
+            .find(|(s, _)| *s == to_save)
+            .cloned();
+        let result = match &earlier {
+            Some((base, text)) => self
+                .library
+                .save_restoring(&open.entry, &to_save, base, text),
+            None => self.library.save(&open.entry, &to_save),
+        };
+        match result {
             Ok(written) => {
+                if let EntryState::Ok { text, .. } = &open.entry.state {
+                    open.texts.push((open.saved.clone(), text.clone()));
+                    if open.texts.len() > TEXTS_KEPT {
+                        open.texts.remove(0);
+                    }
+                }
                 // The file as written, not as re-read: another program may change it the
                 // moment after, and that change must meet the next save's check.
                 self.status = format!("saved {}", written.file.display());
@@ -467,16 +542,21 @@ impl App {
         let was_escape = msg == Msg::Escape;
         match self.mode.clone() {
             Mode::Normal => self.normal(msg),
-            Mode::Editing { buffer } => self.editing(msg, buffer),
+            Mode::Editing { editor } => self.editing(msg, editor),
+            Mode::Picker { choice } => self.picking(msg, choice),
             Mode::Filter => self.filtering(msg),
             Mode::Help => {
-                if matches!(msg, Msg::Escape | Msg::Enter | Msg::Help | Msg::Char('q')) {
+                if matches!(
+                    msg,
+                    Msg::Escape | Msg::Enter | Msg::Help | Msg::Char('q' | '?')
+                ) {
                     self.mode = Mode::Normal;
                 }
             }
             Mode::Confirm(what) => self.confirm(what, msg),
             Mode::NewSupply { topology } => self.new_supply(msg, topology),
             Mode::Visit(form) => self.visit_form(msg, form),
+            Mode::Trash { items, selected } => self.trash(msg, items, selected),
             Mode::Conflict => self.conflict(msg),
         }
         self.escaped = was_escape;
@@ -499,68 +579,82 @@ impl App {
     }
 
     fn normal(&mut self, msg: Msg) {
-        match msg {
-            Msg::Quit => self.quit_now(),
-            Msg::Char('q') => self.quit_now(),
-            Msg::Help | Msg::Char('?') => self.mode = Mode::Help,
-            Msg::NextPanel => {
+        // A digit typed on a number field starts typing its new value at once.
+        if let (Msg::Char(c @ ('0'..='9' | '.')), Panel::Form, Some(o)) =
+            (&msg, self.panel, &self.open)
+            && matches!(FIELDS[o.field].edit, super::fields::Edit::Number(_))
+        {
+            let mut editor = LineEditor::new(&FIELDS[o.field].show(&o.supply));
+            editor.key(LineKey::Char(*c));
+            self.mode = Mode::Editing { editor };
+            return;
+        }
+        let Some(act) = action(&msg) else { return };
+        match act {
+            Action::Quit => self.quit_now(),
+            Action::Suspend => self.suspend = true,
+            Action::Help => self.mode = Mode::Help,
+            Action::NextPanel => {
                 self.panel = match self.panel {
                     Panel::List => Panel::Form,
                     Panel::Form => Panel::Results,
                     Panel::Results => Panel::List,
                 }
             }
-            Msg::PrevPanel => {
+            Action::PrevPanel => {
                 self.panel = match self.panel {
                     Panel::List => Panel::Results,
                     Panel::Form => Panel::List,
                     Panel::Results => Panel::Form,
                 }
             }
-            Msg::Escape => {
+            Action::Escape => {
                 if let Some(o) = &mut self.open {
                     o.field_error = None;
                 }
             }
-            Msg::Up | Msg::Char('k') => self.move_by(-1),
-            Msg::Down | Msg::Char('j') => self.move_by(1),
-            Msg::PageUp => self.move_by(-10),
-            Msg::PageDown => self.move_by(10),
-            Msg::Left | Msg::Char('h') => self.cycle_choice(false),
-            Msg::Right | Msg::Char('l') => self.cycle_choice(true),
-            Msg::Enter => match self.panel {
+            Action::Up => self.move_by(-1),
+            Action::Down => self.move_by(1),
+            Action::PageUp => self.move_by(-10),
+            Action::PageDown => self.move_by(10),
+            Action::ChangeChoice(forward) => self.cycle_choice(forward),
+            Action::Enter => match self.panel {
                 Panel::List => self.panel = Panel::Form,
-                Panel::Form => {
-                    if let Some(o) = &self.open {
-                        let key = FIELDS[o.field].key;
-                        let text = key.show(&o.supply);
-                        let text = if text == "-" || text.ends_with("(nameplate)") {
-                            String::new()
-                        } else {
-                            text
-                        };
-                        self.mode = Mode::Editing { buffer: text };
-                    }
-                }
+                Panel::Form => self.open_field(),
                 Panel::Results => {}
             },
-            Msg::Char('/') => {
+            Action::Filter => {
                 self.panel = Panel::List;
                 self.mode = Mode::Filter;
             }
-            Msg::Save | Msg::Char('s') => self.save_now(),
-            Msg::Undo | Msg::Char('u') => self.undo(true),
-            Msg::Redo | Msg::Char('U') => self.undo(false),
-            Msg::WhatIf | Msg::Char('x') => self.what_if(),
-            Msg::SketchToggle | Msg::Char('w') => self.sketch_low = !self.sketch_low,
-            Msg::New | Msg::Char('n') => self.mode = Mode::NewSupply { topology: 2 },
-            Msg::Duplicate | Msg::Char('c') => self.duplicate(),
-            Msg::Delete | Msg::Char('D') if self.open.is_some() => {
-                self.mode = Mode::Confirm(Confirm::Delete);
+            Action::Save => self.save_now(),
+            Action::Undo => self.undo(true),
+            Action::Redo => self.undo(false),
+            Action::WhatIf => self.what_if(),
+            Action::Sketch => self.sketch_low = !self.sketch_low,
+            Action::New => self.mode = Mode::NewSupply { topology: 2 },
+            Action::Copy => self.duplicate(),
+            Action::Delete => {
+                if let Some(e) = self.highlighted() {
+                    self.mode = Mode::Confirm(Confirm::Delete {
+                        file: e.file.clone(),
+                        name: e.name(),
+                    });
+                }
             }
-            Msg::Visits | Msg::Char('v') => {
+            Action::Trash => {
+                let items = self.library.trashed();
+                self.status = if items.is_empty() {
+                    "the trash is empty".into()
+                } else {
+                    "the trash: Enter restores the highlighted supply, Esc closes".into()
+                };
+                self.mode = Mode::Trash { items, selected: 0 };
+            }
+            Action::Visits => {
                 if let Some(o) = &mut self.open {
                     o.show_visits = !o.show_visits;
+                    o.results_scroll = 0;
                     let want = o.show_visits;
                     self.panel = Panel::Results;
                     if want {
@@ -568,25 +662,51 @@ impl App {
                     }
                 }
             }
-            Msg::Char('b') if self.open.as_ref().is_some_and(|o| o.show_visits) => {
-                self.calibrate_on_newest();
+            Action::Calibrate => {
+                if self.open.as_ref().is_some_and(|o| o.show_visits) {
+                    self.calibrate_on_newest();
+                } else {
+                    self.status = "b calibrates in the visits view: v shows it".into();
+                }
             }
-            Msg::AddVisit | Msg::Char('a') if self.open.is_some() => {
-                let mut values = vec![String::new(); VISIT_FIELDS.len()];
-                values[0] = today();
-                self.mode = Mode::Visit(VisitForm {
-                    field: 1,
-                    values,
-                    error: None,
-                });
+            Action::AddVisit => {
+                if self.open.is_some() {
+                    self.mode = Mode::Visit(VisitForm::new(crate::clock::today()));
+                }
             }
-            Msg::Reload | Msg::Char('R') => {
+            Action::Reload => {
                 self.refresh_entries();
                 self.open_selected();
                 self.status = "reloaded from disk".into();
             }
-            _ => {}
         }
+    }
+
+    /// The entry the list highlights.
+    pub fn highlighted(&self) -> Option<&Entry> {
+        self.visible().get(self.selected).map(|&i| &self.entries[i])
+    }
+
+    /// Enter on a form field: a choice opens its list, any other field its line editor with
+    /// the old value selected.
+    fn open_field(&mut self) {
+        let Some(o) = &self.open else { return };
+        let f = &FIELDS[o.field];
+        if f.is_choice() {
+            let now = f.show(&o.supply);
+            let choice = f.words().iter().position(|w| *w == now).unwrap_or(0);
+            self.mode = Mode::Picker { choice };
+            return;
+        }
+        let text = f.show(&o.supply);
+        let text = if text == "-" || text.ends_with("(nameplate)") {
+            String::new()
+        } else {
+            text
+        };
+        self.mode = Mode::Editing {
+            editor: LineEditor::new(&text),
+        };
     }
 
     fn save_now(&mut self) {
@@ -609,8 +729,7 @@ impl App {
             }
             Panel::Form => {
                 if let Some(o) = &mut self.open {
-                    let n = FIELDS.len() as i64;
-                    o.field = (o.field as i64 + delta).clamp(0, n - 1) as usize;
+                    o.field = step_field(&o.supply, o.field, delta);
                 }
             }
             Panel::Results => {
@@ -625,19 +744,61 @@ impl App {
         if self.panel != Panel::Form {
             return;
         }
-        let Some(o) = &mut self.open else { return };
-        let key = FIELDS[o.field].key;
-        if let Some(word) = key.cycle(&o.supply, forward) {
-            match key.apply(&o.supply, &word) {
-                Ok(next) => {
-                    o.field_error = None;
-                    if o.set(next) {
-                        self.request_solve();
-                    }
-                    self.autosave();
-                }
-                Err(e) => o.field_error = Some((o.field, e)),
+        let Some(o) = &self.open else { return };
+        let f = &FIELDS[o.field];
+        if let Some(word) = f.cycle(&o.supply, forward) {
+            self.apply_field(word);
+        }
+    }
+
+    /// Applies `text` to the field under the cursor: refused with its reason beside the field,
+    /// asked about first when it drops values, otherwise taken and saved.
+    fn apply_field(&mut self, text: &str) -> bool {
+        let Some(o) = &mut self.open else {
+            return false;
+        };
+        let field = o.field;
+        let f = &FIELDS[field];
+        match f.apply(&o.supply, text) {
+            Err(e) => {
+                o.field_error = Some((field, e));
+                false
             }
+            Ok(Change { supply, drops }) if !drops.is_empty() => {
+                o.field_error = None;
+                self.mode = Mode::Confirm(Confirm::Drop {
+                    change: Box::new(supply),
+                    what: format!("{} to {}", f.label, text.trim()),
+                    drops,
+                });
+                true
+            }
+            Ok(Change { supply, .. }) => {
+                o.field_error = None;
+                self.take_change(supply, &format!("{} set to {}", f.label, text.trim()));
+                true
+            }
+        }
+    }
+
+    /// Takes `next` as the open supply (undoable), solves and saves it, and says `what`.
+    fn take_change(&mut self, next: Supply, what: &str) {
+        let Some(o) = &mut self.open else { return };
+        let scratch = o.what_if.is_some();
+        let changed = o.set(next);
+        // A row the change hid (the ratio, once the nameplate is chosen) gives the cursor to
+        // the nearest row that applies.
+        o.field = step_field(&o.supply, o.field, 0);
+        if changed {
+            self.request_solve();
+        }
+        self.autosave();
+        if self.mode == Mode::Normal {
+            self.status = if scratch {
+                format!("{what} (what-if: not saved)")
+            } else {
+                format!("{what} (saved)")
+            };
         }
     }
 
@@ -650,53 +811,87 @@ impl App {
         }
     }
 
-    fn editing(&mut self, msg: Msg, mut buffer: String) {
-        match msg {
+    fn editing(&mut self, msg: Msg, mut editor: LineEditor) {
+        let key = match msg {
             // Quitting while typing keeps what was typed, if it is a valid value.
             Msg::Quit => {
-                self.editing(Msg::Enter, buffer);
+                self.mode = Mode::Normal;
+                self.apply_field(&editor.text);
                 self.mode = Mode::Normal;
                 self.quit_now();
+                return;
             }
-            Msg::Char(c) => {
-                buffer.push(c);
-                self.mode = Mode::Editing { buffer };
+            Msg::Escape => {
+                self.mode = Mode::Normal;
+                if let Some(o) = &mut self.open {
+                    o.field_error = None;
+                }
+                return;
             }
-            Msg::Backspace => {
-                buffer.pop();
-                self.mode = Mode::Editing { buffer };
+            Msg::Enter => {
+                self.mode = Mode::Normal;
+                let taken = self.apply_field(&editor.text);
+                if !taken && self.mode == Mode::Normal {
+                    // Refused: the old value stays, the reason shows beside the field, and
+                    // the typed text stays to be corrected.
+                    self.mode = Mode::Editing { editor };
+                } else if taken
+                    && self.mode == Mode::Normal
+                    && let Some(o) = &mut self.open
+                {
+                    // On to the next row, as a form filled in from top to bottom goes.
+                    o.field = step_field(&o.supply, o.field, 1);
+                }
+                return;
+            }
+            Msg::Char(c) => LineKey::Char(c),
+            Msg::Left => LineKey::Left,
+            Msg::Right => LineKey::Right,
+            Msg::Home | Msg::Ctrl('a') => LineKey::Home,
+            Msg::End | Msg::Ctrl('e') => LineKey::End,
+            Msg::Backspace => LineKey::Backspace,
+            Msg::Delete => LineKey::Delete,
+            Msg::Ctrl('u') => LineKey::Clear,
+            Msg::Ctrl('w') => LineKey::DeleteWord,
+            _ => {
+                self.mode = Mode::Editing { editor };
+                return;
+            }
+        };
+        editor.key(key);
+        self.mode = Mode::Editing { editor };
+    }
+
+    fn picking(&mut self, msg: Msg, choice: usize) {
+        let Some(o) = &self.open else {
+            self.mode = Mode::Normal;
+            return;
+        };
+        let words = FIELDS[o.field].words();
+        let n = words.len().max(1);
+        match msg {
+            Msg::Up | Msg::Char('k') => {
+                self.mode = Mode::Picker {
+                    choice: (choice + n - 1) % n,
+                }
+            }
+            Msg::Down | Msg::Char('j') => {
+                self.mode = Mode::Picker {
+                    choice: (choice + 1) % n,
+                }
             }
             Msg::Escape => self.mode = Mode::Normal,
             Msg::Enter => {
                 self.mode = Mode::Normal;
-                let Some(o) = &mut self.open else { return };
-                let key = FIELDS[o.field].key;
-                match key.apply(&o.supply, &buffer) {
-                    Ok(next) => {
-                        o.field_error = None;
-                        let changed = o.set(next);
-                        let label = FIELDS[o.field].label;
-                        let scratch = o.what_if.is_some();
-                        if changed {
-                            self.request_solve();
-                        }
-                        self.autosave();
-                        if self.mode == Mode::Normal {
-                            self.status = if scratch {
-                                format!("{label} set to {} (what-if: not saved)", buffer.trim())
-                            } else {
-                                format!("{label} set to {} (saved)", buffer.trim())
-                            };
-                        }
-                    }
-                    Err(e) => {
-                        // Refused: the old value stays, the reason shows beside the field.
-                        o.field_error = Some((o.field, e));
-                        self.mode = Mode::Editing { buffer };
-                    }
+                if let Some(w) = words.get(choice) {
+                    self.apply_field(w);
                 }
             }
-            _ => self.mode = Mode::Editing { buffer },
+            Msg::Quit => {
+                self.mode = Mode::Normal;
+                self.quit_now();
+            }
+            _ => {}
         }
     }
 
@@ -717,14 +912,29 @@ impl App {
         if !self.save_open() {
             return;
         }
-        let vis = self.visible();
-        self.selected = self.selected.min(vis.len().saturating_sub(1));
-        let open_file = self.open.as_ref().map(|o| o.entry.file.clone());
-        let now = vis
-            .get(self.selected)
-            .map(|&i| self.entries[i].file.clone());
-        if open_file != now {
+        // The open supply stays open while the filter lets it through, and the highlight goes
+        // with it; otherwise the first supply that passes opens.
+        if !self.follow_open() {
+            self.selected = 0;
             self.open_selected();
+        }
+    }
+
+    /// Moves the highlight to the open supply; false if the filter hides it.
+    fn follow_open(&mut self) -> bool {
+        let Some(file) = self.open.as_ref().map(|o| o.entry.file.clone()) else {
+            return false;
+        };
+        match self
+            .visible()
+            .iter()
+            .position(|&i| self.entries[i].file == file)
+        {
+            Some(pos) => {
+                self.selected = pos;
+                true
+            }
+            None => false,
         }
     }
 
@@ -737,6 +947,7 @@ impl App {
         };
         if let Some(prev) = from.pop() {
             to.push(std::mem::replace(&mut o.supply, prev));
+            o.field = step_field(&o.supply, o.field, 0);
             self.request_solve();
             self.autosave();
             self.status = if back {
@@ -765,8 +976,8 @@ impl App {
         }
         self.mode = Mode::Normal;
         match what {
-            Confirm::Delete if yes => self.delete(),
-            Confirm::Delete => {}
+            Confirm::Delete { file, name } if yes => self.delete(&file, &name),
+            Confirm::Delete { .. } => {}
             Confirm::EndWhatIf => {
                 let Some(o) = &mut self.open else { return };
                 let Some((before, solved)) = o.what_if.take() else {
@@ -784,39 +995,98 @@ impl App {
                     self.status = "what-if discarded".into();
                 }
             }
+            Confirm::Drop { change, what, .. } if yes => self.take_change(*change, &what),
+            Confirm::Drop { .. } => self.status = "nothing changed".into(),
+            // Leave the form: yes drops what was typed; no goes back to it.
+            Confirm::DropVisit(_) if yes => self.status = "the visit was not recorded".into(),
+            Confirm::DropVisit(form) => self.mode = Mode::Visit(form),
         }
     }
 
-    fn delete(&mut self) {
-        let Some(o) = &self.open else { return };
-        // Recoverable: the file moves to the library's .trash folder, not away.
-        let trash = self.library.dir.join(".trash");
-        let name = o.entry.file.file_name().unwrap_or_default().to_owned();
-        let moved = std::fs::create_dir_all(&trash)
-            .and_then(|_| std::fs::rename(&o.entry.file, trash.join(&name)));
-        self.status = match moved {
-            Ok(()) => format!("moved to {} (recoverable)", trash.join(&name).display()),
-            Err(e) => format!("not deleted: {e}"),
+    fn delete(&mut self, file: &std::path::Path, name: &str) {
+        let was_open = self.open.as_ref().is_some_and(|o| o.entry.file == file);
+        if was_open && !self.save_open() {
+            return;
+        }
+        self.status = match self.library.trash(file) {
+            Ok(to) => format!(
+                "{name} moved to {} (T lists the trash and restores it)",
+                to.display()
+            ),
+            Err(e) => format!("{name} not deleted: {e}"),
         };
-        self.open = None;
+        if was_open {
+            self.open = None;
+        }
         self.refresh_entries();
-        self.open_selected();
+        if self.open.is_none() {
+            self.open_selected();
+        } else {
+            self.follow_open();
+        }
+    }
+
+    fn trash(&mut self, msg: Msg, items: Vec<crate::library::Trashed>, selected: usize) {
+        let n = items.len();
+        match msg {
+            Msg::Up | Msg::Char('k') if n > 0 => {
+                self.mode = Mode::Trash {
+                    items,
+                    selected: (selected + n - 1) % n,
+                }
+            }
+            Msg::Down | Msg::Char('j') if n > 0 => {
+                self.mode = Mode::Trash {
+                    items,
+                    selected: (selected + 1) % n,
+                }
+            }
+            Msg::Enter if n > 0 => {
+                self.mode = Mode::Normal;
+                let item = &items[selected];
+                match self.library.restore(&item.file) {
+                    Ok(path) => {
+                        self.status = format!("{} restored as {}", item.name, path.display());
+                        if self.save_open() {
+                            self.select_file(&path);
+                        }
+                    }
+                    Err(e) => self.status = format!("{} not restored: {e}", item.name),
+                }
+            }
+            Msg::Escape | Msg::Char('q') | Msg::Char('T') | Msg::Enter => self.mode = Mode::Normal,
+            Msg::Quit => {
+                self.mode = Mode::Normal;
+                self.quit_now();
+            }
+            _ => self.mode = Mode::Trash { items, selected },
+        }
     }
 
     fn duplicate(&mut self) {
-        let Some(o) = &self.open else { return };
-        let mut copy = o.supply.clone();
+        let Some(e) = self.highlighted() else { return };
+        let Some(source) = e.supply() else {
+            self.status = format!("{} is unreadable: nothing to copy", e.name());
+            return;
+        };
+        // The highlighted supply as the form has it when it is the open one (edits included).
+        let mut copy = match &self.open {
+            Some(o) if o.entry.file == e.file => o.supply.clone(),
+            _ => source.clone(),
+        };
+        let from = copy.name.clone();
         copy.name = format!("{} (copy)", copy.name);
         copy.visits.clear();
+        copy.calibration = None;
         if !self.save_open() {
             return;
         }
         match self.library.add(&copy, None) {
             Ok(path) => {
-                self.status = format!("duplicated as {}", path.display());
+                self.status = format!("{from} copied as {}", path.display());
                 self.select_file(&path);
             }
-            Err(e) => self.status = format!("not duplicated: {e}"),
+            Err(e) => self.status = format!("{from} not copied: {e}"),
         }
     }
 
@@ -857,7 +1127,12 @@ impl App {
     fn visit_form(&mut self, msg: Msg, mut form: VisitForm) {
         match msg {
             Msg::Escape => {
-                self.mode = Mode::Normal;
+                // Typed readings are a record in the making: leaving asks first.
+                self.mode = if form.touched() {
+                    Mode::Confirm(Confirm::DropVisit(form))
+                } else {
+                    Mode::Normal
+                };
                 return;
             }
             Msg::Up => form.field = form.field.saturating_sub(1),
@@ -867,6 +1142,7 @@ impl App {
             Msg::Backspace => {
                 form.values[form.field].pop();
             }
+            Msg::Ctrl('u') => form.values[form.field].clear(),
             Msg::Enter => match self.record_visit(&form) {
                 Ok(()) => {
                     self.mode = Mode::Normal;
@@ -892,7 +1168,14 @@ impl App {
                     text.parse()
                         .map_err(|_| format!("{label}: {text:?} is not a date like 2026-11-30"))?,
                 ),
-                "notes" => toml::Value::String(text.to_string()),
+                "notes" | "technician" => toml::Value::String(text.to_string()),
+                "replaced" => toml::Value::Array(
+                    text.split(',')
+                        .map(str::trim)
+                        .filter(|p| !p.is_empty())
+                        .map(|p| toml::Value::String(p.to_string()))
+                        .collect(),
+                ),
                 _ => toml::Value::Float(
                     crate::units::parse_si(text).map_err(|e| format!("{label}: {e}"))?,
                 ),
@@ -918,6 +1201,8 @@ impl App {
             let d = crate::diagnose::diagnose(&o.saved, &readings).map_err(|e| e.to_string())?;
             let mut with = crate::diagnose::visit_of(&readings, &d, &visit.date_text());
             with.notes = std::mem::take(&mut visit.notes);
+            with.technician = std::mem::take(&mut visit.technician);
+            with.replaced = std::mem::take(&mut visit.replaced);
             visit = with;
             o.last_diagnosis = Some(d);
         }
@@ -939,7 +1224,18 @@ impl App {
         }
         self.request_trend();
         if self.save_open() {
-            self.status = "visit recorded and saved".into();
+            let capacitor = self
+                .open
+                .as_ref()
+                .and_then(|o| o.supply.visits.last())
+                .is_some_and(|v| v.replaced_capacitor());
+            self.status = if capacitor {
+                "visit recorded and saved; a filter capacitor was replaced: its trend starts \
+                 again from the next visit"
+                    .into()
+            } else {
+                "visit recorded and saved".into()
+            };
         }
         Ok(())
     }
@@ -1036,14 +1332,47 @@ pub fn template(topology: Topology) -> Supply {
         topology.key(),
         topology.key()
     );
-    Supply::from_toml_str(&text).expect("the template is valid")
+    let mut s = Supply::from_toml_str(&text).expect("the template is valid");
+    // Round numbers to start from, not facts of the unit: marked until the technician sets them.
+    s.unconfirmed = [
+        "name",
+        "mains.vrms",
+        "mains.hz",
+        "transformer.ratio",
+        "transformer.secondary_ohms",
+        "filter.uf",
+        "filter.esr_ohms",
+        "load.amps",
+    ]
+    .map(String::from)
+    .to_vec();
+    s
 }
 
-/// Today's date as YYYY-MM-DD (UTC), from the system clock.
-pub fn today() -> String {
-    let secs = std::time::SystemTime::now()
-        .duration_since(std::time::UNIX_EPOCH)
-        .map(|d| d.as_secs())
-        .unwrap_or(0);
-    crate::visit::civil_from_days((secs / 86_400) as i64)
+/// The nearest row to `from` that applies to `s`, `delta` rows on (0: `from` itself if it
+/// applies, else the next one that does, else the previous).
+fn step_field(s: &Supply, from: usize, delta: i64) -> usize {
+    let applies = |i: usize| FIELDS[i].applies(s);
+    let n = FIELDS.len() as i64;
+    let mut at = from.min(FIELDS.len() - 1);
+    let step = delta.signum();
+    let mut left = delta.abs();
+    while left > 0 {
+        let mut next = at as i64 + step;
+        while (0..n).contains(&next) && !applies(next as usize) {
+            next += step;
+        }
+        if !(0..n).contains(&next) {
+            break;
+        }
+        at = next as usize;
+        left -= 1;
+    }
+    if applies(at) {
+        return at;
+    }
+    (at..FIELDS.len())
+        .find(|&i| applies(i))
+        .or_else(|| (0..at).rev().find(|&i| applies(i)))
+        .unwrap_or(0)
 }

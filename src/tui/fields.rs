@@ -1,354 +1,704 @@
-//! The form's fields: how each shows a supply's value and how a typed text is applied to it.
+//! The form's fields: one table holding every key of the supply file, grouped as the file is,
+//! each row with its label, its file key, how it is edited, when it applies and its help line.
+//! A number's allowed range and the reason for it are the validator's own ([`crate::supply`]'s
+//! range table), so the form, its help line and the validator cannot disagree. Values are read
+//! and written through the file's own key paths (`filter.uf`), so a new key is a new row.
 //! Values are typed in engineering notation (`4k7`, `47u`, `2m2`); a bad one is refused with
 //! the reason and never applied.
 
-use crate::supply::{DiodeSpec, FilterKind, Regulator, Supply, Topology};
-use crate::units::parse_si;
+use crate::supply::{self as s, DiodeSpec, FilterKind, Range, Regulator, Supply, Topology};
+use crate::units::{format_number, parse_si};
 
-/// One editable line of the form.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub struct Field {
-    pub group: &'static str,
-    pub label: &'static str,
-    pub key: Key,
+/// How a row is edited.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Edit {
+    /// Free text; a required one cannot be emptied.
+    Text { required: bool },
+    /// A number in the range's unit (a microfarad key reads a bare number as uF and a prefix
+    /// as farads: `2m2` is 2200 uF).
+    Number(&'static Range),
+    /// One of a few words: Left/Right cycle them, Enter opens a picker.
+    Choice(Choice),
 }
 
-/// What a field edits.
+/// The rows that choose among words, some of which change which other rows apply.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Key {
-    Name,
-    MainsVrms,
-    MainsHz,
-    MainsLowPct,
-    MainsHighPct,
-    Crest,
-    Ratio,
-    SecondaryOhms,
-    PrimaryOhms,
+pub enum Choice {
     Topology,
     Diode,
     FilterKind,
-    Uf,
-    EsrOhms,
-    CapLowPct,
-    CapHighPct,
-    RatedV,
-    SeriesOhms,
-    SecondUf,
-    LoadAmps,
-    LoadOhms,
-    RegulatorOutput,
-    RegulatorDropout,
+    /// The transformer given by its turns ratio or by its nameplate.
+    TransformerForm,
+    /// A resistive or a constant-current load.
+    LoadKind,
+    /// A linear regulator after the filter, or none.
+    Regulator,
 }
 
-/// The form, in its groups: mains, transformer, rectifier, filter, load, regulator.
-pub const FIELDS: [Field; 23] = [
+/// When a row applies to a supply (a row that does not is not shown).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum When {
+    Always,
+    RatioForm,
+    NameplateForm,
+    Filtered,
+    Crc,
+    FixedDiode,
+    JunctionDiode,
+    CurrentLoad,
+    ResistiveLoad,
+    Regulated,
+}
+
+/// One row of the form.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Field {
+    pub group: &'static str,
+    pub label: &'static str,
+    /// The file's key (`filter.uf`); a choice of form has a name of its own
+    /// (`transformer.form`).
+    pub path: &'static str,
+    pub edit: Edit,
+    pub when: When,
+    /// A line of help for rows whose range does not say it (text and choices).
+    pub help: &'static str,
+}
+
+const fn number(
+    group: &'static str,
+    label: &'static str,
+    range: &'static Range,
+    when: When,
+) -> Field {
+    Field {
+        group,
+        label,
+        path: range.key,
+        edit: Edit::Number(range),
+        when,
+        help: "",
+    }
+}
+
+const fn choice(
+    group: &'static str,
+    label: &'static str,
+    path: &'static str,
+    which: Choice,
+    help: &'static str,
+) -> Field {
+    Field {
+        group,
+        label,
+        path,
+        edit: Edit::Choice(which),
+        when: When::Always,
+        help,
+    }
+}
+
+const fn text(
+    label: &'static str,
+    path: &'static str,
+    required: bool,
+    help: &'static str,
+) -> Field {
     Field {
         group: "Supply",
-        label: "Name",
-        key: Key::Name,
-    },
-    Field {
-        group: "Mains",
-        label: "RMS volts",
-        key: Key::MainsVrms,
-    },
-    Field {
-        group: "Mains",
-        label: "Frequency Hz",
-        key: Key::MainsHz,
-    },
-    Field {
-        group: "Mains",
-        label: "Low %",
-        key: Key::MainsLowPct,
-    },
-    Field {
-        group: "Mains",
-        label: "High %",
-        key: Key::MainsHighPct,
-    },
-    Field {
-        group: "Mains",
-        label: "Crest pk/RMS",
-        key: Key::Crest,
-    },
-    Field {
-        group: "Transformer",
-        label: "Ratio pri:sec",
-        key: Key::Ratio,
-    },
-    Field {
-        group: "Transformer",
-        label: "Secondary ohm",
-        key: Key::SecondaryOhms,
-    },
-    Field {
-        group: "Transformer",
-        label: "Primary ohm",
-        key: Key::PrimaryOhms,
-    },
-    Field {
-        group: "Rectifier",
-        label: "Topology",
-        key: Key::Topology,
-    },
-    Field {
-        group: "Rectifier",
-        label: "Diode",
-        key: Key::Diode,
-    },
-    Field {
-        group: "Filter",
-        label: "Kind",
-        key: Key::FilterKind,
-    },
-    Field {
-        group: "Filter",
-        label: "Cap uF",
-        key: Key::Uf,
-    },
-    Field {
-        group: "Filter",
-        label: "ESR ohms",
-        key: Key::EsrOhms,
-    },
-    Field {
-        group: "Filter",
-        label: "Cap low %",
-        key: Key::CapLowPct,
-    },
-    Field {
-        group: "Filter",
-        label: "Cap high %",
-        key: Key::CapHighPct,
-    },
-    Field {
-        group: "Filter",
-        label: "Cap rated V",
-        key: Key::RatedV,
-    },
-    Field {
-        group: "Filter",
-        label: "CRC R ohm",
-        key: Key::SeriesOhms,
-    },
-    Field {
-        group: "Filter",
-        label: "CRC 2nd uF",
-        key: Key::SecondUf,
-    },
-    Field {
-        group: "Load",
-        label: "Amps (const.)",
-        key: Key::LoadAmps,
-    },
-    Field {
-        group: "Load",
-        label: "Ohms (resist.)",
-        key: Key::LoadOhms,
-    },
-    Field {
-        group: "Regulator",
-        label: "Output V",
-        key: Key::RegulatorOutput,
-    },
-    Field {
-        group: "Regulator",
-        label: "Dropout V",
-        key: Key::RegulatorDropout,
-    },
+        label,
+        path,
+        edit: Edit::Text { required },
+        when: When::Always,
+        help,
+    }
+}
+
+use When::*;
+
+/// Every key of the supply file, in the file's order and groups.
+pub const FIELDS: [Field; 51] = [
+    text("Name", "name", true, "the name the library lists it by"),
+    text(
+        "Site",
+        "site",
+        false,
+        "where the unit is: building, panel, cabinet",
+    ),
+    text(
+        "Notes",
+        "notes",
+        false,
+        "anything the next visit should know",
+    ),
+    number("Mains", "RMS volts", &s::MAINS_VRMS, Always),
+    number("Mains", "Frequency Hz", &s::MAINS_HZ, Always),
+    number("Mains", "Low %", &s::MAINS_LOW_PCT, Always),
+    number("Mains", "High %", &s::MAINS_HIGH_PCT, Always),
+    number("Mains", "Crest pk/RMS", &s::MAINS_CREST, Always),
+    choice(
+        "Transformer",
+        "Given as",
+        "transformer.form",
+        Choice::TransformerForm,
+        "the turns ratio, or the nameplate's volts, VA and regulation",
+    ),
+    number("Transformer", "Ratio pri:sec", &s::RATIO, RatioForm),
+    number("Transformer", "Primary V", &s::PRIMARY_VRMS, NameplateForm),
+    number(
+        "Transformer",
+        "Secondary V",
+        &s::SECONDARY_VRMS,
+        NameplateForm,
+    ),
+    number(
+        "Transformer",
+        "Regulation %",
+        &s::REGULATION_PCT,
+        NameplateForm,
+    ),
+    number("Transformer", "Rated VA", &s::RATED_VA, Always),
+    number("Transformer", "Secondary ohm", &s::SECONDARY_OHMS, Always),
+    number("Transformer", "Primary ohm", &s::PRIMARY_OHMS, Always),
+    number("Transformer", "Ratio spread %", &s::RATIO_PCT, Always),
+    choice(
+        "Rectifier",
+        "Topology",
+        "rectifier.topology",
+        Choice::Topology,
+        "half-wave, center-tap, bridge, doubler or split-rail",
+    ),
+    choice(
+        "Rectifier",
+        "Diode",
+        "rectifier.diode",
+        Choice::Diode,
+        "a preset, or your own law: a fixed drop, or a Shockley junction",
+    ),
+    number("Rectifier", "Drop V", &s::DROP_V, FixedDiode),
+    number("Rectifier", "Drop ohm", &s::DIODE_OHMS, FixedDiode),
+    number("Rectifier", "IS A", &s::IS_A, JunctionDiode),
+    number("Rectifier", "Emission N", &s::EMISSION_N, JunctionDiode),
+    number("Rectifier", "RS ohm", &s::RS_OHMS, JunctionDiode),
+    number("Rectifier", "Junction degC", &s::TEMP_C, Always),
+    number("Rectifier", "Drop spread %", &s::DROP_SPREAD_PCT, Always),
+    number("Rectifier", "Rated PIV V", &s::RATED_PIV_V, Always),
+    number("Rectifier", "Rated A", &s::DIODE_RATED_A, Always),
+    number("Rectifier", "Surge A", &s::SURGE_A, Always),
+    choice(
+        "Filter",
+        "Kind",
+        "filter.kind",
+        Choice::FilterKind,
+        "none, a capacitor, or a CRC (capacitor, resistor, capacitor)",
+    ),
+    number("Filter", "Cap uF", &s::FILTER_UF, Filtered),
+    number("Filter", "ESR ohm", &s::ESR_OHMS, Filtered),
+    number("Filter", "Cap low %", &s::CAP_LOW_PCT, Filtered),
+    number("Filter", "Cap high %", &s::CAP_HIGH_PCT, Filtered),
+    number("Filter", "Cap rated V", &s::CAP_RATED_V, Filtered),
+    number("Filter", "Ripple rated A", &s::RATED_RIPPLE_A, Filtered),
+    number("Filter", "Aged %", &s::AGED_PCT, Filtered),
+    number("Filter", "Bleeder ohm", &s::BLEEDER_OHMS, Filtered),
+    number("Filter", "CRC R ohm", &s::SERIES_OHMS, Crc),
+    number("Filter", "CRC 2nd uF", &s::SECOND_UF, Crc),
+    choice(
+        "Load",
+        "Kind",
+        "load.kind",
+        Choice::LoadKind,
+        "a resistance (ohms), or a constant current (amps)",
+    ),
+    number("Load", "Ohms", &s::LOAD_OHMS, ResistiveLoad),
+    number("Load", "Min ohms", &s::MIN_OHMS, ResistiveLoad),
+    number("Load", "Max ohms", &s::MAX_OHMS, ResistiveLoad),
+    number("Load", "Amps", &s::LOAD_AMPS, CurrentLoad),
+    number("Load", "Min amps", &s::MIN_AMPS, CurrentLoad),
+    number("Load", "Max amps", &s::MAX_AMPS, CurrentLoad),
+    choice(
+        "Regulator",
+        "Regulator",
+        "regulator.kind",
+        Choice::Regulator,
+        "none, or a linear regulator after the filter",
+    ),
+    number("Regulator", "Output V", &s::OUTPUT_V, Regulated),
+    number("Regulator", "Dropout V", &s::DROPOUT_V, Regulated),
+    number("Regulator", "Rated W", &s::REGULATOR_RATED_W, Regulated),
 ];
 
-const DIODES: [&str; 4] = ["silicon", "fast", "schottky", "ideal"];
+/// The row of `path`, if the form has one.
+pub fn row(path: &str) -> Option<&'static Field> {
+    FIELDS.iter().find(|f| f.path == path)
+}
+
+/// Where the row of `path` stands in [`FIELDS`].
+pub fn index_of(path: &str) -> Option<usize> {
+    FIELDS.iter().position(|f| f.path == path)
+}
+
+/// How a line break of the notes shows on the form's one line.
+const NEWLINE: &str = " | ";
+
+const DIODES: [&str; 6] = [
+    "silicon",
+    "fast",
+    "schottky",
+    "ideal",
+    "fixed drop",
+    "junction",
+];
 const KINDS: [(FilterKind, &str); 3] = [
     (FilterKind::None, "none"),
     (FilterKind::Capacitor, "capacitor"),
     (FilterKind::Crc, "crc"),
 ];
 
-fn num(v: Option<f64>) -> String {
-    match v {
-        Some(x) => format!("{x}"),
-        None => "-".into(),
-    }
+/// A change the form made, ready to apply.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Change {
+    pub supply: Supply,
+    /// Values the change drops, as `key = value`: the form asks before applying it.
+    pub drops: Vec<String>,
 }
 
-impl Key {
-    /// Whether the field takes one of a few words, cycled with Left and Right.
-    pub fn is_choice(self) -> bool {
-        matches!(self, Key::Topology | Key::Diode | Key::FilterKind)
+impl Field {
+    /// Whether the row takes one of a few words.
+    pub fn is_choice(&self) -> bool {
+        matches!(self.edit, Edit::Choice(_))
     }
 
-    /// The value as the form shows it.
-    pub fn show(self, s: &Supply) -> String {
-        match self {
-            Key::Name => s.name.clone(),
-            Key::MainsVrms => num(Some(s.mains.vrms)),
-            Key::MainsHz => num(Some(s.mains.hz)),
-            Key::MainsLowPct => num(Some(s.mains.low_pct)),
-            Key::MainsHighPct => num(Some(s.mains.high_pct)),
-            Key::Crest => match s.mains.crest {
-                Some(c) => format!("{c:.3}"),
-                None => "-".into(),
-            },
-            Key::Ratio => match s.winding() {
-                Ok(w) if s.transformer.ratio.is_none() => format!("{:.3} (nameplate)", w.ratio),
-                _ => num(s.transformer.ratio),
-            },
-            Key::SecondaryOhms => num(s.transformer.secondary_ohms),
-            Key::PrimaryOhms => num(s.transformer.primary_ohms),
-            Key::Topology => s.rectifier.topology.key().into(),
-            Key::Diode => match &s.rectifier.diode {
-                DiodeSpec::Preset(p) => p.clone(),
-                DiodeSpec::Fixed { drop_v, ohms } => format!("{drop_v} V + {ohms} ohm"),
-                DiodeSpec::Junction { is_a, n, rs_ohms } => {
-                    format!("IS {is_a:e} N {n} RS {rs_ohms}")
-                }
-            },
-            Key::FilterKind => KINDS
-                .iter()
-                .find(|(k, _)| *k == s.filter.kind)
-                .map(|(_, w)| w.to_string())
-                .unwrap_or_default(),
-            Key::Uf => num(s.filter.uf),
-            Key::EsrOhms => num(Some(s.filter.esr_ohms)),
-            Key::CapLowPct => num(Some(s.filter.low_pct)),
-            Key::CapHighPct => num(Some(s.filter.high_pct)),
-            Key::RatedV => num(s.filter.rated_v),
-            Key::SeriesOhms => num(s.filter.series_ohms),
-            Key::SecondUf => num(s.filter.second_uf),
-            Key::LoadAmps => num(s.load.amps),
-            Key::LoadOhms => num(s.load.ohms),
-            Key::RegulatorOutput => num(s.regulator.as_ref().map(|r| r.output_v)),
-            Key::RegulatorDropout => num(s.regulator.as_ref().map(|r| r.dropout_v)),
+    /// Whether the row applies to `s`.
+    pub fn applies(&self, s: &Supply) -> bool {
+        let filtered = s.filter.kind != FilterKind::None;
+        match self.when {
+            Always => true,
+            RatioForm => s.transformer.ratio.is_some(),
+            NameplateForm => s.transformer.ratio.is_none(),
+            Filtered => filtered,
+            Crc => s.filter.kind == FilterKind::Crc,
+            FixedDiode => matches!(s.rectifier.diode, DiodeSpec::Fixed { .. }),
+            JunctionDiode => matches!(s.rectifier.diode, DiodeSpec::Junction { .. }),
+            CurrentLoad => s.load.amps.is_some(),
+            ResistiveLoad => s.load.amps.is_none(),
+            Regulated => s.regulator.is_some(),
         }
     }
 
-    /// The supply with this field set from `text`, validated; the reason if refused.
-    pub fn apply(self, s: &Supply, text: &str) -> Result<Supply, String> {
-        let mut out = s.clone();
-        let text = text.trim();
-        let clear = text.is_empty() || text == "-";
-        let value = || parse_si(text).map_err(|e| e.to_string());
-        // Microfarad fields read a prefix as farads ("2m2" = 2200 uF) and a bare number as uF.
-        let microfarads = || -> Result<f64, String> {
-            let has_prefix = text
-                .chars()
-                .any(|c| c.is_alphabetic() && c != 'e' && c != 'E');
-            let v = value()?;
-            Ok(if has_prefix { v * 1e6 } else { v })
-        };
-        match self {
-            Key::Name => out.name = text.to_string(),
-            Key::MainsVrms => out.mains.vrms = value()?,
-            Key::MainsHz => out.mains.hz = value()?,
-            Key::MainsLowPct => out.mains.low_pct = value()?,
-            Key::MainsHighPct => out.mains.high_pct = value()?,
-            Key::Crest => out.mains.crest = Some(value()?),
-            Key::Ratio => {
-                out.transformer.ratio = Some(value()?);
-                out.transformer.primary_vrms = None;
-                out.transformer.secondary_vrms = None;
-                out.transformer.regulation_pct = None;
-            }
-            Key::SecondaryOhms => {
-                out.transformer.secondary_ohms = if clear { None } else { Some(value()?) }
-            }
-            Key::PrimaryOhms => {
-                out.transformer.primary_ohms = if clear { None } else { Some(value()?) }
-            }
-            Key::Topology => {
-                out.rectifier.topology = Topology::ALL
-                    .iter()
-                    .copied()
-                    .find(|t| t.key() == text)
-                    .ok_or_else(|| {
-                        format!(
-                            "topology must be half-wave, center-tap, bridge, doubler or split-rail (got {text:?})"
-                        )
-                    })?
-            }
-            Key::Diode => {
-                if !DIODES.contains(&text) {
-                    return Err(format!(
-                        "diode must be silicon, fast, schottky or ideal here (got {text:?}); \
-                         edit the file for a custom law"
-                    ));
-                }
-                out.rectifier.diode = DiodeSpec::Preset(text.to_string());
-            }
-            Key::FilterKind => {
-                out.filter.kind = KINDS
-                    .iter()
-                    .find(|(_, w)| *w == text)
-                    .map(|(k, _)| *k)
-                    .ok_or_else(|| format!("kind must be none, capacitor or crc (got {text:?})"))?;
-                if out.filter.kind != FilterKind::None && out.filter.uf.is_none() {
-                    out.filter.uf = Some(1000.0);
-                }
-                if out.filter.kind == FilterKind::Crc {
-                    out.filter.series_ohms.get_or_insert(10.0);
-                    out.filter.second_uf.get_or_insert(out.filter.uf.unwrap_or(1000.0));
-                }
-            }
-            Key::Uf => out.filter.uf = Some(microfarads()?),
-            Key::EsrOhms => out.filter.esr_ohms = if clear { 0.0 } else { value()? },
-            Key::CapLowPct => out.filter.low_pct = value()?,
-            Key::CapHighPct => out.filter.high_pct = value()?,
-            Key::RatedV => out.filter.rated_v = if clear { None } else { Some(value()?) },
-            Key::SeriesOhms => out.filter.series_ohms = if clear { None } else { Some(value()?) },
-            Key::SecondUf => out.filter.second_uf = if clear { None } else { Some(microfarads()?) },
-            Key::LoadAmps => {
-                out.load.amps = Some(value()?);
-                out.load.ohms = None;
-                out.load.min_ohms = None;
-                out.load.max_ohms = None;
-            }
-            Key::LoadOhms => {
-                out.load.ohms = Some(value()?);
-                out.load.amps = None;
-                out.load.min_amps = None;
-                out.load.max_amps = None;
-            }
-            Key::RegulatorOutput | Key::RegulatorDropout => {
-                if clear {
-                    out.regulator = None;
-                } else {
-                    let v = value()?;
-                    let reg = out.regulator.get_or_insert(Regulator {
-                        output_v: 5.0,
-                        dropout_v: 2.0,
-                        rated_w: None,
-                    });
-                    if self == Key::RegulatorOutput {
-                        reg.output_v = v;
-                    } else {
-                        reg.dropout_v = v;
-                    }
-                }
-            }
+    /// The help line: what the row is, and for a number its allowed range and why.
+    pub fn help_line(&self) -> String {
+        match self.edit {
+            Edit::Number(r) => format!("{}: {}; {}", self.path, r.allowed(), r.why),
+            _ => format!("{}: {}", self.path, self.help),
         }
-        out.validate().map_err(|e| e.to_string())?;
-        Ok(out)
     }
 
-    /// The next (or previous) word of a choice field.
-    pub fn cycle(self, s: &Supply, forward: bool) -> Option<String> {
-        let words: Vec<&str> = match self {
-            Key::Topology => Topology::ALL.iter().map(|t| t.key()).collect(),
-            Key::Diode => DIODES.to_vec(),
-            Key::FilterKind => KINDS.iter().map(|(_, w)| *w).collect(),
-            _ => return None,
-        };
+    /// The value as the form shows it ("-" when the file leaves it out).
+    pub fn show(&self, s: &Supply) -> String {
+        match self.edit {
+            // One line on the form: a note's line breaks show as " | ", and typing " | "
+            // makes one.
+            Edit::Text { .. } => match self.path {
+                "name" => s.name.clone(),
+                "site" => s.site.clone().unwrap_or_default(),
+                _ => s.notes.trim_end().replace('\n', NEWLINE),
+            },
+            Edit::Choice(c) => choice_word(c, s),
+            Edit::Number(_) => match value_at(s, self.path) {
+                Some(toml::Value::Float(x)) => format_number(x),
+                Some(toml::Value::Integer(i)) => i.to_string(),
+                _ => match self.path {
+                    // Shown for what it is worth: the ratio the nameplate gives.
+                    "transformer.ratio" => s
+                        .winding()
+                        .map(|w| format!("{} (nameplate)", format_number(w.ratio)))
+                        .unwrap_or_else(|_| "-".into()),
+                    _ => "-".into(),
+                },
+            },
+        }
+    }
+
+    /// The words a choice row cycles through; empty for other rows.
+    pub fn words(&self) -> Vec<&'static str> {
+        match self.edit {
+            Edit::Choice(Choice::Topology) => Topology::ALL.iter().map(|t| t.key()).collect(),
+            Edit::Choice(Choice::Diode) => DIODES.to_vec(),
+            Edit::Choice(Choice::FilterKind) => KINDS.iter().map(|(_, w)| *w).collect(),
+            Edit::Choice(Choice::TransformerForm) => vec!["ratio", "nameplate"],
+            Edit::Choice(Choice::LoadKind) => vec!["resistance", "current"],
+            Edit::Choice(Choice::Regulator) => vec!["none", "linear"],
+            _ => Vec::new(),
+        }
+    }
+
+    /// The next (or previous) word of a choice row.
+    pub fn cycle(&self, s: &Supply, forward: bool) -> Option<&'static str> {
+        let words = self.words();
+        if words.is_empty() {
+            return None;
+        }
         let now = self.show(s);
         let i = words.iter().position(|w| *w == now).unwrap_or(0);
         let n = words.len();
-        let j = if forward {
-            (i + 1) % n
-        } else {
-            (i + n - 1) % n
-        };
-        Some(words[j].to_string())
+        Some(
+            words[if forward {
+                (i + 1) % n
+            } else {
+                (i + n - 1) % n
+            }],
+        )
     }
+
+    /// The supply with this row set from `text` (validated), and the values that would drop;
+    /// the reason, naming the key, the value and the range, if refused. The row's key is no
+    /// longer a guess once set; values a choice fills in are guesses until set.
+    pub fn apply(&self, s: &Supply, text: &str) -> Result<Change, String> {
+        let text = text.trim();
+        let mut out = s.clone();
+        let mut drops = Vec::new();
+        let mut guesses: Vec<&'static str> = Vec::new();
+        match self.edit {
+            Edit::Text { required } => {
+                if required && text.is_empty() {
+                    return Err(format!("{} cannot be empty", self.path));
+                }
+                match self.path {
+                    "name" => out.name = text.to_string(),
+                    "site" => out.site = (!text.is_empty()).then(|| text.to_string()),
+                    _ => out.notes = text.replace(NEWLINE, "\n"),
+                }
+            }
+            Edit::Number(range) => {
+                let clear = text.is_empty() || text == "-";
+                let value = if clear {
+                    None
+                } else {
+                    let v = parse_si(text).map_err(|e| format!("{}: {e}", self.path))?;
+                    // Microfarad keys read a prefix as farads ("2m2" = 2200 uF).
+                    let prefixed = text
+                        .chars()
+                        .any(|c| c.is_alphabetic() && c != 'e' && c != 'E');
+                    // The range is checked by the validator below, in its own words.
+                    Some(if range.unit == "uF" && prefixed {
+                        v * 1e6
+                    } else {
+                        v
+                    })
+                };
+                out = set_number(&out, self.path, value)?;
+            }
+            Edit::Choice(c) => {
+                if !self.words().contains(&text) {
+                    return Err(format!(
+                        "{} must be one of {} (got {text:?})",
+                        self.path,
+                        self.words().join(", ")
+                    ));
+                }
+                choose(c, &mut out, text, &mut drops, &mut guesses)?;
+            }
+        }
+        out.unconfirmed.retain(|p| p != self.path);
+        for g in guesses {
+            if !out.unconfirmed.iter().any(|p| p == g) {
+                out.unconfirmed.push(g.to_string());
+            }
+        }
+        out.validate().map_err(|e| e.to_string())?;
+        Ok(Change { supply: out, drops })
+    }
+}
+
+/// The word a choice row shows for `s`.
+fn choice_word(c: Choice, s: &Supply) -> String {
+    match c {
+        Choice::Topology => s.rectifier.topology.key().into(),
+        Choice::Diode => match &s.rectifier.diode {
+            DiodeSpec::Preset(p) => p.clone(),
+            DiodeSpec::Fixed { .. } => "fixed drop".into(),
+            DiodeSpec::Junction { .. } => "junction".into(),
+        },
+        Choice::FilterKind => KINDS
+            .iter()
+            .find(|(k, _)| *k == s.filter.kind)
+            .map(|(_, w)| w.to_string())
+            .unwrap_or_default(),
+        Choice::TransformerForm => if s.transformer.ratio.is_some() {
+            "ratio"
+        } else {
+            "nameplate"
+        }
+        .into(),
+        Choice::LoadKind => if s.load.amps.is_some() {
+            "current"
+        } else {
+            "resistance"
+        }
+        .into(),
+        Choice::Regulator => if s.regulator.is_some() {
+            "linear"
+        } else {
+            "none"
+        }
+        .into(),
+    }
+}
+
+/// `key = value` for a value about to be dropped.
+fn dropped(key: &str, v: Option<f64>) -> Option<String> {
+    v.map(|v| format!("{key} = {}", format_number(v)))
+}
+
+/// Sets choice `c` of `out` to `word`, noting what drops and what is filled in as a guess.
+fn choose(
+    c: Choice,
+    out: &mut Supply,
+    word: &str,
+    drops: &mut Vec<String>,
+    guesses: &mut Vec<&'static str>,
+) -> Result<(), String> {
+    match c {
+        Choice::Topology => {
+            out.rectifier.topology = Topology::ALL
+                .iter()
+                .copied()
+                .find(|t| t.key() == word)
+                .expect("a listed word");
+        }
+        Choice::Diode => {
+            out.rectifier.diode = match (word, &out.rectifier.diode) {
+                ("fixed drop", d @ DiodeSpec::Fixed { .. }) => d.clone(),
+                ("junction", d @ DiodeSpec::Junction { .. }) => d.clone(),
+                ("fixed drop", _) => {
+                    // A silicon rectifier's usual 0.7 V (practice), to be measured.
+                    guesses.extend(["rectifier.diode.drop_v", "rectifier.diode.ohms"]);
+                    DiodeSpec::Fixed {
+                        drop_v: 0.7,
+                        ohms: 0.0,
+                    }
+                }
+                ("junction", _) => {
+                    // The silicon preset's own law, as a start.
+                    guesses.extend([
+                        "rectifier.diode.is_a",
+                        "rectifier.diode.n",
+                        "rectifier.diode.rs_ohms",
+                    ]);
+                    DiodeSpec::Junction {
+                        is_a: 7.0e-9,
+                        n: 1.8,
+                        rs_ohms: 0.034,
+                    }
+                }
+                (preset, _) => DiodeSpec::Preset(preset.to_string()),
+            };
+        }
+        Choice::FilterKind => {
+            out.filter.kind = KINDS
+                .iter()
+                .find(|(_, w)| *w == word)
+                .map(|(k, _)| *k)
+                .expect("a listed word");
+            if out.filter.kind != FilterKind::None && out.filter.uf.is_none() {
+                out.filter.uf = Some(1000.0);
+                guesses.push("filter.uf");
+            }
+            if out.filter.kind == FilterKind::Crc {
+                if out.filter.series_ohms.is_none() {
+                    out.filter.series_ohms = Some(10.0);
+                    guesses.push("filter.series_ohms");
+                }
+                if out.filter.second_uf.is_none() {
+                    out.filter.second_uf = out.filter.uf;
+                    guesses.push("filter.second_uf");
+                }
+            }
+        }
+        Choice::TransformerForm => {
+            let t = &mut out.transformer;
+            match (word, t.ratio) {
+                ("ratio", None) => {
+                    // The ratio the nameplate works out to; the nameplate's values drop.
+                    let w = out.winding().map_err(|e| e.to_string())?;
+                    let t = &mut out.transformer;
+                    drops.extend(
+                        [
+                            dropped("transformer.primary_vrms", t.primary_vrms.take()),
+                            dropped("transformer.secondary_vrms", t.secondary_vrms.take()),
+                            dropped("transformer.regulation_pct", t.regulation_pct.take()),
+                        ]
+                        .into_iter()
+                        .flatten(),
+                    );
+                    t.ratio = Some((w.ratio * 1000.0).round() / 1000.0);
+                }
+                ("nameplate", Some(ratio)) => {
+                    // The nameplate that ratio means at the nominal mains, with a small
+                    // transformer's usual regulation: guesses until read off the plate.
+                    drops.extend(dropped("transformer.ratio", Some(ratio)));
+                    let mains = out.mains.vrms;
+                    let t = &mut out.transformer;
+                    t.ratio = None;
+                    t.primary_vrms = Some(mains);
+                    let regulation = 10.0;
+                    t.secondary_vrms =
+                        Some((mains / ratio / (1.0 + regulation / 100.0) * 100.0).round() / 100.0);
+                    t.regulation_pct = Some(regulation);
+                    guesses.extend([
+                        "transformer.primary_vrms",
+                        "transformer.secondary_vrms",
+                        "transformer.regulation_pct",
+                    ]);
+                }
+                _ => {}
+            }
+        }
+        Choice::LoadKind => {
+            let rail = crate::circuit::solve_nominal(out)
+                .map(|(op, _)| op.figures.dc_v)
+                .unwrap_or(0.0);
+            let l = &mut out.load;
+            match (word, l.amps, l.ohms) {
+                ("current", None, Some(ohms)) => {
+                    drops.extend(
+                        [
+                            dropped("load.ohms", Some(ohms)),
+                            dropped("load.min_ohms", l.min_ohms.take()),
+                            dropped("load.max_ohms", l.max_ohms.take()),
+                        ]
+                        .into_iter()
+                        .flatten(),
+                    );
+                    l.ohms = None;
+                    // The current the resistance draws at the working rail.
+                    let amps = if rail > 0.0 { rail / ohms } else { 0.1 };
+                    l.amps = Some((amps * 1e4).round() / 1e4);
+                    guesses.push("load.amps");
+                }
+                ("resistance", Some(amps), None) => {
+                    drops.extend(
+                        [
+                            dropped("load.amps", Some(amps)),
+                            dropped("load.min_amps", l.min_amps.take()),
+                            dropped("load.max_amps", l.max_amps.take()),
+                        ]
+                        .into_iter()
+                        .flatten(),
+                    );
+                    l.amps = None;
+                    let ohms = if rail > 0.0 && amps > 0.0 {
+                        rail / amps
+                    } else {
+                        100.0
+                    };
+                    l.ohms = Some((ohms * 100.0).round() / 100.0);
+                    guesses.push("load.ohms");
+                }
+                _ => {}
+            }
+        }
+        Choice::Regulator => match (word, &out.regulator) {
+            ("none", Some(r)) => {
+                drops.extend(
+                    [
+                        dropped("regulator.output_v", Some(r.output_v)),
+                        dropped("regulator.dropout_v", Some(r.dropout_v)),
+                        dropped("regulator.rated_w", r.rated_w),
+                    ]
+                    .into_iter()
+                    .flatten(),
+                );
+                out.regulator = None;
+            }
+            ("linear", None) => {
+                // A common 5 V part with the usual 2 V dropout of a 78xx (practice).
+                out.regulator = Some(Regulator {
+                    output_v: 5.0,
+                    dropout_v: 2.0,
+                    rated_w: None,
+                });
+                guesses.extend(["regulator.output_v", "regulator.dropout_v"]);
+            }
+            _ => {}
+        },
+    }
+    Ok(())
+}
+
+/// The section of the supply a key path starts with, as a TOML table.
+fn section(s: &Supply, name: &str) -> Option<toml::Value> {
+    match name {
+        "mains" => toml::Value::try_from(&s.mains).ok(),
+        "transformer" => toml::Value::try_from(&s.transformer).ok(),
+        "rectifier" => toml::Value::try_from(&s.rectifier).ok(),
+        "filter" => toml::Value::try_from(&s.filter).ok(),
+        "load" => toml::Value::try_from(&s.load).ok(),
+        "regulator" => s
+            .regulator
+            .as_ref()
+            .and_then(|r| toml::Value::try_from(r).ok()),
+        _ => None,
+    }
+}
+
+/// Puts a section back into the supply, refusing what the file format would refuse.
+fn put_section(s: &mut Supply, name: &str, v: toml::Value) -> Result<(), String> {
+    let why = |e: toml::de::Error| format!("{name}: {}", e.message());
+    match name {
+        "mains" => s.mains = v.try_into().map_err(why)?,
+        "transformer" => s.transformer = v.try_into().map_err(why)?,
+        "rectifier" => s.rectifier = v.try_into().map_err(why)?,
+        "filter" => s.filter = v.try_into().map_err(why)?,
+        "load" => s.load = v.try_into().map_err(why)?,
+        "regulator" => s.regulator = Some(v.try_into().map_err(why)?),
+        other => return Err(format!("{other} is not a section the form edits")),
+    }
+    Ok(())
+}
+
+/// The value at a key path (`filter.uf`, `rectifier.diode.drop_v`), if the file has one.
+fn value_at(s: &Supply, path: &str) -> Option<toml::Value> {
+    let mut parts = path.split('.');
+    let mut v = section(s, parts.next()?)?;
+    for p in parts {
+        v = v.get(p)?.clone();
+    }
+    Some(v)
+}
+
+/// The supply with the number at `path` set, or removed (the file's default then applies;
+/// a key the file must have is refused by the caller's validation, naming it).
+fn set_number(s: &Supply, path: &str, value: Option<f64>) -> Result<Supply, String> {
+    let mut parts: Vec<&str> = path.split('.').collect();
+    let name = parts.remove(0);
+    let mut root = section(s, name).unwrap_or_else(|| toml::Value::Table(toml::Table::new()));
+    let (last, inner) = parts.split_last().ok_or("a key path names a section")?;
+    let mut table = &mut root;
+    for p in inner {
+        table = table
+            .as_table_mut()
+            .ok_or_else(|| format!("{path}: not a table"))?
+            .entry(p.to_string())
+            .or_insert_with(|| toml::Value::Table(toml::Table::new()));
+    }
+    let t = table
+        .as_table_mut()
+        .ok_or_else(|| format!("{path}: not a table"))?;
+    match value {
+        Some(v) => {
+            t.insert(last.to_string(), toml::Value::Float(v));
+        }
+        None => {
+            t.remove(*last);
+        }
+    }
+    let mut out = s.clone();
+    put_section(&mut out, name, root).map_err(|e| {
+        if value.is_none() {
+            format!("{path} cannot be left out: the file needs it ({e})")
+        } else {
+            e
+        }
+    })?;
+    Ok(out)
 }

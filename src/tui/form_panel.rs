@@ -44,7 +44,13 @@ impl Widget for &FormPanel<'_> {
         let mut lines: Vec<Line> = Vec::new();
         let mut cursor_line = 0;
         let mut group = "";
+        let focused = app.panel == Panel::Form;
         for (i, f) in FIELDS.iter().enumerate() {
+            // Only the rows that apply: the nameplate's when the transformer is given by it,
+            // a CRC's when the filter is one, and so on.
+            if !f.applies(&open.supply) {
+                continue;
+            }
             if f.group != group {
                 group = f.group;
                 lines.push(Line::from(Span::styled(group.to_string(), look.heading())));
@@ -52,32 +58,36 @@ impl Widget for &FormPanel<'_> {
             if i == open.field {
                 cursor_line = lines.len();
             }
-            let editing = matches!(app.mode, Mode::Editing { .. }) && i == open.field;
-            let value = match (&app.mode, editing) {
-                (Mode::Editing { buffer }, true) => format!("{buffer}_"),
-                _ => f.key.show(&open.supply),
+            let here = i == open.field && focused;
+            let editing = match (&app.mode, i == open.field) {
+                (Mode::Editing { editor }, true) => Some(editor.shown()),
+                _ => None,
             };
+            let guess = open.supply.unconfirmed.iter().any(|p| p == f.path);
+            let value = editing.clone().unwrap_or_else(|| f.show(&open.supply));
             let mut spans = vec![
-                Span::raw(if i == open.field && app.panel == Panel::Form {
-                    ">"
-                } else {
-                    " "
-                }),
+                Span::raw(if here { ">" } else { " " }),
                 Span::raw(format!("{:<w$} ", f.label, w = label_w)),
                 Span::styled(
                     value,
-                    if i == open.field && app.panel == Panel::Form {
+                    if here {
                         look.selected()
+                    } else if guess {
+                        look.dim()
                     } else {
                         ratatui::style::Style::default()
                     },
                 ),
             ];
+            // A value the template or the form filled in, not yet set by the technician.
+            if guess && editing.is_none() {
+                spans.push(Span::styled(" ?guess", look.warn()));
+            }
             if let Some(before) = &open.what_if
-                && f.key.show(&before.0) != f.key.show(&open.supply)
+                && f.show(&before.0) != f.show(&open.supply)
             {
                 spans.push(Span::styled(
-                    format!(" (was {})", f.key.show(&before.0)),
+                    format!(" (was {})", f.show(&before.0)),
                     look.dim(),
                 ));
             }
@@ -85,18 +95,25 @@ impl Widget for &FormPanel<'_> {
             if let Some((fi, why)) = &open.field_error
                 && *fi == i
             {
-                lines.push(Line::from(Span::styled(format!("  ! {why}"), look.fail())));
+                // Wrapped here, so that every line drawn is one line counted for the scroll.
+                let text: Vec<char> = format!("  ! {why}").chars().collect();
+                for chunk in text.chunks(inner_width.max(8)) {
+                    let chunk: String = chunk.iter().collect();
+                    lines.push(Line::from(Span::styled(chunk, look.fail())));
+                }
             }
         }
-        // Keep the field under the cursor in view, with its refusal under it when there is one.
+        // Keep the field under the cursor in view, with its refusal under it when there is one
+        // (lines are cut at the panel's edge, never wrapped, so the count is exact).
         let rows = area.height.saturating_sub(2) as usize;
         let below = match &open.field_error {
-            Some((fi, why)) if *fi == open.field => why.len() / inner_width.max(1) + 2,
+            Some((fi, why)) if *fi == open.field => {
+                (why.chars().count() + 4) / inner_width.max(8) + 2
+            }
             _ => 2,
         };
         let top = (cursor_line + below).saturating_sub(rows);
         Paragraph::new(lines)
-            .wrap(Wrap { trim: false })
             .scroll((top as u16, 0))
             .block(look.panel(&title, app.panel == Panel::Form))
             .render(area, buf);

@@ -129,18 +129,24 @@ pub fn draw(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
         .unwrap_or_else(|| shorter.last().cloned().unwrap_or_default());
     Paragraph::new(Line::styled(caution_text, look.caution())).render(caution, buf);
     let hint = match &app.mode {
-        Mode::Editing { .. } => match app.open.as_ref().and_then(|o| o.field_error.as_ref()) {
-            Some((_, why)) => format!("refused: {why}"),
-            None => "typing: Enter applies, Esc cancels (4k7, 47u, 2m2 ...)".to_string(),
+        Mode::Editing { .. } => match app.open.as_ref() {
+            Some(o) => match &o.field_error {
+                Some((_, why)) => format!("refused: {why}"),
+                None => format!(
+                    "Enter applies, Esc cancels (4k7, 47u, 2m2); {}",
+                    super::fields::FIELDS[o.field].help_line()
+                ),
+            },
+            None => String::new(),
         },
         Mode::Filter => "filter: type to narrow the list, Enter keeps, Esc clears".into(),
         _ => match &app.open {
             Some(o)
                 if app.panel == super::app::Panel::Form
-                    && super::fields::FIELDS[o.field].key.is_choice() =>
+                    && super::fields::FIELDS[o.field].is_choice() =>
             {
                 format!(
-                    "Left/Right changes {}   |   {}",
+                    "Left/Right or Enter changes {}   |   {}",
                     super::fields::FIELDS[o.field].label,
                     app.status
                 )
@@ -152,20 +158,14 @@ pub fn draw(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
 
     match &app.mode {
         Mode::Help => Help { color: app.color }.render(area, buf),
-        Mode::Confirm(Confirm::Delete) => dialog(
+        Mode::Confirm(Confirm::Delete { name, .. }) => dialog(
             area,
             buf,
             &look,
             "Delete",
             vec![
-                format!(
-                    "Move {} to the library's .trash folder?",
-                    app.open
-                        .as_ref()
-                        .map(|o| o.supply.name.as_str())
-                        .unwrap_or("")
-                ),
-                "y: move it (recoverable from .trash)   n / Esc: keep it".into(),
+                format!("Move {name} to the library's .trash folder?"),
+                "y: move it (T lists the trash and restores)   n / Esc: keep it".into(),
             ],
         ),
         Mode::Confirm(Confirm::EndWhatIf) => dialog(
@@ -218,11 +218,12 @@ pub fn draw(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
                 "Esc: decide later (nothing is written)".into(),
             ],
         ),
-        _ => {}
+        _ => super::dialogs::render(app, area, buf, &look),
     }
 }
 
-fn dialog(
+/// A box of `lines` over the middle of `area` (also for the other dialogs' module).
+pub(super) fn dialog(
     area: Rect,
     buf: &mut ratatui::buffer::Buffer,
     look: &Look,
