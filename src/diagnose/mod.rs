@@ -49,7 +49,8 @@ pub enum ReadingError {
     )]
     Frequency { got: f64, line: f64, double: f64 },
     #[error(
-        "give at least one reading of the rail: --dc, --ripple-pp, --ripple-rms or --ripple-hz"
+        "give at least one reading of the rail: its DC, ripple peak to peak or RMS, or ripple \
+         frequency (--dc, --ripple-pp, --ripple-rms, --ripple-hz)"
     )]
     Nothing,
     #[error(
@@ -416,9 +417,11 @@ impl Readings {
     /// 2000 V), or a DC above the winding's own peak at the highest mains (no rectifier rail
     /// rises above the peak it is charged from, whatever its parts), volts.
     pub fn check_against(&self, supply: &Supply) -> Result<(), ReadingError> {
-        self.check(supply.mains.hz)?;
         let nominal = supply.mains.vrms;
+        // A mistyped mains first: it is the likeliest slip, whatever else is missing.
         if let Some(m) = self.mains_vrms
+            && m.is_finite()
+            && m >= 0.0
             && !(0.5 * nominal..=1.5 * nominal).contains(&m)
         {
             return Err(ReadingError::Implausible {
@@ -430,6 +433,7 @@ impl Readings {
                        is 2000 V)",
             });
         }
+        self.check(supply.mains.hz)?;
         if let (Some(dc), Ok(w)) = (self.dc_v, supply.winding()) {
             let share = match supply.rectifier.topology {
                 Topology::HalfWave | Topology::Bridge => 1.0,

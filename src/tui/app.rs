@@ -510,9 +510,12 @@ impl App {
         if let Ok(e) = self.library.load() {
             self.entries = e;
         }
-        let vis = self.visible();
-        if self.selected >= vis.len() {
-            self.selected = vis.len().saturating_sub(1);
+        // A rename re-sorts the list: the highlight goes with the open supply.
+        if !self.follow_open() {
+            let vis = self.visible();
+            if self.selected >= vis.len() {
+                self.selected = vis.len().saturating_sub(1);
+            }
         }
     }
 
