@@ -397,28 +397,13 @@ impl Library {
         new: &Supply,
         hook: &dyn Fn(store::Step) -> io::Result<()>,
     ) -> Result<Entry, LibraryError> {
-        new.validate().map_err(|e| LibraryError::Unreadable {
-            path: entry.file.clone(),
-            error: e.to_string(),
-        })?;
-        let EntryState::Ok {
-            supply: old,
-            text,
-            fingerprint,
-        } = &entry.state
-        else {
+        let EntryState::Ok { supply, text, .. } = &entry.state else {
             return Err(LibraryError::Unreadable {
                 path: entry.file.clone(),
                 error: "an unreadable file is never overwritten".into(),
             });
         };
-        let _lock = self.lock()?;
-        // Read through a link so that saving over one is refused with its own reason below.
-        let on_disk = store::read_plain(&entry.file, true).map_err(io_err(&entry.file))?;
-        if store::fingerprint(&on_disk) != *fingerprint {
-            return Err(LibraryError::ChangedOnDisk(entry.file.clone()));
-        }
-        write_merged(&entry.file, text, old, new, hook)
+        self.write_checked(entry, new, supply, text, hook)
     }
 
     /// As [`Library::save`], but writing `new` into `base_text`, an earlier text of the same
@@ -432,6 +417,19 @@ impl Library {
         base: &Supply,
         base_text: &str,
     ) -> Result<Entry, LibraryError> {
+        self.write_checked(entry, new, base, base_text, &|_| Ok(()))
+    }
+
+    /// Writes `new` merged into `text` (whose supply is `old`) over `entry`'s file, under the
+    /// lock and only if the file is still as `entry` was read.
+    fn write_checked(
+        &self,
+        entry: &Entry,
+        new: &Supply,
+        old: &Supply,
+        text: &str,
+        hook: &dyn Fn(store::Step) -> io::Result<()>,
+    ) -> Result<Entry, LibraryError> {
         new.validate().map_err(|e| LibraryError::Unreadable {
             path: entry.file.clone(),
             error: e.to_string(),
@@ -443,11 +441,12 @@ impl Library {
             });
         };
         let _lock = self.lock()?;
+        // Read through a link so that saving over one is refused with its own reason below.
         let on_disk = store::read_plain(&entry.file, true).map_err(io_err(&entry.file))?;
         if store::fingerprint(&on_disk) != *fingerprint {
             return Err(LibraryError::ChangedOnDisk(entry.file.clone()));
         }
-        write_merged(&entry.file, base_text, base, new, &|_| Ok(()))
+        write_merged(&entry.file, text, old, new, hook)
     }
 
     /// Records `visit` in the library file `file`, whose supply (less its visits) was
