@@ -527,3 +527,389 @@ fn b_in_the_visits_calibrates_on_the_newest_visit_and_u_takes_it_back() {
     keys(&mut app, &[Msg::Char('u')]);
     assert!(app.open.as_ref().unwrap().supply.calibration.is_none());
 }
+
+// Issue 11: checks always in sight, a results panel that scrolls, the too-small notice, the
+// visits against their windows, a scope-like sketch, the secondary AC, the caution's peak in
+// words, capacitances in uF.
+
+/// The rows of a drawn screen without the quotes TestBackend puts around them.
+fn rows(shown: &str) -> Vec<String> {
+    shown
+        .lines()
+        .map(|l| l.trim_matches('"').to_string())
+        .collect()
+}
+
+/// Presses Tab until the results panel has the keys.
+fn focus_results(app: &mut App) {
+    for _ in 0..3 {
+        if app.panel == railcheck::tui::app::Panel::Results {
+            break;
+        }
+        app.update(Msg::NextPanel);
+    }
+    assert_eq!(app.panel, railcheck::tui::app::Panel::Results);
+}
+
+#[test]
+fn a_failed_check_is_in_sight_at_80x24_and_the_results_scroll_to_it() {
+    for (w, h) in [(80u16, 24u16), (120, 40)] {
+        let (mut app, _) = demo(&format!("failed-check-{w}"));
+        select(&mut app, PUMP);
+        // The rail reaches 34.7 V at high mains and the lightest load; a 25 V capacitor is
+        // below it, so the capacitor-voltage check fails.
+        set_field(&mut app, "filter.rated_v", "25");
+        let shown = screen(&app, w, h);
+        let summary = rows(&shown)
+            .into_iter()
+            .find(|l| l.starts_with("checks:"))
+            .unwrap_or_else(|| panic!("no checks line at {w}x{h}:\n{shown}"));
+        assert!(
+            summary.starts_with("checks: 1 FAIL: cap-voltage; 4 OK"),
+            "{summary}"
+        );
+        insta::assert_snapshot!(format!("failed_check_{w}x{h}"), shown);
+        // The details are in the results panel, below the figures: scroll down to them.
+        focus_results(&mut app);
+        let fail_line = "FAIL capacitor peak";
+        if w == 80 {
+            assert!(!shown.contains(fail_line), "{shown}");
+            assert!(shown.contains("more below"), "{shown}");
+        }
+        // j a line at a time until the failed check is in the panel, all of it.
+        let mut presses = 0;
+        let mut scrolled = shown.clone();
+        while !scrolled.contains("exceeds the 25 V") && presses < 30 {
+            app.update(Msg::Char('j'));
+            presses += 1;
+            scrolled = screen(&app, w, h);
+        }
+        assert!(scrolled.contains(fail_line), "{scrolled}");
+        assert!(scrolled.contains("exceeds the 25 V"), "{scrolled}");
+        if w == 80 {
+            assert!(
+                presses > 0 && scrolled.contains("more above (k)"),
+                "{scrolled}"
+            );
+        }
+        insta::assert_snapshot!(format!("results_scrolled_{w}x{h}"), scrolled);
+        for _ in 0..4 {
+            app.update(Msg::PageDown);
+        }
+        let _ = screen(&app, w, h);
+        // The scroll stops at the last line: one k after many j's moves the text at once.
+        let o = app.open.as_ref().unwrap();
+        let max = o.results_scroll_max.get();
+        assert_eq!(o.results_scroll, max, "PageDown stops at the end");
+        for _ in 0..50 {
+            app.update(Msg::Char('j'));
+        }
+        assert_eq!(app.open.as_ref().unwrap().results_scroll, max);
+        app.update(Msg::Char('k'));
+        assert_eq!(app.open.as_ref().unwrap().results_scroll, max - 1);
+        assert!(screen(&app, w, h).contains("more below (j, PgDn)"));
+        keys(&mut app, &[Msg::PageUp, Msg::PageUp, Msg::PageUp]);
+        assert_eq!(app.open.as_ref().unwrap().results_scroll, 0);
+        assert!(!screen(&app, w, h).contains("more above"));
+    }
+}
+
+#[test]
+fn all_checks_passing_say_so_in_one_line() {
+    let (mut app, _) = demo("checks-ok");
+    select(&mut app, PUMP);
+    for (w, h) in [(80u16, 24u16), (120, 40)] {
+        let shown = screen(&app, w, h);
+        assert!(
+            shown.contains("checks: all 5 OK; not rated: transformer-va"),
+            "{shown}"
+        );
+    }
+    // And while the visits fill the right side.
+    app.update(Msg::Char('v'));
+    assert!(screen(&app, 80, 24).contains("checks: all 5 OK"));
+}
+
+#[test]
+fn below_80x24_a_plain_notice_keeps_the_caution() {
+    let (mut app, _) = demo("too-small");
+    select(&mut app, PUMP);
+    set_field(&mut app, "filter.rated_v", "25");
+    app.update(Msg::Escape);
+    let shown = screen(&app, 60, 20);
+    insta::assert_snapshot!("too_small_60x20", shown);
+    assert!(
+        shown.contains("railcheck needs 80x24, now 60x20"),
+        "{shown}"
+    );
+    let joined = rows(&shown).join(" ");
+    assert!(
+        joined.contains("CAUTION mains can kill") && joined.contains("local codes"),
+        "{shown}"
+    );
+    assert!(joined.contains("1 FAIL: cap-voltage"), "{shown}");
+    // No panel cut to pieces: no frame, no column heads.
+    assert!(!shown.contains("Figur") && !shown.contains('┌') && !shown.contains('┃'));
+    for (w, h) in [(79u16, 24u16), (80, 23), (40, 12)] {
+        let shown = screen(&app, w, h);
+        assert!(
+            shown.contains(&format!("now {w}x{h}")) && shown.contains("CAUTION"),
+            "{shown}"
+        );
+    }
+    // At 80x24 the screen itself.
+    assert!(screen(&app, 80, 24).contains("Results"));
+}
+
+#[test]
+fn the_visits_show_each_reading_against_its_window_and_a_verdict() {
+    for (w, h) in [(80u16, 24u16), (120, 40)] {
+        let (mut app, _) = demo(&format!("windows-{w}"));
+        select(&mut app, PUMP);
+        app.update(Msg::Char('v'));
+        app.wait_idle();
+        let o = app.open.as_ref().unwrap();
+        // The windows on screen are the diagnosis's, for the same readings.
+        let newest = o
+            .supply
+            .visits
+            .iter()
+            .max_by_key(|v| v.date_text())
+            .unwrap();
+        let d = railcheck::diagnose::diagnose(&o.supply, &newest.readings).unwrap();
+        let ripple = d
+            .expectations
+            .iter()
+            .find(|e| e.reading == "ripple_pp_v")
+            .unwrap();
+        assert_eq!(ripple.status, "above");
+        let shown = screen(&app, w, h);
+        let want = format!(
+            "ripple p-p     2.20 V  ABOVE  {}..{} V",
+            railcheck::tui::style::sig3(ripple.min),
+            railcheck::tui::style::sig3(ripple.max)
+        );
+        assert!(shown.contains(&want), "{want}\n{shown}");
+        assert!(shown.contains("within"), "{shown}");
+        // A visit that kept no verdict gets one worked out, said as such.
+        assert!(
+            shown.contains(&format!("2026-11-30 {} ", d.verdict.to_uppercase()))
+                && shown.contains("(worked out now)"),
+            "{shown}"
+        );
+        // The trend in words is not cut at 80 columns.
+        let joined = rows(&shown)
+            .iter()
+            .map(|r| r.trim_end_matches(['┃', '│', ' ']).to_string())
+            .collect::<Vec<_>>()
+            .join(" ");
+        assert!(joined.contains("its trend starts again with"), "{shown}");
+        assert!(joined.contains("the next visits"), "{shown}");
+        // The chart: a uF scale, the limit labelled, dates on the time axis. The limit is 20 %
+        // below the 2200 uF label, 1760 uF (end of life at -20 %, makers' practice).
+        for part in [
+            "limit 1760 uF",
+            "1760 uF",
+            "2021-03-14",
+            "2026-11-30",
+            "date",
+        ] {
+            assert!(shown.contains(part), "{part}\n{shown}");
+        }
+        assert!(!shown.contains("mF"), "capacitance in uF: {shown}");
+        insta::assert_snapshot!(format!("visits_windows_{w}x{h}"), shown);
+        // Scrolled to the end: the oldest visit and the limit's reason.
+        focus_results(&mut app);
+        for _ in 0..10 {
+            app.update(Msg::PageDown);
+        }
+        let end = screen(&app, w, h);
+        assert!(end.contains("Commissioning check (demo)."), "{end}");
+        assert!(end.contains("more above (k)"), "{end}");
+        assert!(!end.contains("more below"), "{end}");
+        insta::assert_snapshot!(format!("visits_scrolled_{w}x{h}"), end);
+    }
+}
+
+#[test]
+fn a_recorded_visit_shows_the_verdict_it_kept() {
+    let (mut app, _) = demo("kept-verdict");
+    select(&mut app, PUMP);
+    keys(&mut app, &[Msg::Char('a'), Msg::Down, Msg::Down]);
+    typed(&mut app, "27.1");
+    keys(&mut app, &[Msg::Down]);
+    typed(&mut app, "1.9");
+    keys(&mut app, &[Msg::Enter]);
+    app.wait_idle();
+    let o = app.open.as_ref().unwrap();
+    let kept = o.supply.visits.last().unwrap().diagnosis.clone().unwrap();
+    let shown = screen(&app, 120, 80);
+    let header = format!(
+        "{} {}",
+        railcheck::clock::today(),
+        kept.verdict.to_uppercase()
+    );
+    assert!(
+        shown.contains(&header) && shown.contains("(recorded)"),
+        "{shown}"
+    );
+    // A capacitance estimate reads in uF.
+    if kept.fault == "capacitance-low" {
+        assert!(shown.contains(" uF)"), "{shown}");
+    }
+}
+
+#[test]
+fn a_long_history_judges_its_newest_visits_and_says_so_of_the_rest() {
+    let dir = long_history_library("long-judged", 20);
+    let mut app = App::new(Library::open(&dir, false).unwrap()).unwrap();
+    app.color = false;
+    app.update(Msg::Char('v'));
+    app.wait_idle();
+    let judged = app.open.as_ref().unwrap().judgements.as_ref().unwrap();
+    let worked = judged
+        .iter()
+        .filter(|j| matches!(j, railcheck::tui::worker::Judgement::Judged { .. }))
+        .count();
+    assert_eq!(worked, railcheck::tui::worker::JUDGED_VISITS);
+    let shown = screen(&app, 120, 200);
+    assert_eq!(
+        shown.matches("(worked out now)").count(),
+        railcheck::tui::worker::JUDGED_VISITS,
+        "{shown}"
+    );
+    assert!(shown.contains("Visits older than the newest 12"), "{shown}");
+}
+
+#[test]
+fn the_sketch_has_a_volts_and_a_milliseconds_scale() {
+    for (w, h) in [(80u16, 24u16), (120, 40)] {
+        let (mut app, _) = demo(&format!("scope-{w}"));
+        select(&mut app, PUMP);
+        let max = figure(&app, "max_v");
+        let min = figure(&app, "min_v");
+        let shown = screen(&app, w, h);
+        let sig3 = railcheck::tui::style::sig3;
+        assert!(shown.contains(&format!("max {} V", sig3(max))), "{shown}");
+        assert!(shown.contains(&format!("min {} V", sig3(min))), "{shown}");
+        // Two mains periods of a 50 Hz supply: 0 to 40 ms (a period is 1/50 s, 20 ms).
+        let scale = rows(&shown)
+            .into_iter()
+            .find(|r| r.contains("│ms "))
+            .unwrap_or_else(|| panic!("{shown}"));
+        // The sketch's part of the row (the form shares it on the left).
+        let scale = &scale[scale.find("│ms ").unwrap()..];
+        let ticks: Vec<&str> = scale
+            .split(['│', ' '])
+            .filter(|t| t.parse::<f64>().is_ok())
+            .collect();
+        assert_eq!(ticks.first(), Some(&"0"), "{scale}");
+        assert_eq!(ticks.last(), Some(&"40"), "{scale}");
+        // The worst low corner: its title whole, its conditions in full inside.
+        app.update(Msg::Char('w'));
+        let shown = screen(&app, w, h);
+        insta::assert_snapshot!(format!("sketch_worst_low_{w}x{h}"), shown);
+        let words = app
+            .open
+            .as_ref()
+            .unwrap()
+            .solved
+            .as_ref()
+            .as_ref()
+            .unwrap()
+            .low
+            .as_ref()
+            .unwrap()
+            .0
+            .clone();
+        let joined = rows(&shown).join(" ");
+        for word in words.split_whitespace() {
+            assert!(joined.contains(word), "{word} of {words}\n{shown}");
+        }
+        assert!(shown.contains("(w: nominal)"), "{shown}");
+    }
+}
+
+#[test]
+fn the_results_show_the_secondary_ac() {
+    let (mut app, _) = demo("secondary");
+    select(&mut app, PUMP);
+    let sec = figure(&app, "secondary_rms_v");
+    // A loaded winding with resistance reads below the open-circuit mains / ratio (textbook):
+    // 230 V / 9.58.
+    assert!(sec < 230.0 / 9.58, "{sec}");
+    for (w, h) in [(80u16, 24u16), (120, 40)] {
+        let shown = screen(&app, w, h);
+        let row = rows(&shown)
+            .into_iter()
+            .find(|r| r.contains("Secondary AC"))
+            .unwrap_or_else(|| panic!("{shown}"));
+        assert!(
+            row.contains(&railcheck::units::format_si(sec, "V")),
+            "{row}"
+        );
+    }
+}
+
+#[test]
+fn the_caution_says_which_peak_it_uses() {
+    // The pump-house states its lightest load; the chart recorder states none, so its peak is
+    // at no load.
+    for (name, load) in [
+        (PUMP, "lightest load"),
+        ("Flow chart recorder, HT rail", "no load"),
+    ] {
+        let (mut app, _) = demo(&format!("peak-{}", load.len()));
+        select(&mut app, name);
+        let solved = app.open.as_ref().unwrap().solved.as_ref().as_ref().unwrap();
+        let peak = format!("{:.1} V", solved.stress_peak_v);
+        for (w, h) in [(80u16, 24u16), (120, 40)] {
+            let shown = screen(&app, w, h);
+            let caution: Vec<String> = rows(&shown)
+                .into_iter()
+                .skip_while(|r| !r.starts_with("CAUTION"))
+                .take_while(|r| !r.starts_with("? help"))
+                .collect();
+            let text = caution.join(" ");
+            assert!(
+                text.contains(&peak) && text.contains("high mains") && text.contains(load),
+                "{name} {w}x{h}: {text}"
+            );
+            assert!(text.contains("local codes"), "{text}");
+            assert!(
+                caution
+                    .iter()
+                    .all(|l| l.trim_end().chars().count() <= w as usize)
+            );
+        }
+    }
+}
+
+#[test]
+fn no_color_keeps_the_words_and_colour_adds_to_them() {
+    let (mut app, _) = demo("no-color");
+    select(&mut app, PUMP);
+    set_field(&mut app, "filter.rated_v", "25");
+    for color in [false, true] {
+        app.color = color;
+        let area = ratatui::layout::Rect::new(0, 0, 80, 24);
+        let mut buf = ratatui::buffer::Buffer::empty(area);
+        railcheck::tui::view::draw(&app, area, &mut buf);
+        let y = (0..24)
+            .find(|&y| {
+                (0..7)
+                    .map(|x| buf[(x, y)].symbol().to_string())
+                    .collect::<String>()
+                    == "checks:"
+            })
+            .expect("a checks line");
+        let word: String = (8..14).map(|x| buf[(x, y)].symbol().to_string()).collect();
+        assert_eq!(word, "1 FAIL");
+        let fg = buf[(10, y)].fg;
+        if color {
+            assert_eq!(fg, ratatui::style::Color::Red);
+        } else {
+            assert_eq!(fg, ratatui::style::Color::Reset);
+        }
+    }
+}

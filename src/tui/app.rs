@@ -127,6 +127,9 @@ pub struct Solved {
     /// The rail's highest voltage at high line with the lightest (or no) load, volts: what the
     /// stored-energy caution is worked out at.
     pub stress_peak_v: f64,
+    /// Whether that peak is at no load (no lightest load stated) rather than the lightest
+    /// stated load: the caution line says which.
+    pub stress_no_load: bool,
     /// The worst low corner, its words and its solve, for the sketch.
     pub low: Option<(String, Operating)>,
 }
@@ -179,6 +182,7 @@ pub fn solve_for_screen_while(
         not_rated,
         cautions,
         stress_peak_v: stress.max_v,
+        stress_no_load: no_load,
         low,
     }))
 }
@@ -218,6 +222,13 @@ pub struct Open {
     /// Earlier versions of the file as this screen wrote them, each with its supply: an undo
     /// back to one writes that text again, its comments with it.
     texts: Vec<(Supply, String)>,
+    /// The furthest the results panel (or the visits view) can scroll, as the last frame
+    /// drew it: the view writes it, the scroll keys stop there (the view alone knows the
+    /// panel's size).
+    pub results_scroll_max: std::cell::Cell<u16>,
+    /// Each visit's readings against their windows and a verdict, worked out with the trend
+    /// on the worker (in the order of `supply.visits`).
+    pub judgements: Option<Vec<super::worker::Judgement>>,
 }
 
 /// How many earlier texts of the open file are kept for undo.
@@ -240,6 +251,8 @@ impl Open {
             show_visits: false,
             results_scroll: 0,
             texts: Vec::new(),
+            results_scroll_max: std::cell::Cell::new(u16::MAX),
+            judgements: None,
             last_diagnosis: None,
             trend: None,
             solving: true,
@@ -419,9 +432,10 @@ impl App {
                     o.solving = false;
                 }
             }
-            Done::Trend(supply, trend) => {
+            Done::Trend(supply, trend, judgements) => {
                 if o.supply == supply {
                     o.trend = Some(trend);
+                    o.judgements = Some(judgements);
                     o.trending = false;
                 }
             }
@@ -737,7 +751,9 @@ impl App {
             }
             Panel::Results => {
                 if let Some(o) = &mut self.open {
-                    o.results_scroll = (o.results_scroll as i64 + delta).clamp(0, 1000) as u16;
+                    let max = o.results_scroll_max.get() as i64;
+                    let from = (o.results_scroll as i64).min(max);
+                    o.results_scroll = (from + delta).clamp(0, max) as u16;
                 }
             }
         }

@@ -1,14 +1,17 @@
 //! The results: each figure's nominal, worst-case min and max and the paper estimate, the
-//! checks with their status words; or the supply's visits.
+//! checks with their status words; or the supply's visits, each reading against its window.
+//! Both scroll from `Open::results_scroll`, clamped here to what there is.
 
-use super::app::{App, Panel};
-use super::style::Look;
+use super::app::{App, Open, Panel};
+use super::style::{Look, sig3, wrap_words};
+use super::worker::{JUDGED_VISITS, Judgement};
 use crate::analysis::checks::Status;
-use crate::units::format_si;
+use crate::units::{format_si, format_uf};
 use ratatui::buffer::Buffer;
-use ratatui::layout::{Constraint, Rect};
+use ratatui::layout::Rect;
+use ratatui::style::Style;
 use ratatui::text::{Line, Span};
-use ratatui::widgets::{Cell, Paragraph, Row, Table, Widget, Wrap};
+use ratatui::widgets::{Paragraph, Widget, Wrap};
 
 pub struct ResultsPanel<'a>(pub &'a App);
 
@@ -22,13 +25,15 @@ fn show(v: Option<f64>, unit: &str) -> String {
     }
 }
 
-/// The figures the panel lists, most asked-for first.
-const ROWS: [(&str, &str, &str); 12] = [
+/// The figures the panel lists, most asked-for first; the secondary AC is what a meter
+/// across the winding reads (RMS, whole winding).
+const ROWS: [(&str, &str, &str); 13] = [
     ("DC", "dc_v", "V"),
     ("Ripple p-p", "ripple_pp_v", "V"),
     ("Valley", "min_v", "V"),
     ("Crest", "max_v", "V"),
     ("Ripple RMS", "ripple_rms_v", "V"),
+    ("Secondary AC", "secondary_rms_v", "V"),
     ("Load", "load_a", "A"),
     ("Diode peak", "diode_peak_a", "A"),
     ("Diode rev.", "diode_piv_v", "V"),
@@ -37,6 +42,122 @@ const ROWS: [(&str, &str, &str); 12] = [
     ("Cap ripple", "cap_ripple_rms_a", "A"),
     ("Surge", "inrush_peak_a", "A"),
 ];
+
+/// A reading's words and unit on screen, by its visit key.
+fn reading_words(key: &str) -> (&'static str, &'static str) {
+    match key {
+        "mains_vrms" => ("mains", "V"),
+        "secondary_vac" => ("secondary AC", "V"),
+        "dc_v" => ("DC", "V"),
+        "ripple_pp_v" => ("ripple p-p", "V"),
+        "ripple_rms_v" => ("ripple RMS", "V"),
+        "ripple_hz" => ("ripple", "Hz"),
+        "load_a" => ("load", "A"),
+        _ => ("reading", ""),
+    }
+}
+
+/// A fitted estimate as the part value a technician names.
+fn estimate_words(key: &str, v: f64) -> String {
+    match key {
+        "uf" => format!("about {}", format_uf(v)),
+        "esr_ohms" => format!("ESR about {} ohm", sig3(v)),
+        "vrms" => format!("mains about {} V", sig3(v)),
+        "ratio" => format!("ratio about {}:1", sig3(v)),
+        "load_a" => format!("load about {}", format_si(v, "A")),
+        "valley_v" => format!("valley {} V", sig3(v)),
+        k => format!("{k} {}", sig3(v)),
+    }
+}
+
+/// Lines of text for a scrolled panel: each either drawn as it is (clipped at the edge) or
+/// already broken to the panel's width.
+struct Text {
+    width: usize,
+    lines: Vec<Line<'static>>,
+}
+
+impl Text {
+    fn new(width: u16) -> Text {
+        Text {
+            width: width as usize,
+            lines: Vec::new(),
+        }
+    }
+
+    /// One line as it is: built to fit (the figures' table, short headers).
+    fn fixed(&mut self, line: Line<'static>) {
+        self.lines.push(line);
+    }
+
+    /// `text` in `style`, broken at spaces, later lines indented by `indent`.
+    fn wrapped(&mut self, text: &str, style: Style, indent: usize) {
+        for l in wrap_words(text, self.width, indent) {
+            self.lines.push(Line::styled(l, style));
+        }
+    }
+
+    /// A word in `style` (a status word), then `text` broken to the width after it and
+    /// hung under its first word.
+    fn marked(&mut self, word: &str, word_style: Style, text: &str) {
+        let hang = word.chars().count() + 1;
+        for (i, l) in wrap_words(text, self.width.saturating_sub(hang).max(8), 0)
+            .into_iter()
+            .enumerate()
+        {
+            let lead = if i == 0 {
+                Span::styled(format!("{word} "), word_style)
+            } else {
+                Span::raw(" ".repeat(hang))
+            };
+            self.lines.push(Line::from(vec![lead, Span::raw(l)]));
+        }
+    }
+}
+
+/// Draws `text` in `inner` from the open supply's scroll offset, clamped so the last line can
+/// reach the bottom and no further, and records that limit for the scroll keys. Returns the
+/// offset drawn and whether more lies below.
+fn draw_scrolled(open: &Open, text: Text, inner: Rect, buf: &mut Buffer) -> (usize, bool) {
+    let max = text.lines.len().saturating_sub(inner.height as usize);
+    open.results_scroll_max
+        .set(max.min(u16::MAX as usize) as u16);
+    let offset = (open.results_scroll as usize).min(max);
+    let shown: Vec<Line> = text
+        .lines
+        .into_iter()
+        .skip(offset)
+        .take(inner.height as usize)
+        .collect();
+    Paragraph::new(shown).render(inner, buf);
+    (offset, offset < max)
+}
+
+/// The frame of a scrolled panel: "more above" in the title, "more below" and the key that
+/// shows it on the bottom edge, so that nothing is hidden without saying so.
+fn frame(
+    look: &Look,
+    title: &str,
+    focused: bool,
+    offset: usize,
+    below: bool,
+) -> ratatui::widgets::Block<'static> {
+    let title = if offset > 0 {
+        format!("{title} - more above (k)")
+    } else {
+        title.to_string()
+    };
+    let mut block = look.panel(&title, focused);
+    if below {
+        let hint = if focused {
+            " more below (j, PgDn) "
+        } else {
+            " more below (Tab here, then j) "
+        };
+        block = block.title_bottom(Line::styled(hint, look.heading()));
+    }
+    block
+}
 
 impl Widget for &ResultsPanel<'_> {
     fn render(self, area: Rect, buf: &mut Buffer) {
@@ -50,150 +171,7 @@ impl Widget for &ResultsPanel<'_> {
             return;
         };
         if open.show_visits {
-            let mut lines: Vec<Line> = Vec::new();
-            if let Some(d) = &open.last_diagnosis {
-                let style = match d.verdict {
-                    "fault" => look.fail(),
-                    "suspect" => look.warn(),
-                    _ => look.ok(),
-                };
-                lines.push(Line::from(vec![
-                    Span::styled(format!("{} ", d.verdict.to_uppercase()), style),
-                    Span::raw("most likely first:"),
-                ]));
-                for h in d.hypotheses.iter().take(3) {
-                    let est = match h.estimate {
-                        Some((k, v)) if !k.is_empty() => format!(" ({k} {v:.3})"),
-                        _ => String::new(),
-                    };
-                    lines.push(Line::from(format!(
-                        " {:>3.0} % {}{est}",
-                        100.0 * h.score,
-                        h.fault.key()
-                    )));
-                }
-                lines.push(Line::from(Span::styled(
-                    format!(" next: {}", d.hypotheses[0].next_check),
-                    look.dim(),
-                )));
-            }
-            let mut visits: Vec<_> = open.supply.visits.iter().collect();
-            visits.sort_by_key(|v| std::cmp::Reverse(v.date_text()));
-            if visits.is_empty() {
-                lines.push(Line::from("No visits yet: a records one."));
-            }
-            if let Some(c) = &open.supply.calibration {
-                let f = open.supply.calibration_in_force();
-                let mut parts = Vec::new();
-                if f.winding {
-                    parts.push(format!("winding x{:.2}", f.winding_factor));
-                }
-                if let Some(k) = f.crest {
-                    parts.push(format!("crest {k:.3}"));
-                }
-                if f.capacitance {
-                    parts.push(format!(
-                        "{:.0} uF",
-                        f.cap_factor * open.supply.filter.uf.unwrap_or(0.0)
-                    ));
-                }
-                lines.push(Line::from(Span::styled(
-                    format!("Calibrated on {}: {}", c.visit, parts.join(", ")),
-                    look.dim(),
-                )));
-            } else if !visits.is_empty() {
-                lines.push(Line::from(Span::styled(
-                    "b: the newest visit is known good, calibrate on it",
-                    look.dim(),
-                )));
-            }
-            for v in visits {
-                let readings: Vec<String> = v
-                    .readings
-                    .present()
-                    .iter()
-                    .map(|(k, x)| {
-                        format!("{} {x}", k.trim_end_matches("_v").trim_end_matches("_a"))
-                    })
-                    .collect();
-                let mark = if v.baseline { "  baseline" } else { "" };
-                lines.push(Line::from(vec![
-                    Span::styled(v.date_text(), look.heading()),
-                    Span::styled(mark, look.ok()),
-                    Span::raw(format!("  {}", readings.join(", "))),
-                ]));
-                if !v.notes.is_empty() {
-                    lines.push(Line::from(Span::styled(
-                        format!("  {}", v.notes),
-                        look.dim(),
-                    )));
-                }
-            }
-            let inner = area.inner(ratatui::layout::Margin::new(1, 1));
-            let title = if open.trending {
-                "Visits (working out the trend...)"
-            } else {
-                "Visits (v: back to results)"
-            };
-            look.panel(title, focused).render(area, buf);
-            // The chart takes a third of the panel when that is four rows or more.
-            let room = inner.height / 3;
-            let chart_h = if room >= 4
-                && open
-                    .trend
-                    .as_ref()
-                    .is_some_and(|t| t.points.iter().filter(|p| p.uf.is_some()).count() >= 2)
-            {
-                room.min(8)
-            } else {
-                0
-            };
-            let text_area = Rect {
-                height: inner.height.saturating_sub(chart_h + 1),
-                ..inner
-            };
-            Paragraph::new(lines)
-                .wrap(Wrap { trim: true })
-                .render(text_area, buf);
-            if let Some(t) = open.trend.as_ref().filter(|_| inner.height >= 2) {
-                let summary = match (&t.crossing, t.uf_per_year) {
-                    (Some(c), Some(s)) => format!(
-                        "trend {s:+.0} uF/yr; {} the {:.0} uF limit about {}{}",
-                        if c.already { "crossed" } else { "reaches" },
-                        t.limit_uf,
-                        c.date,
-                        match (&c.earliest, &c.latest) {
-                            (Some(a), Some(b)) => format!(" ({a}..{b})"),
-                            (Some(a), None) => format!(" ({a}.., no later bound)"),
-                            _ => String::new(),
-                        }
-                    ),
-                    _ => t.note.clone(),
-                };
-                let y = inner.y + inner.height.saturating_sub(chart_h + 1);
-                Paragraph::new(Line::styled(summary, look.heading())).render(
-                    Rect {
-                        y,
-                        height: 1,
-                        ..inner
-                    },
-                    buf,
-                );
-                if chart_h > 0 {
-                    super::trend_chart::TrendChart {
-                        trend: t,
-                        color: app.color,
-                    }
-                    .render(
-                        Rect {
-                            y: y + 1,
-                            height: chart_h,
-                            ..inner
-                        },
-                        buf,
-                    );
-                }
-            }
+            visits(app, open, &look, focused, area, buf);
             return;
         }
         // While a newer solve is on its way the older figures stay, marked as such.
@@ -238,15 +216,18 @@ impl Widget for &ResultsPanel<'_> {
             "max_v" => Some(solved.hand.working_peak_v),
             _ => None,
         };
-        let mut rows: Vec<Row> = Vec::new();
+        let inner = area.inner(ratatui::layout::Margin::new(1, 1));
+        let mut text = Text::new(inner.width);
+        let last_head = if before.is_some() { "Change" } else { "Paper" };
+        text.fixed(Line::styled(
+            format!(
+                "{:<12} {:<8} {:<9} {:<9} {last_head}",
+                "Figure", "Nominal", "Worst lo", "Worst hi"
+            ),
+            look.heading(),
+        ));
         for (label, name, unit) in ROWS {
             let e = solved.worst.extent(name);
-            let mut cells = vec![
-                Cell::from(label),
-                Cell::from(show(value_of(name), unit)),
-                Cell::from(show(e.map(|e| e.min), unit)),
-                Cell::from(show(e.map(|e| e.max), unit)),
-            ];
             let last = match before {
                 // What-if: the change against the saved supply.
                 Some(b) => {
@@ -266,66 +247,289 @@ impl Widget for &ResultsPanel<'_> {
                 }
                 None => hand(name).map(|h| show(Some(h), unit)).unwrap_or_default(),
             };
-            cells.push(Cell::from(last));
-            rows.push(Row::new(cells));
+            text.fixed(Line::raw(
+                format!(
+                    "{label:<12} {:<8} {:<9} {:<9} {last}",
+                    show(value_of(name), unit),
+                    show(e.map(|e| e.min), unit),
+                    show(e.map(|e| e.max), unit),
+                )
+                .trim_end()
+                .to_string(),
+            ));
         }
-        let last_head = if before.is_some() { "Change" } else { "Paper" };
-        let header = Row::new(vec!["Figure", "Nominal", "Worst lo", "Worst hi", last_head])
-            .style(look.heading());
-        let table_height = (ROWS.len() as u16 + 1).min(area.height.saturating_sub(2));
-        let inner = area.inner(ratatui::layout::Margin::new(1, 1));
-        look.panel(title, focused).render(area, buf);
-        let table_area = Rect {
-            height: table_height,
-            ..inner
-        };
-        Widget::render(
-            Table::new(
-                rows,
-                [
-                    Constraint::Length(12),
-                    Constraint::Length(8),
-                    Constraint::Length(9),
-                    Constraint::Length(9),
-                    Constraint::Min(8),
-                ],
-            )
-            .header(header),
-            table_area,
-            buf,
-        );
-        let mut lines: Vec<Line> = Vec::new();
         for c in &solved.checks {
             let style = match c.status {
                 Status::Fail => look.fail(),
                 Status::Warn => look.warn(),
                 Status::Ok => look.ok(),
             };
-            lines.push(Line::from(vec![
-                Span::styled(format!("{:<4} ", c.status.word()), style),
-                Span::raw(format!("{} {:.3} / {}", c.id, c.value, c.limit)),
-            ]));
+            text.marked(&format!("{:<4}", c.status.word()), style, &c.message);
         }
         if !solved.not_rated.is_empty() {
-            lines.push(Line::from(Span::styled(
-                format!("not rated: {}", solved.not_rated.join(", ")),
+            text.wrapped(
+                &format!(
+                    "not rated: {} (no rating in the file)",
+                    solved.not_rated.join(", ")
+                ),
                 look.dim(),
-            )));
+                2,
+            );
         }
         // What the file leaves out is a range the worst case includes: said as assumed.
         for a in &solved.worst.assumed {
-            lines.push(Line::from(Span::styled(
-                format!("assumed: {}", a.why),
-                look.dim(),
-            )));
+            text.wrapped(&format!("assumed: {}", a.why), look.dim(), 2);
         }
-        let rest = Rect {
-            y: table_area.y + table_height,
-            height: inner.height.saturating_sub(table_height),
-            ..inner
-        };
-        Paragraph::new(lines)
-            .wrap(Wrap { trim: true })
-            .render(rest, buf);
+        let (offset, below) = draw_scrolled(open, text, inner, buf);
+        frame(&look, title, focused, offset, below).render(area, buf);
     }
+}
+
+/// The visits view: the newest diagnosis, the calibration, each visit with its readings
+/// against their windows and its verdict, and at the foot the capacitance trend and chart.
+fn visits(app: &App, open: &Open, look: &Look, focused: bool, area: Rect, buf: &mut Buffer) {
+    let inner = area.inner(ratatui::layout::Margin::new(1, 1));
+    let mut text = Text::new(inner.width);
+    if let Some(d) = &open.last_diagnosis {
+        let style = match d.verdict {
+            "fault" => look.fail(),
+            "suspect" => look.warn(),
+            _ => look.ok(),
+        };
+        text.marked(
+            &d.verdict.to_uppercase(),
+            style,
+            "(the visit just recorded), most likely first:",
+        );
+        for h in d.hypotheses.iter().take(3) {
+            let est = match h.estimate {
+                Some((k, v)) if !k.is_empty() => format!(" ({})", estimate_words(k, v)),
+                _ => String::new(),
+            };
+            text.wrapped(
+                &format!(" {:>3.0} % {}{est}", 100.0 * h.score, h.fault.key()),
+                Style::default(),
+                7,
+            );
+        }
+        if let Some(h) = d.hypotheses.first() {
+            text.wrapped(&format!(" next: {}", h.next_check), look.dim(), 7);
+        }
+    }
+    let mut order: Vec<usize> = (0..open.supply.visits.len()).collect();
+    order.sort_by_key(|&i| std::cmp::Reverse(open.supply.visits[i].date_text()));
+    if order.is_empty() {
+        text.wrapped("No visits yet: a records one.", Style::default(), 0);
+    }
+    if let Some(c) = &open.supply.calibration {
+        let f = open.supply.calibration_in_force();
+        let mut parts = Vec::new();
+        if f.winding {
+            parts.push(format!("winding x{:.2}", f.winding_factor));
+        }
+        if let Some(k) = f.crest {
+            parts.push(format!("crest {k:.3}"));
+        }
+        if f.capacitance {
+            parts.push(format_uf(
+                f.cap_factor * open.supply.filter.uf.unwrap_or(0.0),
+            ));
+        }
+        text.wrapped(
+            &format!("Calibrated on {}: {}", c.visit, parts.join(", ")),
+            look.dim(),
+            2,
+        );
+    } else if !order.is_empty() {
+        text.wrapped(
+            "b: the newest visit is known good, calibrate on it",
+            look.dim(),
+            2,
+        );
+    }
+    let mut unjudged = false;
+    for &i in &order {
+        let v = &open.supply.visits[i];
+        let judged = open.judgements.as_ref().and_then(|j| j.get(i));
+        // The verdict the visit kept when it was recorded; else the one worked out now.
+        let verdict = match (&v.diagnosis, judged) {
+            (Some(d), _) => Some((d.verdict.clone(), d.fault.clone(), d.score, "recorded")),
+            (
+                None,
+                Some(Judgement::Judged {
+                    verdict,
+                    fault,
+                    score,
+                    ..
+                }),
+            ) => Some((
+                verdict.to_string(),
+                fault.to_string(),
+                *score,
+                "worked out now",
+            )),
+            _ => None,
+        };
+        let mut head = vec![Span::styled(v.date_text(), look.heading())];
+        if let Some((word, fault, score, how)) = &verdict {
+            let style = match word.as_str() {
+                "fault" => look.fail(),
+                "suspect" => look.warn(),
+                _ => look.ok(),
+            };
+            head.push(Span::raw(" "));
+            head.push(Span::styled(word.to_uppercase(), style));
+            // A healthy verdict's top hypothesis is "healthy": said once.
+            let named = if fault == "healthy" || fault.is_empty() {
+                String::new()
+            } else {
+                format!(" {fault} {:.0} %", 100.0 * score)
+            };
+            head.push(Span::raw(format!("{named} ({how})")));
+        }
+        if v.baseline {
+            head.push(Span::styled(" baseline", look.ok()));
+        }
+        text.fixed(Line::from(head));
+        if !v.technician.is_empty() {
+            text.wrapped(&format!("  by {}", v.technician), look.dim(), 4);
+        }
+        match judged {
+            Some(Judgement::Judged { expectations, .. }) => {
+                for e in expectations {
+                    let (words, unit) = reading_words(e.reading);
+                    let (mark, style) = match e.status {
+                        "above" => ("ABOVE", look.fail()),
+                        "below" => ("BELOW", look.fail()),
+                        _ => ("within", look.ok()),
+                    };
+                    text.fixed(Line::from(vec![
+                        Span::raw(format!("  {words:<12} {:>6} {unit:<2} ", sig3(e.value))),
+                        Span::styled(format!("{mark:<6}"), style),
+                        Span::raw(format!(" {}..{} {unit}", sig3(e.min), sig3(e.max))),
+                    ]));
+                }
+            }
+            other => {
+                let readings: Vec<String> = v
+                    .readings
+                    .present()
+                    .iter()
+                    .map(|(k, x)| {
+                        let (words, unit) = reading_words(k);
+                        format!("{words} {} {unit}", sig3(*x))
+                    })
+                    .collect();
+                text.wrapped(&format!("  {}", readings.join(", ")), Style::default(), 4);
+                match other {
+                    Some(Judgement::Refused(why)) => {
+                        text.wrapped(&format!("  not judged: {why}"), look.dim(), 4)
+                    }
+                    Some(Judgement::NotJudged) => unjudged = true,
+                    _ if open.trending => {
+                        text.wrapped("  windows: working them out...", look.dim(), 4)
+                    }
+                    _ => {}
+                }
+            }
+        }
+        if !v.replaced.is_empty() {
+            text.wrapped(
+                &format!("  replaced: {}", v.replaced.join(", ")),
+                Style::default(),
+                4,
+            );
+        }
+        if !v.notes.is_empty() {
+            text.wrapped(&format!("  {}", v.notes), look.dim(), 4);
+        }
+    }
+    if unjudged {
+        text.wrapped(
+            &format!(
+                "Visits older than the newest {JUDGED_VISITS}: readings only (their windows are not worked out)."
+            ),
+            look.dim(),
+            2,
+        );
+    }
+
+    if let Some(t) = &open.trend {
+        text.wrapped(
+            &format!("Limit {}: {}.", format_uf(t.limit_uf), t.limit),
+            look.dim(),
+            2,
+        );
+    }
+
+    // The foot: the trend in words, then the chart, kept in sight while the visits scroll.
+    let mut foot = Text::new(inner.width);
+    let mut chart_h = 0;
+    if let Some(t) = &open.trend {
+        let summary = match (&t.crossing, t.uf_per_year) {
+            (Some(c), Some(s)) => format!(
+                "Trend {s:+.0} uF a year; {} the {} limit about {}{}",
+                if c.already { "crossed" } else { "reaches" },
+                format_uf(t.limit_uf),
+                c.date,
+                match (&c.earliest, &c.latest) {
+                    (Some(a), Some(b)) => format!(" ({a}..{b})"),
+                    (Some(a), None) => format!(" ({a}.., no later bound)"),
+                    _ => String::new(),
+                }
+            ),
+            _ => t.note.clone(),
+        };
+        foot.wrapped(&summary, look.heading(), 2);
+        let points = t.points.iter().filter(|p| p.uf.is_some()).count();
+        // The chart, when it has two visits to join and the panel room for it beside at
+        // least five lines of visits.
+        let room = inner.height as usize;
+        if points >= 2 && room >= foot.lines.len() + 5 + 5 {
+            foot.wrapped(
+                "chart: uF each visit implies (dots), the limit (flat line)",
+                look.dim(),
+                2,
+            );
+            chart_h = (room / 3).clamp(5, 10).min(room - foot.lines.len() - 5);
+        }
+    }
+    let foot_h = (foot.lines.len() + chart_h).min(inner.height as usize) as u16;
+    let text_area = Rect {
+        height: inner.height - foot_h,
+        ..inner
+    };
+    let (offset, below) = draw_scrolled(open, text, text_area, buf);
+    if foot_h > 0 {
+        let y = text_area.y + text_area.height;
+        let words_h = foot_h - chart_h as u16;
+        Paragraph::new(foot.lines).render(
+            Rect {
+                y,
+                height: words_h,
+                ..inner
+            },
+            buf,
+        );
+        if let (Some(t), true) = (&open.trend, chart_h > 0) {
+            super::trend_chart::TrendChart {
+                trend: t,
+                color: app.color,
+            }
+            .render(
+                Rect {
+                    y: y + words_h,
+                    height: chart_h as u16,
+                    ..inner
+                },
+                buf,
+            );
+        }
+    }
+    let title = if open.trending {
+        "Visits (working out the trend...)"
+    } else {
+        "Visits (v: back to results)"
+    };
+    frame(look, title, focused, offset, below).render(area, buf);
 }

@@ -8,6 +8,7 @@ use super::list_panel::ListPanel;
 use super::results_panel::ResultsPanel;
 use super::sketch::Sketch;
 use super::style::Look;
+use crate::analysis::checks::Status;
 use crate::supply::Topology;
 use ratatui::Frame;
 use ratatui::layout::{Constraint, Layout, Rect};
@@ -21,13 +22,23 @@ pub fn view(app: &App, frame: &mut Frame) {
     draw(app, area, buf);
 }
 
+/// The smallest screen the layout is drawn for; below it a plain notice takes its place.
+pub const MIN_W: u16 = 80;
+pub const MIN_H: u16 = 24;
+
 /// Renders `app` into `area` of `buf` (the same as [`view`], for tests and screenshots).
 pub fn draw(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
     let look = Look::new(app.color);
-    let [title, body, caution, status] = Layout::vertical([
+    if area.width < MIN_W || area.height < MIN_H {
+        too_small(app, area, buf, &look);
+        return;
+    }
+    let caution_lines = caution(app, area.width as usize);
+    let [title, body, checks_row, caution, status] = Layout::vertical([
         Constraint::Length(1),
         Constraint::Min(8),
         Constraint::Length(1),
+        Constraint::Length(caution_lines.len() as u16),
         Constraint::Length(1),
     ])
     .areas(area);
@@ -40,7 +51,14 @@ pub fn draw(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
         .max(4.min(body.height));
     let [list, form] =
         Layout::vertical([Constraint::Length(list_h), Constraint::Min(4)]).areas(left);
-    let sketch_h = (body.height / 3).max(7).min(body.height / 2);
+    // The visits take the whole right side: the ripple sketch says nothing about them, and
+    // their readings, windows and trend chart need the rows.
+    let visits = app.open.as_ref().is_some_and(|o| o.show_visits);
+    let sketch_h = if visits {
+        0
+    } else {
+        (body.height / 3).max(7).min(body.height / 2)
+    };
     let [results, sketch] =
         Layout::vertical([Constraint::Min(6), Constraint::Length(sketch_h)]).areas(right);
 
@@ -69,65 +87,15 @@ pub fn draw(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
     ListPanel(app).render(list, buf);
     FormPanel(app).render(form, buf);
     ResultsPanel(app).render(results, buf);
-    Sketch(app).render(sketch, buf);
-
-    // Mains is always a hazard; say so with the stored energy (and the discharge time when a
-    // bleeder or load gives one), shortened to fit rather than cut off.
-    let solved = app
-        .open
-        .as_ref()
-        .and_then(|o| o.solved.as_ref().as_ref().ok());
-    let stored = solved.map(|s| {
-        // The same peak and capacitance as the report's caution: the rail at high line, lightest
-        // or no load, with the capacitance seen across the rail (a doubler's two in series).
-        let peak = s.stress_peak_v;
-        let farads =
-            crate::analysis::cautions::rail_farads(&app.open.as_ref().expect("open").supply);
-        (
-            crate::analysis::cautions::stored_energy_j(farads, peak),
-            peak,
-        )
-    });
-    let discharge = solved
-        .and_then(|s| s.cautions.iter().find(|c| c.starts_with("Discharge")))
-        .map(|c| c.trim_start_matches("Discharge: ").to_string());
-    let long = match (&stored, &discharge) {
-        (Some((j, v)), Some(d)) => format!(
-            "CAUTION mains can kill; {j:.2} J stored at {v:.1} V; {d} Meter before touching; local codes and licensed practice apply."
-        ),
-        (Some((j, v)), None) => format!(
-            "CAUTION mains can kill; {j:.2} J stored at {v:.1} V. Meter before touching; local codes and licensed practice apply."
-        ),
-        _ => "CAUTION mains and charged capacitors can kill: meter before touching; local codes and licensed practice apply.".to_string(),
-    };
-    // Shorter and shorter wordings; every one keeps the hazard, the energy and the deferral to
-    // local codes, so a narrow screen loses words, not the warning.
-    let seconds = solved
-        .and_then(|s| s.cautions.iter().find(|c| c.starts_with("Discharge")))
-        .and_then(|c| c.split("in about ").nth(1))
-        .and_then(|t| t.split(' ').next())
-        .map(|t| format!(", {t} s to discharge"))
-        .unwrap_or_default();
-    let shorter = match &stored {
-        Some((j, v)) => vec![
-            format!(
-                "CAUTION mains can kill; {j:.2} J at {v:.1} V stored{seconds}. Meter first; local codes and licensed practice apply."
-            ),
-            format!(
-                "CAUTION mains can kill; {j:.2} J at {v:.1} V{seconds}. Meter first; local codes apply."
-            ),
-            format!("CAUTION mains kills; {j:.2} J at {v:.1} V. Meter first; local codes apply."),
-        ],
-        None => vec![
-            "CAUTION mains can kill. Meter first; local codes and licensed practice apply.".into(),
-        ],
-    };
-    let fits = |t: &String| t.chars().count() <= caution.width as usize;
-    let caution_text = std::iter::once(long)
-        .chain(shorter.clone())
-        .find(fits)
-        .unwrap_or_else(|| shorter.last().cloned().unwrap_or_default());
-    Paragraph::new(Line::styled(caution_text, look.caution())).render(caution, buf);
+    if sketch_h > 0 {
+        Sketch(app).render(sketch, buf);
+    }
+    Paragraph::new(checks_line(app, &look, checks_row.width as usize)).render(checks_row, buf);
+    let text: Vec<Line> = caution_lines
+        .into_iter()
+        .map(|l| Line::styled(l, look.caution()))
+        .collect();
+    Paragraph::new(text).render(caution, buf);
     let hint = match &app.mode {
         Mode::Editing { .. } => match app.open.as_ref() {
             Some(o) => match &o.field_error {
@@ -237,4 +205,225 @@ pub(super) fn dialog(
         .wrap(Wrap { trim: true })
         .block(look.panel(title, true))
         .render(rect, buf);
+}
+
+/// The caution for the open supply, in as few lines of `width` as it takes: one where the
+/// whole of it fits, else two (the hazard and the energy, then which peak that is and why).
+/// Every wording keeps the hazard, the energy and the deferral to local codes.
+fn caution(app: &App, width: usize) -> Vec<String> {
+    let open = app.open.as_ref();
+    let solved = open.and_then(|o| o.solved.as_ref().as_ref().ok());
+    let fits = |t: &String| t.chars().count() <= width;
+    let first_fit = |options: Vec<String>| -> String {
+        options
+            .iter()
+            .find(|t| fits(t))
+            .or(options.last())
+            .cloned()
+            .unwrap_or_default()
+    };
+    let (Some(s), Some(o)) = (solved, open) else {
+        return vec![first_fit(vec![
+            "CAUTION mains and charged capacitors can kill: meter before touching; local codes and licensed practice apply.".into(),
+            "CAUTION mains can kill. Meter first; local codes and licensed practice apply.".into(),
+            "CAUTION mains kills. Meter first; local codes apply.".into(),
+        ])];
+    };
+    // The same peak and capacitance as the report's caution: the rail at its highest (high
+    // mains, highest secondary, lowest diode drop, cold winding, full sine) with the lightest
+    // load, or none when the file states no lightest load; the capacitance seen across the
+    // rail at its high tolerance (a doubler's two in series).
+    let v = s.stress_peak_v;
+    let j = crate::analysis::cautions::stored_energy_j(
+        crate::analysis::cautions::rail_farads(&o.supply),
+        v,
+    );
+    let high = o.supply.mains.high_pct;
+    let load = if s.stress_no_load {
+        "no load"
+    } else {
+        "the lightest load"
+    };
+    let load_short = if s.stress_no_load {
+        "no load"
+    } else {
+        "lightest load"
+    };
+    let discharge = s
+        .cautions
+        .iter()
+        .find(|c| c.starts_with("Discharge"))
+        .map(|c| c.trim_start_matches("Discharge: ").to_string());
+    let seconds = discharge
+        .as_deref()
+        .and_then(|c| c.split("in about ").nth(1))
+        .and_then(|t| t.split(' ').next())
+        .map(|t| format!(", {t} s to discharge"))
+        .unwrap_or_default();
+    let peak = format!("the rail's peak at high mains (+{high:.0} %) and {load}");
+    let mut one = Vec::new();
+    if let Some(d) = &discharge {
+        one.push(format!(
+            "CAUTION mains can kill; {j:.2} J stored at {v:.1} V, {peak}; {d} Meter before touching; local codes and licensed practice apply."
+        ));
+    }
+    one.push(format!(
+        "CAUTION mains can kill; {j:.2} J stored at {v:.1} V, {peak}{seconds}. Meter before touching; local codes and licensed practice apply."
+    ));
+    one.push(format!(
+        "CAUTION mains can kill; {j:.2} J at {v:.1} V (peak at high mains, {load_short}){seconds}. Meter first; local codes apply."
+    ));
+    if let Some(line) = one.into_iter().find(fits) {
+        return vec![line];
+    }
+    let first = first_fit(vec![
+        format!(
+            "CAUTION mains can kill; {j:.2} J stored at {v:.1} V{seconds}. Meter first; local codes and licensed practice apply."
+        ),
+        format!(
+            "CAUTION mains can kill; {j:.2} J at {v:.1} V{seconds}. Meter first; local codes apply."
+        ),
+        format!("CAUTION mains kills; {j:.2} J at {v:.1} V. Meter first; local codes apply."),
+    ]);
+    let second = first_fit(vec![
+        format!("{v:.1} V is {peak}: the most the filter holds."),
+        format!(
+            "{v:.1} V is the peak at high mains (+{high:.0} %), {load_short}: the most it holds."
+        ),
+        format!("{v:.1} V: peak at high mains, {load_short}."),
+    ]);
+    vec![first, second]
+}
+
+/// The rating checks in one line: how many fail and warn and which, else that all pass, so a
+/// failed rating is in sight whatever the results panel shows.
+fn checks_line(app: &App, look: &Look, width: usize) -> Line<'static> {
+    let Some(o) = &app.open else {
+        return Line::raw("");
+    };
+    let solved = match o.solved.as_ref() {
+        Ok(s) => s,
+        Err(_) if o.solving => return Line::styled("checks: working them out...", look.dim()),
+        Err(_) => {
+            return Line::styled(
+                "checks: none, the supply cannot be solved (see the results)",
+                look.fail(),
+            );
+        }
+    };
+    let ids = |st: Status| -> Vec<&'static str> {
+        solved
+            .checks
+            .iter()
+            .filter(|c| c.status == st)
+            .map(|c| c.id)
+            .collect()
+    };
+    let (fail, warn, ok) = (ids(Status::Fail), ids(Status::Warn), ids(Status::Ok));
+    let stale = if o.solving { " (working...)" } else { "" };
+    let not_rated = &solved.not_rated;
+    let rated_none = |n: usize| match n {
+        0 => String::new(),
+        _ => format!("; {n} not rated"),
+    };
+    if fail.is_empty() && warn.is_empty() {
+        let words = match ok.len() {
+            0 => "checks: no ratings in the file to check".to_string(),
+            n => format!("checks: all {n} OK"),
+        };
+        let long = if not_rated.is_empty() {
+            format!("{words}{stale}")
+        } else {
+            format!("{words}; not rated: {}{stale}", not_rated.join(", "))
+        };
+        let text = if long.chars().count() <= width {
+            long
+        } else {
+            format!("{words}{}{stale}", rated_none(not_rated.len()))
+        };
+        return Line::from(vec![
+            Span::raw("checks: "),
+            Span::styled(text["checks: ".len()..].to_string(), look.ok()),
+        ]);
+    }
+    let mut spans = vec![Span::raw("checks: ")];
+    if !fail.is_empty() {
+        spans.push(Span::styled(format!("{} FAIL", fail.len()), look.fail()));
+    }
+    if !warn.is_empty() {
+        if !fail.is_empty() {
+            spans.push(Span::raw(" "));
+        }
+        spans.push(Span::styled(format!("{} WARN", warn.len()), look.warn()));
+    }
+    let used: usize = spans.iter().map(|s| s.content.chars().count()).sum();
+    let tail = format!("; {} OK{}{stale}", ok.len(), rated_none(not_rated.len()));
+    let named: Vec<&str> = fail.iter().chain(&warn).copied().collect();
+    // The names that fit, the first always, the rest counted.
+    let mut list = String::new();
+    for (i, id) in named.iter().enumerate() {
+        let more = named.len() - i - 1;
+        let sep = if i == 0 { "" } else { ", " };
+        let candidate = format!("{list}{sep}{id}");
+        let rest = if more > 0 {
+            format!(" and {more} more")
+        } else {
+            String::new()
+        };
+        if i > 0 && used + 2 + candidate.len() + rest.len() + tail.len() > width {
+            list = format!("{list} and {} more", named.len() - i);
+            break;
+        }
+        list = candidate;
+    }
+    spans.push(Span::raw(format!(": {list}{tail}")));
+    Line::from(spans)
+}
+
+/// Below the smallest size: a plain notice with the size needed and the size now, the caution
+/// in full, the open supply and its checks, rather than panels cut to nonsense.
+fn too_small(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer, look: &Look) {
+    let width = (area.width as usize).max(1);
+    let wrap = |t: &str| super::style::wrap_words(t, width, 0);
+    let mut lines: Vec<Line> = wrap(&format!(
+        "railcheck needs {MIN_W}x{MIN_H}, now {}x{}",
+        area.width, area.height
+    ))
+    .into_iter()
+    .map(|l| Line::styled(l, look.heading()))
+    .collect();
+    // The caution in full where the rows allow, else its shortest wording; it comes before
+    // anything else the notice says.
+    let room = (area.height as usize).saturating_sub(lines.len()).max(1);
+    let caution = [usize::MAX, width]
+        .into_iter()
+        .map(|w| wrap(&caution(app, w).join(" ")))
+        .find(|l| l.len() <= room)
+        .unwrap_or_else(|| wrap(&caution(app, width)[0]));
+    lines.extend(caution.into_iter().map(|l| Line::styled(l, look.caution())));
+    if let Some(o) = &app.open {
+        lines.push(Line::raw(""));
+        lines.extend(
+            wrap(&format!("Open: {}", o.supply.name))
+                .into_iter()
+                .map(Line::raw),
+        );
+        lines.push(checks_line(app, look, width));
+    }
+    lines.push(Line::raw(""));
+    if !matches!(app.mode, Mode::Normal) {
+        lines.extend(
+            wrap(&format!(
+                "A dialog or an edit is open; it shows again at {MIN_W}x{MIN_H}."
+            ))
+            .into_iter()
+            .map(Line::raw),
+        );
+    }
+    lines.extend(
+        wrap("Make the window larger to see the supply (Esc then q quits).")
+            .into_iter()
+            .map(Line::raw),
+    );
+    Paragraph::new(lines).render(area, buf);
 }

@@ -6,7 +6,9 @@
 
 use super::app::{Solved, solve_for_screen_while};
 use crate::diagnose::trend::{Trend, trend};
+use crate::diagnose::{Expectation, diagnose};
 use crate::supply::Supply;
+use crate::visit::Readings;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::mpsc::{self, Receiver, RecvTimeoutError, Sender, TryRecvError};
@@ -17,7 +19,8 @@ use std::time::Duration;
 pub enum Job {
     /// Everything the results panel, the sketch and the caution line show.
     Solve(Supply),
-    /// The capacitance the visits imply, and its drift.
+    /// The capacitance the visits imply, and its drift; each visit's readings against their
+    /// windows.
     Trend(Supply),
 }
 
@@ -35,7 +38,7 @@ impl Job {
 #[derive(Debug)]
 pub enum Done {
     Solved(Supply, Box<Result<Solved, String>>),
-    Trend(Supply, Trend),
+    Trend(Supply, Trend, Vec<Judgement>),
     /// A request made moot by a newer one of its kind before it finished.
     Dropped,
 }
@@ -74,7 +77,10 @@ impl Worker {
                             },
                             Job::Trend(s) => {
                                 let t = trend(&s);
-                                Done::Trend(s, t)
+                                match judge_visits(&s, &|| !moot()) {
+                                    Some(j) => Done::Trend(s, t, j),
+                                    None => Done::Dropped,
+                                }
                             }
                         }
                     };
@@ -146,4 +152,68 @@ impl Worker {
             }
         }
     }
+}
+
+/// How many visits, newest first, are judged against their windows: each is a diagnosis
+/// (about 40 ms in a release build), and a screen shows a handful at a time; a long history's
+/// older visits show their readings and any verdict they kept.
+pub const JUDGED_VISITS: usize = 12;
+
+/// One visit's readings against their windows, as the diagnosis of the file as it is now
+/// gives them.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Judgement {
+    /// Older than the newest [`JUDGED_VISITS`].
+    NotJudged,
+    /// The diagnosis refused the readings (none of the rail, or one the unit cannot show).
+    Refused(String),
+    Judged {
+        /// Each reading with its window: "within", "above" or "below".
+        expectations: Vec<Expectation>,
+        /// The verdict and the top-ranked fault with its score, for a visit that kept none.
+        verdict: &'static str,
+        fault: &'static str,
+        score: f64,
+    },
+}
+
+/// Judges the newest [`JUDGED_VISITS`] visits of `supply` (in the order of its visits),
+/// asking `keep_going` between visits; None when it says no. Visits with the same readings
+/// share one diagnosis.
+pub fn judge_visits(supply: &Supply, keep_going: &dyn Fn() -> bool) -> Option<Vec<Judgement>> {
+    let n = supply.visits.len();
+    let mut order: Vec<usize> = (0..n).collect();
+    // Newest first, as the visits view lists them.
+    order.sort_by_key(|&i| std::cmp::Reverse(supply.visits[i].date_text()));
+    let mut out = vec![Judgement::NotJudged; n];
+    let mut seen: Vec<(Readings, Judgement)> = Vec::new();
+    for &i in order.iter().take(JUDGED_VISITS) {
+        if !keep_going() {
+            return None;
+        }
+        let readings = supply.visits[i].readings;
+        if let Some((_, j)) = seen.iter().find(|(r, _)| *r == readings) {
+            out[i] = j.clone();
+            continue;
+        }
+        let j = match diagnose(supply, &readings) {
+            Ok(d) => {
+                let (fault, score) = d
+                    .hypotheses
+                    .first()
+                    .map(|h| (h.fault.key(), h.score))
+                    .unwrap_or(("", 0.0));
+                Judgement::Judged {
+                    verdict: d.verdict,
+                    fault,
+                    score,
+                    expectations: d.expectations,
+                }
+            }
+            Err(e) => Judgement::Refused(e.to_string()),
+        };
+        seen.push((readings, j.clone()));
+        out[i] = j;
+    }
+    Some(out)
 }
