@@ -4,6 +4,8 @@
 
 pub mod calibration;
 pub mod circuit;
+pub mod cli;
+pub mod clock;
 pub mod diagnose;
 pub mod escape;
 pub mod supply;

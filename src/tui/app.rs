@@ -573,7 +573,7 @@ impl App {
             }
             Msg::AddVisit | Msg::Char('a') if self.open.is_some() => {
                 let mut values = vec![String::new(); VISIT_FIELDS.len()];
-                values[0] = today();
+                values[0] = crate::clock::today();
                 self.mode = Mode::Visit(VisitForm {
                     field: 1,
                     values,
@@ -1037,13 +1037,4 @@ pub fn template(topology: Topology) -> Supply {
         topology.key()
     );
     Supply::from_toml_str(&text).expect("the template is valid")
-}
-
-/// Today's date as YYYY-MM-DD (UTC), from the system clock.
-pub fn today() -> String {
-    let secs = std::time::SystemTime::now()
-        .duration_since(std::time::UNIX_EPOCH)
-        .map(|d| d.as_secs())
-        .unwrap_or(0);
-    crate::visit::civil_from_days((secs / 86_400) as i64)
 }
