@@ -4,6 +4,7 @@
 
 pub mod calibration;
 pub mod circuit;
+pub mod cli;
 pub mod clock;
 pub mod diagnose;
 pub mod escape;

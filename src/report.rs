@@ -6,8 +6,8 @@ use crate::analysis::checks::{self, Check, Status};
 use crate::analysis::worst_case::{self, WorstCase};
 use crate::circuit::{self, CircuitError, Figures, HandEstimate, Operating};
 use crate::escape::printable;
-use crate::supply::{Supply, Topology};
-use crate::units::{format_number, format_si};
+use crate::supply::{FilterKind, Supply, Topology};
+use crate::units::{format_number, format_si, format_uf};
 use serde_json::{Value, json};
 
 /// A supply solved for its report.
@@ -114,6 +114,33 @@ pub fn figure_rows(f: &Figures) -> Vec<(&'static str, &'static str, Option<f64>,
     ]
 }
 
+/// The filter as a technician orders its parts: capacitances in microfarads with the voltage
+/// rating where the file gives one ("2200 uF 50 V capacitor filter", "CRC filter 470 uF 35 V,
+/// 47 ohm, 220 uF").
+fn filter_words(s: &Supply) -> String {
+    let f = &s.filter;
+    let part = |uf: Option<f64>| {
+        let mut text = format_uf(uf.unwrap_or(0.0));
+        if let Some(v) = f.rated_v {
+            text.push_str(&format!(" {} V", format_number(v)));
+        }
+        text
+    };
+    match f.kind {
+        FilterKind::None => "no filter".into(),
+        FilterKind::Capacitor if s.rectifier.topology == Topology::Doubler => {
+            format!("two {} capacitors", part(f.uf))
+        }
+        FilterKind::Capacitor => format!("{} capacitor filter", part(f.uf)),
+        FilterKind::Crc => format!(
+            "CRC filter {}, {} ohm, {}",
+            part(f.uf),
+            format_number(f.series_ohms.unwrap_or(0.0)),
+            format_uf(f.second_uf.unwrap_or(0.0))
+        ),
+    }
+}
+
 fn show(value: Option<f64>, unit: &str) -> String {
     match (value, unit) {
         (None, _) => "unlimited".into(),
@@ -138,15 +165,11 @@ impl Report {
         out.push_str(&format!("{}\n", printable(&s.name)));
         out.push_str(&format!("  file: {}\n", printable(&self.file)));
         out.push_str(&format!(
-            "  {} V {} Hz mains, {} rectifier, {} filter\n",
+            "  {} V {} Hz mains, {} rectifier, {}\n",
             format_number(s.mains.vrms),
             format_number(s.mains.hz),
             s.rectifier.topology.key(),
-            match s.filter.kind {
-                crate::supply::FilterKind::None => "no",
-                crate::supply::FilterKind::Capacitor => "capacitor",
-                crate::supply::FilterKind::Crc => "CRC",
-            }
+            filter_words(s)
         ));
         if s.rectifier.topology == Topology::SplitRail {
             out.push_str("  split rail: figures are the + rail; the - rail mirrors it\n");

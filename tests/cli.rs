@@ -218,7 +218,17 @@ fn one_bad_file_among_good_ones_still_reports_the_rest() {
 fn size_answers_for_every_example() {
     for file in examples() {
         let f = file.display().to_string();
-        for target in [["--ripple-pp", "1.0"], ["--headroom", "2.0"]] {
+        let supply =
+            railcheck::supply::Supply::from_toml_str(&std::fs::read_to_string(&file).unwrap())
+                .unwrap();
+        // A headroom is over a regulator's needs: for a supply without one the rail's own
+        // minimum is the target.
+        let valley = if supply.regulator.is_some() {
+            ["--headroom", "2.0"]
+        } else {
+            ["--min-valley", "2.0"]
+        };
+        for target in [["--ripple-pp", "1.0"], valley] {
             let out = railcheck(&["size", &f, target[0], target[1], "--json"]);
             let err = String::from_utf8_lossy(&out.stderr);
             if out.status.code() == Some(2) {
@@ -239,6 +249,9 @@ fn size_answers_for_every_example() {
                 if target[0] == "--ripple-pp" {
                     assert!(c["worst_ripple_pp_v"].as_f64().unwrap() <= 1.0);
                 }
+                if target[0] == "--min-valley" {
+                    assert!(c["worst_valley_v"].as_f64().unwrap() >= 2.0);
+                }
                 if let Some(r) = c["rated_v"].as_f64() {
                     assert!(r * 0.8 >= c["worst_peak_v"].as_f64().unwrap());
                 }
@@ -247,6 +260,39 @@ fn size_answers_for_every_example() {
             assert!(caps[1]["uf"].as_f64().unwrap() >= caps[0]["uf"].as_f64().unwrap());
         }
     }
+}
+
+/// Issue 11: `--headroom` on a supply without a regulator was answered as if there were one
+/// ("2.00 V above what the regulator needs", 82 uF with 28 V of ripple for a 2200 uF supply).
+/// Now it is refused, naming the option and the one that fits; with a regulator it still
+/// answers, against the regulator's output plus dropout.
+#[test]
+fn headroom_without_a_regulator_is_refused_naming_the_option() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples");
+    let plain = dir.join("pump-house-relay-rail.toml").display().to_string();
+    let out = railcheck(&["size", &plain, "--headroom", "2.0"]);
+    assert_eq!(out.status.code(), Some(2));
+    assert!(out.stdout.is_empty(), "no answer on stdout");
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("--headroom") && err.contains("no regulator") && err.contains("--min-valley"),
+        "{err}"
+    );
+    let regulated = dir.join("valve-actuator-split.toml").display().to_string();
+    let out = railcheck(&["size", &regulated, "--headroom", "0.5"]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(text.contains("output plus"), "{text}");
+    // The sized capacitors in microfarads with their voltage rating, never in millifarads.
+    assert!(text.contains(" uF ") && !text.contains("mF"), "{text}");
+    // The JSON target of a rail minimum.
+    let out = railcheck(&["size", &plain, "--min-valley", "20", "--json"]);
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["target"]["min_valley"], 20.0);
 }
 
 #[test]
@@ -502,4 +548,165 @@ fn calibrate_stores_the_fit_marks_the_baseline_and_narrows_the_windows() {
         "{text}"
     );
     let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// Issue 11: capacitances print in microfarads ("2200 uF", as a technician orders them), the
+/// report's filter with its voltage rating, and no "mF" anywhere in the text report.
+#[test]
+fn capacitances_print_in_microfarads() {
+    let file = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("examples/pump-house-relay-rail.toml")
+        .display()
+        .to_string();
+    let out = railcheck(&["report", &file]);
+    let text = String::from_utf8(out.stdout).unwrap();
+    assert!(
+        text.contains("2200 uF 50 V capacitor filter"),
+        "{}",
+        &text[..400.min(text.len())]
+    );
+    assert!(!text.contains("mF"), "{text}");
+    let out = railcheck(&["size", &file, "--ripple-pp", "1.0"]);
+    let text = String::from_utf8(out.stdout).unwrap();
+    // 3900 uF from E12 and 4700 uF from E6, each with the 50 V rating its peak needs.
+    assert!(
+        text.contains("3900 uF 50 V") && text.contains("4700 uF 50 V"),
+        "{text}"
+    );
+    assert!(!text.contains("mF"), "{text}");
+}
+
+/// Issue 11: `diagnose` and `log` in words and units, not internal keys; the JSON unchanged.
+/// The supply is the trade's bench supply (center tap, 80 V 60 Hz, 4.85:1, 47 uF, 680 ohm:
+/// 9.62 V DC and about 2.8 V p-p, common practice), its capacitance taken as low.
+#[test]
+fn diagnose_and_log_speak_in_words_and_units() {
+    let bench = "format = 1\nname = \"bench\"\n[mains]\nvrms = 80.0\nhz = 60.0\n\
+                 [transformer]\nratio = 4.85\n[rectifier]\ntopology = \"center-tap\"\n\
+                 diode = \"silicon\"\n[filter]\nkind = \"capacitor\"\nuf = 47.0\n[load]\n\
+                 ohms = 680.0\n";
+    let path = write_temp("bench_words.toml", bench);
+    let f = path.display().to_string();
+    let args = [
+        "diagnose",
+        &f,
+        "--mains",
+        "80",
+        "--dc",
+        "9.62",
+        "--ripple-pp",
+        "2.8",
+    ];
+    let out = railcheck(&args);
+    assert!(out.status.success());
+    let text = String::from_utf8(out.stdout).unwrap();
+    for want in [
+        "mains 80 V, expected",
+        "DC 9.62 V, expected",
+        "ripple peak to peak 2.8 V, expected",
+        "V (nominal",
+        "filter capacitance low",
+        "uF of its 47 uF",
+        "next: ",
+        "Caution: discharge the filter",
+    ] {
+        assert!(text.contains(want), "{want:?} not in:\n{text}");
+    }
+    for key in [
+        "dc_v",
+        "ripple_pp_v",
+        "mains_vrms",
+        "capacitance-low",
+        "[uf",
+    ] {
+        assert!(!text.contains(key), "{key:?} in:\n{text}");
+    }
+    // The JSON keeps its keys.
+    let mut json_args = args.to_vec();
+    json_args.push("--json");
+    let v: serde_json::Value = serde_json::from_slice(&railcheck(&json_args).stdout).unwrap();
+    assert_eq!(v["readings"][1]["reading"], "dc_v");
+    assert_eq!(v["hypotheses"][0]["fault"], "capacitance-low");
+    assert!(v["hypotheses"][0]["estimate"]["uf"].as_f64().is_some());
+
+    // The log of a demo supply: readings in words, capacitances in uF.
+    let dir = std::env::temp_dir().join(format!("railcheck-cli-words-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    let d = dir.display().to_string();
+    let out = railcheck(&["--library", &d, "log", "Pump-house 2, relay rail"]);
+    let text = String::from_utf8(out.stdout).unwrap();
+    for want in [
+        "mains 226 V",
+        "DC 26.9 V",
+        "ripple peak to peak 2.2 V",
+        " uF",
+    ] {
+        assert!(text.contains(want), "{want:?} not in:\n{text}");
+    }
+    for key in ["dc_v", "ripple_pp_v", "mains_vrms", "load_a"] {
+        assert!(!text.contains(key), "{key:?} in:\n{text}");
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+const SUBCOMMANDS: [&str; 9] = [
+    "report",
+    "size",
+    "list",
+    "import",
+    "export",
+    "diagnose",
+    "calibrate",
+    "log",
+    "completions",
+];
+
+/// Issue 11: a completion script for each shell clap_complete knows, naming every command.
+#[test]
+fn completions_for_each_shell_name_the_commands() {
+    for shell in ["bash", "zsh", "fish", "powershell", "elvish"] {
+        let out = railcheck(&["completions", shell]);
+        assert!(
+            out.status.success(),
+            "{shell}: {}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let script = String::from_utf8(out.stdout).unwrap();
+        assert!(script.len() > 1000, "{shell}: {} bytes", script.len());
+        for sub in SUBCOMMANDS.iter().chain(&["manpage"]) {
+            assert!(script.contains(sub), "{shell}: no {sub}");
+        }
+        assert!(script.contains("min-valley"), "{shell}: options too");
+    }
+    let out = railcheck(&["completions", "tcsh"]);
+    assert_eq!(out.status.code(), Some(2), "an unknown shell is refused");
+    assert!(String::from_utf8_lossy(&out.stderr).contains("bash"));
+}
+
+/// Issue 11: the manual page, roff with its title line and every command in it.
+#[test]
+fn the_manual_page_is_roff_with_every_command() {
+    let out = railcheck(&["manpage"]);
+    assert!(out.status.success());
+    let page = String::from_utf8(out.stdout).unwrap();
+    assert!(
+        page.lines().any(|l| l.starts_with(".TH railcheck 1")),
+        "{page}"
+    );
+    for sub in SUBCOMMANDS.iter().chain(&["manpage"]) {
+        assert!(
+            page.contains(&format!(".SS \"railcheck {sub}\"")),
+            "no section for {sub}"
+        );
+    }
+    for section in [
+        ".SH NAME",
+        ".SH SYNOPSIS",
+        ".SH \"EXIT STATUS\"",
+        ".SH CAUTION",
+    ] {
+        assert!(page.contains(section), "{section}");
+    }
+    // One copy of roff's string definitions, not one per command.
+    assert_eq!(page.matches(".ds Aq \\(aq").count(), 1);
 }

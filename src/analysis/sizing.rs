@@ -24,9 +24,12 @@ pub const DERATING: f64 = 0.8;
 pub enum Target {
     /// Worst-case ripple peak to peak at most this, volts.
     RipplePp(f64),
-    /// Worst-case valley at least this far above the regulator's output plus dropout, volts;
-    /// with no regulator, the valley itself at least this, volts.
+    /// Worst-case valley at least this far above the regulator's output plus dropout, volts.
+    /// Only for a supply with a regulator: without one there is nothing to be above.
     Headroom(f64),
+    /// Worst-case valley (the rail's lowest point) at least this, volts: the minimum the load
+    /// behind the rail needs, with or without a regulator.
+    MinValley(f64),
 }
 
 /// One recommended capacitor.
@@ -51,6 +54,13 @@ pub enum SizingError {
     Circuit(#[from] CircuitError),
     #[error("target must be above 0 V (got {0})")]
     BadTarget(f64),
+    /// A headroom target on a supply without a regulator, which has no output plus dropout
+    /// for the valley to stay above.
+    #[error(
+        "a headroom is the margin of the valley over a regulator's output plus dropout, and \
+         this supply has no regulator"
+    )]
+    NoRegulator,
     #[error(
         "no capacitance up to 1 F meets the target: at 1 F the worst ripple is {ripple:.3} V \
          and the worst valley {valley:.2} V; the winding, not the capacitor, limits this rail"
@@ -92,15 +102,16 @@ pub fn size(supply: &Supply, target: Target) -> Result<Vec<Sized>, SizingError> 
     }
     let supply = &supply;
     let goal = match target {
-        Target::RipplePp(v) | Target::Headroom(v) => v,
+        Target::RipplePp(v) | Target::Headroom(v) | Target::MinValley(v) => v,
     };
     if !(goal.is_finite() && goal > 0.0) {
         return Err(SizingError::BadTarget(goal));
     }
     let need_valley = match (&supply.regulator, target) {
         (Some(r), Target::Headroom(h)) => r.output_v + r.dropout_v + h,
-        (None, Target::Headroom(h)) => h,
-        _ => f64::NEG_INFINITY,
+        (None, Target::Headroom(_)) => return Err(SizingError::NoRegulator),
+        (_, Target::MinValley(v)) => v,
+        (_, Target::RipplePp(_)) => f64::NEG_INFINITY,
     };
     let evaluate = |uf: f64| -> Result<(bool, Sized), SizingError> {
         let mut s = supply.clone();
@@ -131,7 +142,7 @@ pub fn size(supply: &Supply, target: Target) -> Result<Vec<Sized>, SizingError> 
         let ripple_a = wc.extent("cap_ripple_rms_a").map_or(0.0, |e| e.max);
         let meets = match target {
             Target::RipplePp(v) => ripple <= v,
-            Target::Headroom(_) => valley >= need_valley,
+            Target::Headroom(_) | Target::MinValley(_) => valley >= need_valley,
         };
         Ok((
             meets,
@@ -210,6 +221,25 @@ mod tests {
         assert!(v.contains(&4700.0) && v.contains(&2200.0) && v.contains(&82.0));
         assert_eq!(*v.last().unwrap(), 1e6);
         assert!(v.windows(2).all(|w| w[0] < w[1]));
+    }
+
+    #[test]
+    fn a_headroom_needs_a_regulator() {
+        let s = Supply::from_toml_str(
+            "format = 1\nname = \"plain\"\n[mains]\nvrms = 230.0\nhz = 50.0\n[transformer]\n\
+             ratio = 9.58\n[rectifier]\ntopology = \"bridge\"\n[filter]\nkind = \"capacitor\"\n\
+             uf = 2200.0\n[load]\namps = 0.35\n",
+        )
+        .unwrap();
+        // Issue 11: this was sized as if a regulator needed 2 V less than the valley.
+        assert_eq!(
+            size(&s, Target::Headroom(2.0)),
+            Err(SizingError::NoRegulator)
+        );
+        assert_eq!(
+            size(&s, Target::MinValley(-1.0)),
+            Err(SizingError::BadTarget(-1.0))
+        );
     }
 
     #[test]

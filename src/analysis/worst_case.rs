@@ -7,7 +7,7 @@ use crate::supply::{
     ASSUMED_CREST_LOW, ASSUMED_OVERSIZE, DiodeParams, Supply, WARM_WINDING_FACTOR, WindingModel,
     WindingSource,
 };
-use crate::units::format_number;
+use crate::units::{format_number, format_uf};
 use serde::Serialize;
 
 /// One axis of the tolerance box: a factor (or a load) from its low end to its high end.
@@ -140,8 +140,10 @@ impl ToleranceBox {
                     CALIBRATED_CAP_HIGH_PCT,
                 );
                 a.assumed = Some(format!(
-                    "capacitance calibrated on {on}: {} uF effective ({:.2} of the label),                      -{CALIBRATED_CAP_LOW_PCT:.0} % / +{CALIBRATED_CAP_HIGH_PCT:.0} % allowed                      for the fit and the wear since",
-                    format_number(round3(f.uf.unwrap_or(0.0) * cal.cap_factor)),
+                    "capacitance calibrated on {on}: {} effective ({:.2} of the label), \
+                     -{CALIBRATED_CAP_LOW_PCT:.0} % / +{CALIBRATED_CAP_HIGH_PCT:.0} % allowed \
+                     for the fit and the wear since",
+                    format_uf(f.uf.unwrap_or(0.0) * cal.cap_factor),
                     cal.cap_factor
                 ));
                 a
@@ -200,7 +202,8 @@ impl ToleranceBox {
                     high: t,
                     nominal: 1.0,
                     assumed: Some(format!(
-                        "winding resistance calibrated on {on}: {:.2} times the file's,                          -{:.0} % / +{:.0} % allowed for its temperature on the day",
+                        "winding resistance calibrated on {on}: {:.2} times the file's, \
+                         -{:.0} % / +{:.0} % allowed for its temperature on the day",
                         cal.winding_factor,
                         (1.0 - 1.0 / t) * 100.0,
                         (t - 1.0) * 100.0
@@ -217,7 +220,8 @@ impl ToleranceBox {
                 high: (c + CALIBRATED_CREST_SPREAD).min(std::f64::consts::SQRT_2),
                 nominal: c,
                 assumed: Some(format!(
-                    "mains crest calibrated on {on}: {c:.3}, +-{CALIBRATED_CREST_SPREAD} allowed                      (the building's other loads change through the day)"
+                    "mains crest calibrated on {on}: {c:.3}, +-{CALIBRATED_CREST_SPREAD} allowed \
+                     (the building's other loads change through the day)"
                 )),
             });
         } else if supply.mains.crest.is_none() {

@@ -1,0 +1,220 @@
+//! `railcheck size`: the smallest E12 and E6 filter capacitor for a target, in microfarads with
+//! the voltage rating it needs.
+
+use super::written;
+use crate::analysis::sizing::{self, Sized, Target};
+use crate::escape::printable;
+use crate::supply::{FilterKind, Supply};
+use crate::units::{format_si, format_uf};
+use anyhow::{Result, bail};
+use std::io::Write;
+use std::process::ExitCode;
+
+/// The target the options ask for; `--headroom` on a supply without a regulator is refused
+/// with the option that says what it likely means.
+pub fn target(
+    supply: &Supply,
+    ripple_pp: Option<f64>,
+    headroom: Option<f64>,
+    min_valley: Option<f64>,
+) -> Result<Target> {
+    Ok(match (ripple_pp, headroom, min_valley) {
+        (Some(v), _, _) => Target::RipplePp(v),
+        (None, Some(_), _) if supply.regulator.is_none() => bail!(
+            "--headroom is the margin of the worst-case valley over a regulator's output plus \
+             dropout, and {} has no regulator; give --min-valley V for the lowest the rail may \
+             fall to, or --ripple-pp V",
+            printable(&supply.name)
+        ),
+        (None, Some(v), _) => Target::Headroom(v),
+        (None, None, Some(v)) => Target::MinValley(v),
+        (None, None, None) => bail!("give --ripple-pp V, --headroom V or --min-valley V"),
+    })
+}
+
+/// The sizing as text: the target in words, then each series' capacitor in microfarads with
+/// the voltage rating and ripple current it needs.
+pub fn render_text(
+    out: &mut impl Write,
+    supply: &Supply,
+    target: Target,
+    sized: &[Sized],
+) -> std::io::Result<()> {
+    writeln!(out, "{}", printable(&supply.name))?;
+    if supply.filter.kind == FilterKind::None {
+        writeln!(
+            out,
+            "  no filter capacitor now: sizing the capacitor to add across the rail"
+        )?;
+    }
+    match (target, &supply.regulator) {
+        (Target::RipplePp(v), _) => writeln!(
+            out,
+            "  target: worst-case ripple at most {} peak to peak",
+            format_si(v, "V")
+        )?,
+        (Target::Headroom(v), Some(r)) => writeln!(
+            out,
+            "  target: worst-case valley at least {} above the regulator's {} output plus {} \
+             dropout, so at least {}",
+            format_si(v, "V"),
+            format_si(r.output_v, "V"),
+            format_si(r.dropout_v, "V"),
+            format_si(r.output_v + r.dropout_v + v, "V")
+        )?,
+        // Refused before sizing; said plainly should it ever get here.
+        (Target::Headroom(v), None) => writeln!(
+            out,
+            "  target: a headroom of {} with no regulator to be above",
+            format_si(v, "V")
+        )?,
+        (Target::MinValley(v), _) => writeln!(
+            out,
+            "  target: worst-case valley (the rail's lowest point) at least {}",
+            format_si(v, "V")
+        )?,
+    }
+    for s in sized {
+        let part = match s.rated_v {
+            Some(r) => format!("{} {r} V", format_uf(s.uf)),
+            None => format!(
+                "{}, above 450 V: use capacitors in series with balancing resistors",
+                format_uf(s.uf)
+            ),
+        };
+        writeln!(
+            out,
+            "  {:<4} {:<14} ripple current {} RMS  (worst ripple {}, valley {}, peak {})",
+            s.series,
+            part,
+            format_si(s.ripple_a, "A"),
+            format_si(s.worst_ripple_pp_v, "V"),
+            format_si(s.worst_valley_v, "V"),
+            format_si(s.worst_peak_v, "V"),
+        )?;
+    }
+    writeln!(
+        out,
+        "  voltage rating keeps the worst peak within {:.0} % of it (usual derating)",
+        sizing::DERATING * 100.0
+    )
+}
+
+/// The sizing as one JSON line (keys unchanged: name, file, target, derating, capacitors).
+pub fn render_json(
+    out: &mut impl Write,
+    supply: &Supply,
+    file: &str,
+    target: Target,
+    sized: &[Sized],
+) -> std::io::Result<()> {
+    writeln!(
+        out,
+        "{}",
+        serde_json::json!({
+            "name": supply.name,
+            "file": file,
+            "target": target,
+            "derating": sizing::DERATING,
+            "capacitors": sized,
+        })
+    )
+}
+
+/// Sizes `supply` (read from `file`) for `target` and writes the answer.
+pub fn run(
+    out: &mut impl Write,
+    supply: &Supply,
+    file: &str,
+    target: Target,
+    json: bool,
+) -> Result<ExitCode> {
+    let sized = sizing::size(supply, target).map_err(|e| anyhow::anyhow!("{file}: {e}"))?;
+    written(if json {
+        render_json(out, supply, file, target, &sized)
+    } else {
+        render_text(out, supply, target, &sized)
+    })?;
+    Ok(ExitCode::SUCCESS)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn sized(uf: f64, rated_v: Option<f64>) -> Sized {
+        Sized {
+            series: "E12",
+            uf,
+            worst_ripple_pp_v: 0.9,
+            worst_valley_v: 25.1,
+            worst_peak_v: 36.8,
+            rated_v,
+            ripple_a: 1.2,
+        }
+    }
+
+    fn supply(regulator: bool) -> Supply {
+        let mut text = String::from(
+            "format = 1\nname = \"bench\"\n[mains]\nvrms = 230.0\nhz = 50.0\n[transformer]\n\
+             ratio = 9.58\nsecondary_ohms = 1.8\n[rectifier]\ntopology = \"bridge\"\n\
+             [filter]\nkind = \"capacitor\"\nuf = 2200.0\n[load]\namps = 0.35\n",
+        );
+        if regulator {
+            text.push_str("[regulator]\noutput_v = 12.0\ndropout_v = 2.0\n");
+        }
+        Supply::from_toml_str(&text).expect("a valid supply")
+    }
+
+    #[test]
+    fn capacitors_print_in_microfarads_with_their_rating() {
+        let mut out = Vec::new();
+        let s = supply(false);
+        render_text(
+            &mut out,
+            &s,
+            Target::RipplePp(1.0),
+            &[sized(3900.0, Some(50.0)), sized(4.7, None)],
+        )
+        .unwrap();
+        let text = String::from_utf8(out).unwrap();
+        assert!(text.contains("3900 uF 50 V"), "{text}");
+        assert!(text.contains("4.7 uF, above 450 V"), "{text}");
+        assert!(!text.contains("mF"), "{text}");
+    }
+
+    #[test]
+    fn headroom_needs_a_regulator_and_says_which_option_fits() {
+        let err = target(&supply(false), None, Some(2.0), None)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            err.contains("--headroom")
+                && err.contains("no regulator")
+                && err.contains("--min-valley"),
+            "{err}"
+        );
+        assert_eq!(
+            target(&supply(true), None, Some(2.0), None).unwrap(),
+            Target::Headroom(2.0)
+        );
+        assert_eq!(
+            target(&supply(false), None, None, Some(20.0)).unwrap(),
+            Target::MinValley(20.0)
+        );
+        // With a regulator the target names its output, dropout and the valley they need.
+        let mut out = Vec::new();
+        render_text(
+            &mut out,
+            &supply(true),
+            Target::Headroom(2.0),
+            &[sized(2200.0, Some(50.0))],
+        )
+        .unwrap();
+        let text = String::from_utf8(out).unwrap();
+        assert!(
+            text.contains("12.0 V output plus 2.00 V dropout, so at least 16.0 V"),
+            "{text}"
+        );
+    }
+}
