@@ -114,14 +114,8 @@ fn main() {
     app.update(Msg::Char('w'));
     app.update(Msg::Char('x'));
     app.update(Msg::NextPanel);
-    for _ in 0..13 {
-        app.update(Msg::Down);
-    }
-    app.update(Msg::Up);
+    go_to(&mut app, "filter.uf");
     app.update(Msg::Enter);
-    for _ in 0..8 {
-        app.update(Msg::Backspace);
-    }
     for c in "1000".chars() {
         app.update(Msg::Char(c));
     }
@@ -134,4 +128,26 @@ fn main() {
     app.update(Msg::Char('v'));
     app.update(Msg::Char('?'));
     shot(&app, "help-80x24", 80, 24);
+    app.update(Msg::Escape);
+    // The transformer switched to its nameplate: the question before the ratio goes.
+    go_to(&mut app, "transformer.form");
+    app.update(Msg::Right);
+    shot(&app, "nameplate-question-100x30", 100, 30);
+    app.update(Msg::Char('n'));
+    shot(&app, "too-small-60x20", 60, 20);
+}
+
+/// Moves the form's cursor to the row of the file key `path`.
+fn go_to(app: &mut App, path: &str) {
+    use railcheck::tui::fields::FIELDS;
+    app.panel = railcheck::tui::app::Panel::Form;
+    for _ in 0..FIELDS.len() {
+        app.update(Msg::Up);
+    }
+    for _ in 0..FIELDS.len() {
+        if FIELDS[app.open.as_ref().expect("open").field].path == path {
+            return;
+        }
+        app.update(Msg::Down);
+    }
 }

@@ -787,7 +787,7 @@ impl App {
                 o.field_error = None;
                 self.mode = Mode::Confirm(Confirm::Drop {
                     change: Box::new(supply),
-                    what: format!("{} to {}", f.label, text.trim()),
+                    what: format!("{}: {} {}", f.group, f.label.to_lowercase(), text.trim()),
                     drops,
                 });
                 true

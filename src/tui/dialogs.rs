@@ -22,7 +22,7 @@ pub fn render(app: &App, area: Rect, buf: &mut Buffer, look: &Look) {
             dialog(area, buf, look, f.label, lines);
         }
         Mode::Confirm(Confirm::Drop { what, drops, .. }) => {
-            let mut lines = vec![format!("Change {what}? These values go:")];
+            let mut lines = vec![format!("Change to {what}? These values go:")];
             lines.extend(drops.iter().map(|d| format!("  {d}")));
             lines.push("y: change it (u undoes)   n / Esc: leave it as it was".into());
             dialog(area, buf, look, "Values will be dropped", lines);
