@@ -250,6 +250,16 @@ fn a_new_supply_marks_its_template_values_as_guesses_until_set() {
             .unconfirmed
             .contains(&"transformer.secondary_ohms".to_string())
     );
+    // The template's ratio goes with the switch to a nameplate, and its guess mark with it.
+    go_to(&mut app, "transformer.form");
+    keys(&mut app, &[Msg::Right, Msg::Char('y')]);
+    let (saved, _) = on_disk(&app);
+    assert!(!saved.unconfirmed.contains(&"transformer.ratio".to_string()));
+    assert!(
+        saved
+            .unconfirmed
+            .contains(&"transformer.secondary_vrms".to_string())
+    );
 }
 
 /// Issue 11's count: a 120 V 60 Hz bench supply with a 24 V 36 VA nameplate transformer, a

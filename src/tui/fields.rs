@@ -399,6 +399,11 @@ impl Field {
             }
         }
         out.unconfirmed.retain(|p| p != self.path);
+        // A guess whose key the change dropped (the ratio, once the nameplate is chosen) is
+        // no longer there to confirm.
+        let kept = out.clone();
+        out.unconfirmed
+            .retain(|p| row(p).is_none_or(|f| f.applies(&kept) && f.show(&kept) != "-"));
         for g in guesses {
             if !out.unconfirmed.iter().any(|p| p == g) {
                 out.unconfirmed.push(g.to_string());
