@@ -191,6 +191,13 @@ impl Report {
         for a in &self.worst.assumed {
             out.push_str(&format!("  assumed: {}\n", printable(&a.why)));
         }
+        // Values a template or the screen filled in that nobody has confirmed yet.
+        if !self.supply.unconfirmed.is_empty() {
+            out.push_str(&format!(
+                "  not yet confirmed (a template's or the screen's guesses): {}\n",
+                printable(&self.supply.unconfirmed.join(", "))
+            ));
+        }
         out.push('\n');
         // Corners are long in words: the table names them by letter, the legend spells them.
         let mut legend: Vec<String> = Vec::new();
@@ -316,6 +323,7 @@ impl Report {
             "hand_differences": self.differences,
             "tolerances": self.worst.tolerances,
             "assumed": self.worst.assumed,
+            "unconfirmed": self.supply.unconfirmed,
             "worst_case": worst,
             "checks": self.checks,
             "not_rated": self.not_rated,

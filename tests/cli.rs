@@ -710,3 +710,23 @@ fn the_manual_page_is_roff_with_every_command() {
     // One copy of roff's string definitions, not one per command.
     assert_eq!(page.matches(".ds Aq \\(aq").count(), 1);
 }
+
+/// A value filled in by a template and never confirmed is said so in the report, text and
+/// JSON alike.
+#[test]
+fn the_report_names_values_not_yet_confirmed() {
+    let text = GOOD.replace(
+        "name = \"cli test\"",
+        "name = \"cli test\"\nunconfirmed = [\"filter.esr_ohms\"]",
+    );
+    let f = write_temp("unconfirmed.toml", &text).display().to_string();
+    let out = railcheck(&["report", &f]);
+    let shown = String::from_utf8_lossy(&out.stdout);
+    assert!(
+        shown.contains("not yet confirmed") && shown.contains("filter.esr_ohms"),
+        "{shown}"
+    );
+    let out = railcheck(&["report", "--json", &f]);
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["unconfirmed"][0], "filter.esr_ohms");
+}
