@@ -224,3 +224,15 @@ fn readme_states_every_range_and_its_reason() {
         missing.join("\n")
     );
 }
+
+/// The README's example file is a valid supply file, visits and all.
+#[test]
+fn the_readme_example_file_loads() {
+    let readme =
+        std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/README.md")).unwrap();
+    let start = readme.find("```toml\nformat = 1").expect("the example") + "```toml\n".len();
+    let end = start + readme[start..].find("```").unwrap();
+    let s = Supply::from_toml_str(&readme[start..end]).unwrap_or_else(|e| panic!("{e}"));
+    assert_eq!(s.visits.len(), 1);
+    assert_eq!(s.visits[0].replaced, vec!["C4 2200uF 50V".to_string()]);
+}
