@@ -1,0 +1,258 @@
+//! A supply and its conditions (a tolerance corner, a fault) turned into a network: the
+//! charging paths of its topology, its reservoirs and filter, its load.
+
+use super::diode::DiodeLaw;
+use super::network::{Arrangement, LoadLaw, Network, Path, Polarity, Reservoir, SecondStage};
+use super::waveform::MainsWave;
+use crate::supply::{FilterKind, Supply, SupplyError, Topology};
+
+/// Departures from the supply as described: tolerance corners and fault states. The default is
+/// the supply as it stands.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Conditions {
+    /// Mains RMS volts instead of the nominal (a reading, or a fault hypothesis).
+    pub mains_vrms: Option<f64>,
+    /// Multiplies the mains RMS (1.1 for +10 %).
+    pub mains_factor: f64,
+    /// Multiplies every filter capacitance (their tolerance, or all of them ageing alike).
+    pub cap_factor: f64,
+    /// Multiplies the reservoir capacitor's capacitance alone, on top of `cap_factor`: the
+    /// capacitor a fault concerns, which is the one the rectifier charges (a CRC's first, the
+    /// first of a doubler's pair; the others keep their value, as a real unit's do when one
+    /// part fails).
+    pub reservoir_factor: f64,
+    /// The reservoir capacitor's ESR instead of the stated one, ohms (the others keep theirs).
+    pub esr_ohms: Option<f64>,
+    /// Multiplies the turns ratio (above 1: a lower secondary).
+    pub ratio_factor: f64,
+    /// Multiplies the diode's forward drop.
+    pub drop_factor: f64,
+    /// A load instead of the stated one.
+    pub load: Option<LoadOverride>,
+    /// One leg of a full-wave rectifier open (a diode or half a winding).
+    pub leg_open: bool,
+    /// The reservoir capacitor open or missing: a capacitor filter's only one, a CRC's first
+    /// (its resistor and second capacitor then filter alone), a doubler's whole stack (the
+    /// rail then follows one diode).
+    pub capacitor_open: bool,
+    /// Multiplies both windings' resistances (a warm winding, or an assumed one's range).
+    pub winding_factor: f64,
+    /// The mains crest factor instead of the file's (peak over RMS).
+    pub crest: Option<f64>,
+}
+
+impl Default for Conditions {
+    fn default() -> Self {
+        Conditions {
+            mains_vrms: None,
+            mains_factor: 1.0,
+            cap_factor: 1.0,
+            reservoir_factor: 1.0,
+            esr_ohms: None,
+            ratio_factor: 1.0,
+            drop_factor: 1.0,
+            load: None,
+            leg_open: false,
+            capacitor_open: false,
+            winding_factor: 1.0,
+            crest: None,
+        }
+    }
+}
+
+/// A load in place of the supply's own (amps or ohms).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum LoadOverride {
+    Amps(f64),
+    Ohms(f64),
+}
+
+/// A rectifier's input knee for a constant-current load with no regulator: an electronic
+/// load keeps its current down to about a volt.
+const CURRENT_LOAD_KNEE_V: f64 = 1.0;
+
+/// Builds the network for `supply` under `cond` (the supply must be valid).
+pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyError> {
+    let winding = supply.winding()?;
+    let diode = DiodeLaw::from_params(supply.rectifier_diode()?).with_drop_scaled(cond.drop_factor);
+    let mains = cond.mains_vrms.unwrap_or(supply.mains.vrms) * cond.mains_factor;
+    let ratio = winding.ratio * cond.ratio_factor;
+    let emf_rms_v = mains / ratio;
+    // A calibrated unit is solved as the baseline visit found it; the conditions' factors
+    // act on top of that.
+    let cal = supply.calibration_in_force();
+    let winding_factor = cond.winding_factor * cal.winding_factor;
+    let winding = crate::supply::WindingModel {
+        secondary_ohms: winding.secondary_ohms * winding_factor,
+        primary_ohms: winding.primary_ohms * winding_factor,
+        ..winding
+    };
+    let cap_factor = cond.cap_factor * cal.cap_factor;
+    let whole = winding.secondary_ohms + winding.primary_ohms / (ratio * ratio);
+    let half = 0.5 * winding.secondary_ohms;
+    let topology = supply.rectifier.topology;
+    let path = |emf_share, polarity, ohms, diodes, reservoir| Path {
+        emf_share,
+        polarity,
+        ohms,
+        diodes,
+        reservoir,
+    };
+    let full_wave = if cond.leg_open {
+        Polarity::OneLegOpen
+    } else {
+        Polarity::Rectified
+    };
+    let (paths, arrangement) = match topology {
+        Topology::HalfWave => (
+            vec![path(1.0, Polarity::Forward, whole, 1, 0)],
+            Arrangement::Direct,
+        ),
+        // One half conducts at a time: the primary reflects through twice the ratio.
+        Topology::CenterTap => (
+            vec![path(
+                0.5,
+                full_wave,
+                half + winding.primary_ohms / (4.0 * ratio * ratio),
+                1,
+                0,
+            )],
+            Arrangement::CenterTap,
+        ),
+        Topology::Bridge => (vec![path(1.0, full_wave, whole, 2, 0)], Arrangement::Bridge),
+        Topology::Doubler => (
+            vec![
+                path(1.0, Polarity::Forward, whole, 1, 0),
+                path(
+                    1.0,
+                    if cond.leg_open {
+                        Polarity::OneLegOpen
+                    } else {
+                        Polarity::Inverted
+                    },
+                    whole,
+                    1,
+                    1,
+                ),
+            ],
+            Arrangement::Direct,
+        ),
+        // Both halves conduct together (one per rail) with matched rails, so the primary
+        // carries twice one rail's share: half of it reflects to each half winding.
+        Topology::SplitRail => (
+            vec![path(
+                0.5,
+                full_wave,
+                half + winding.primary_ohms / (2.0 * ratio * ratio),
+                1,
+                0,
+            )],
+            Arrangement::SplitRail,
+        ),
+    };
+    let f = &supply.filter;
+    let stated = Reservoir {
+        farads: f.uf.unwrap_or(0.0) * 1e-6 * cap_factor,
+        esr_ohms: f.esr_ohms,
+    };
+    // The capacitor a fault concerns is the first the rectifier charges.
+    let faulted = Reservoir {
+        farads: stated.farads * cond.reservoir_factor,
+        esr_ohms: cond.esr_ohms.unwrap_or(f.esr_ohms),
+    };
+    let crc = match (f.kind, f.series_ohms, f.second_uf) {
+        (FilterKind::Crc, Some(ohms), Some(uf)) => Some(SecondStage {
+            ohms,
+            farads: uf * 1e-6 * cap_factor,
+        }),
+        _ => None,
+    };
+    let mut paths = paths;
+    let (reservoirs, second) = match (f.kind, crc) {
+        (FilterKind::None, _) => (Vec::new(), None),
+        // A CRC whose first capacitor is open: the rectifier charges the second one through
+        // the resistor, which is then simply more resistance in every charging path (nothing
+        // else hangs on the rectifier's side of it).
+        (_, Some(stage)) if cond.capacitor_open => {
+            for p in &mut paths {
+                p.ohms += stage.ohms;
+            }
+            (
+                vec![Reservoir {
+                    farads: stage.farads,
+                    esr_ohms: 0.0,
+                }],
+                None,
+            )
+        }
+        _ if cond.capacitor_open => (Vec::new(), None),
+        (_, stage) => {
+            let reservoirs = if topology == Topology::Doubler {
+                vec![faulted, stated]
+            } else {
+                vec![faulted]
+            };
+            (reservoirs, stage)
+        }
+    };
+    let filtered = !reservoirs.is_empty();
+    let farads = reservoirs.first().map_or(0.0, |r| r.farads);
+    let load = load_law(supply, cond);
+    // Zero source resistance makes conduction a constraint; a time constant of 1e-4 of the
+    // period stands in for it, moving the figures by well under 1e-4 relative.
+    let period = 1.0 / supply.mains.hz;
+    let min_path_ohms = if filtered {
+        1e-4 * period / farads.max(1e-18)
+    } else {
+        0.0
+    };
+    let paths = if paths.len() == 2 && !filtered {
+        paths[..1].to_vec()
+    } else {
+        paths
+    };
+    Ok(Network {
+        wave: MainsWave::with_crest(
+            cond.crest
+                .or(cal.crest.filter(|_| supply.mains.crest.is_none()))
+                .unwrap_or(supply.mains.crest()),
+        ),
+        emf_rms_v,
+        line_hz: supply.mains.hz,
+        paths,
+        reservoirs,
+        second,
+        load,
+        diode,
+        arrangement,
+        min_path_ohms,
+    })
+}
+
+/// The load the rail sees: a regulator turns whatever it feeds into a constant current drawn
+/// from the rail while it has headroom.
+fn load_law(supply: &Supply, cond: &Conditions) -> LoadLaw {
+    let (amps, ohms) = match cond.load {
+        Some(LoadOverride::Amps(a)) => (Some(a), None),
+        Some(LoadOverride::Ohms(r)) => (None, Some(r)),
+        None => (supply.load.amps, supply.load.ohms),
+    };
+    match (&supply.regulator, amps, ohms) {
+        (Some(reg), a, r) => {
+            let amps = a.unwrap_or_else(|| reg.output_v / r.unwrap_or(f64::INFINITY));
+            LoadLaw::Current {
+                amps,
+                knee_v: reg.output_v + reg.dropout_v,
+            }
+        }
+        (None, Some(amps), _) => LoadLaw::Current {
+            amps,
+            knee_v: CURRENT_LOAD_KNEE_V,
+        },
+        (None, None, Some(ohms)) => LoadLaw::Resistance { ohms },
+        (None, None, None) => LoadLaw::Current {
+            amps: 0.0,
+            knee_v: CURRENT_LOAD_KNEE_V,
+        },
+    }
+}

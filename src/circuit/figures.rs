@@ -1,0 +1,190 @@
+//! The figures a technician reads off a solved supply: the rail's DC, ripple and peaks, the
+//! diodes', winding's and capacitor's currents, the conduction angle and the switch-on surge.
+
+use super::network::{LoadLaw, Network};
+use super::solver::{self, SteadyState};
+use crate::supply::Supply;
+use crate::supply::Topology;
+use serde::Serialize;
+use std::f64::consts::PI;
+
+/// The nominal figures of a solved supply: volts, amps, hertz, degrees, volt-amperes.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Figures {
+    /// Average rail voltage: what a DMM on DC volts reads.
+    pub dc_v: f64,
+    pub max_v: f64,
+    pub min_v: f64,
+    pub ripple_pp_v: f64,
+    /// What a true-RMS meter on AC volts across the rail reads.
+    pub ripple_rms_v: f64,
+    /// The ripple's strongest frequency: the line's or twice it.
+    pub ripple_hz: f64,
+    pub load_a: f64,
+    pub diode_peak_a: f64,
+    pub diode_avg_a: f64,
+    pub diode_rms_a: f64,
+    pub diode_piv_v: f64,
+    pub winding_rms_a: f64,
+    pub winding_va: f64,
+    pub cap_ripple_rms_a: f64,
+    pub conduction_deg: f64,
+    /// Switch-on at the mains peak into an empty capacitor; None when nothing but the diodes
+    /// limits it (no winding resistance or ESR given).
+    pub inrush_peak_a: Option<f64>,
+    /// Highest voltage across the first filter capacitor (one of a doubler's two).
+    pub cap_peak_v: f64,
+    /// What an AC meter across the whole secondary reads under this load (RMS volts).
+    pub secondary_rms_v: f64,
+}
+
+impl Figures {
+    /// A weighted sum of several solves' figures (same units; weights summing to 1), for
+    /// interpolating between solves of neighbouring conditions. The ripple frequency, one
+    /// harmonic or another rather than a quantity, comes from the heaviest part.
+    /// Parts of weight zero are left out (an interpolation's unused slots).
+    pub fn blend(parts: &[(f64, &Figures)]) -> Figures {
+        let used = || parts.iter().filter(|(w, _)| *w != 0.0);
+        let sum = |g: fn(&Figures) -> f64| used().map(|(w, f)| w * g(f)).sum::<f64>();
+        let heaviest = used()
+            .max_by(|a, b| a.0.total_cmp(&b.0))
+            .map_or(0.0, |(_, f)| f.ripple_hz);
+        let inrush = used()
+            .map(|(w, f)| f.inrush_peak_a.map(|a| w * a))
+            .sum::<Option<f64>>();
+        Figures {
+            dc_v: sum(|f| f.dc_v),
+            max_v: sum(|f| f.max_v),
+            min_v: sum(|f| f.min_v),
+            ripple_pp_v: sum(|f| f.ripple_pp_v),
+            ripple_rms_v: sum(|f| f.ripple_rms_v),
+            ripple_hz: heaviest,
+            load_a: sum(|f| f.load_a),
+            diode_peak_a: sum(|f| f.diode_peak_a),
+            diode_avg_a: sum(|f| f.diode_avg_a),
+            diode_rms_a: sum(|f| f.diode_rms_a),
+            diode_piv_v: sum(|f| f.diode_piv_v),
+            winding_rms_a: sum(|f| f.winding_rms_a),
+            winding_va: sum(|f| f.winding_va),
+            cap_ripple_rms_a: sum(|f| f.cap_ripple_rms_a),
+            conduction_deg: sum(|f| f.conduction_deg),
+            inrush_peak_a: inrush,
+            cap_peak_v: sum(|f| f.cap_peak_v),
+            secondary_rms_v: sum(|f| f.secondary_rms_v),
+        }
+    }
+
+    /// Every figure with its JSON name, in the report's order.
+    pub fn named(&self) -> [(&'static str, Option<f64>); 18] {
+        [
+            ("dc_v", Some(self.dc_v)),
+            ("max_v", Some(self.max_v)),
+            ("min_v", Some(self.min_v)),
+            ("ripple_pp_v", Some(self.ripple_pp_v)),
+            ("ripple_rms_v", Some(self.ripple_rms_v)),
+            ("ripple_hz", Some(self.ripple_hz)),
+            ("load_a", Some(self.load_a)),
+            ("diode_peak_a", Some(self.diode_peak_a)),
+            ("diode_avg_a", Some(self.diode_avg_a)),
+            ("diode_rms_a", Some(self.diode_rms_a)),
+            ("diode_piv_v", Some(self.diode_piv_v)),
+            ("winding_rms_a", Some(self.winding_rms_a)),
+            ("winding_va", Some(self.winding_va)),
+            ("cap_ripple_rms_a", Some(self.cap_ripple_rms_a)),
+            ("conduction_deg", Some(self.conduction_deg)),
+            ("inrush_peak_a", self.inrush_peak_a),
+            ("cap_peak_v", Some(self.cap_peak_v)),
+            ("secondary_rms_v", Some(self.secondary_rms_v)),
+        ]
+    }
+}
+
+pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figures {
+    let dc = s.mean_v_out;
+    let offset = dc - s.ripple_ref_v;
+    let ripple_rms = (s.mean_sq_ripple - offset * offset).max(0.0).sqrt();
+    let topology = supply.rectifier.topology;
+    let halves = matches!(topology, Topology::CenterTap | Topology::SplitRail);
+    let winding_rms = s.mean_sq_i_winding.max(0.0).sqrt();
+    // Volt-amperes as the transformer's rating counts them: its RMS EMF times RMS current,
+    // each half of a center-tapped winding counted.
+    let winding_va = if halves {
+        2.0 * 0.5 * net.emf_rms_v * winding_rms
+    } else {
+        net.emf_rms_v * winding_rms
+    };
+    let threshold = 1e-3 * s.i_diode_peak.max(1e-12);
+    let on = s.probes.iter().filter(|p| p.i_diode > threshold).count();
+    Figures {
+        dc_v: dc,
+        max_v: s.v_out_max,
+        min_v: s.v_out_min,
+        ripple_pp_v: (s.v_out_max - s.v_out_min).max(0.0),
+        ripple_rms_v: ripple_rms,
+        ripple_hz: ripple_frequency(net.line_hz, &s.probes),
+        load_a: s.mean_i_load,
+        diode_peak_a: s.i_diode_peak,
+        diode_avg_a: s.mean_i_diode,
+        diode_rms_a: s.mean_sq_i_diode.max(0.0).sqrt(),
+        diode_piv_v: s.v_reverse_max.max(0.0),
+        winding_rms_a: winding_rms,
+        winding_va,
+        cap_ripple_rms_a: s.mean_sq_i_cap.max(0.0).sqrt(),
+        conduction_deg: 360.0 * on as f64 / s.probes.len().max(1) as f64,
+        inrush_peak_a: inrush(net),
+        cap_peak_v: s.v_cap_max,
+        secondary_rms_v: (s
+            .probes
+            .iter()
+            .map(|p| p.v_secondary * p.v_secondary)
+            .sum::<f64>()
+            / s.probes.len().max(1) as f64)
+            .sqrt(),
+    }
+}
+
+/// The stronger of the line-frequency and twice-line components of the rail (hertz).
+fn ripple_frequency(line_hz: f64, probes: &[solver::Probe]) -> f64 {
+    let n = probes.len() as f64;
+    // One DFT bin, the phasor turned by a fixed rotation each sample instead of a sine call.
+    let amplitude = |k: f64| {
+        let (step_sin, step_cos) = (2.0 * PI * k / n).sin_cos();
+        let (mut c, mut s) = (1.0f64, 0.0f64);
+        let (mut re, mut im) = (0.0, 0.0);
+        for p in probes {
+            re += p.v_out * c;
+            im += p.v_out * s;
+            (c, s) = (c * step_cos - s * step_sin, s * step_cos + c * step_sin);
+        }
+        (re * re + im * im).sqrt()
+    };
+    if amplitude(1.0) >= amplitude(2.0) {
+        line_hz
+    } else {
+        2.0 * line_hz
+    }
+}
+
+/// Switch-on at the crest into empty capacitors: only the path's resistance and the ESR limit
+/// the first pulse (amps).
+fn inrush(net: &Network) -> Option<f64> {
+    let p = net.paths.first()?;
+    let esr = net.reservoirs.first().map_or(0.0, |r| r.esr_ohms);
+    let ohms = p.ohms + esr;
+    let peak = p.emf_share * net.emf_rms_v * net.wave.crest();
+    if net.reservoirs.is_empty() {
+        // No capacitor: the first pulse is an ordinary one.
+        let load_ohms = match net.load {
+            LoadLaw::Resistance { ohms } => ohms,
+            LoadLaw::Current { .. } => 0.0,
+        };
+        if ohms + load_ohms <= 0.0 {
+            return None;
+        }
+        return Some(net.diode.string_current(peak, ohms + load_ohms, p.diodes));
+    }
+    if ohms <= 0.0 {
+        return None;
+    }
+    Some(net.diode.string_current(peak, ohms, p.diodes))
+}
