@@ -175,7 +175,7 @@ impl Report {
             out.push_str("  split rail: figures are the + rail; the - rail mirrors it\n");
         }
         if let Ok(w) = s.winding()
-            && w.source == crate::supply::WindingSource::Nameplate
+            && w.source == crate::circuit::winding::WindingSource::Nameplate
             && let Some(r) = w.assumed_regulation_pct
         {
             out.push_str(&format!(

@@ -2,11 +2,10 @@
 //! along each axis, each a full steady-state solve, and for each figure the lowest and highest
 //! value with the point that gives it, in words.
 
+use crate::circuit::diode::DiodeParams;
+use crate::circuit::winding::{ASSUMED_OVERSIZE, WARM_WINDING_FACTOR, WindingModel, WindingSource};
 use crate::circuit::{self, CircuitError, Conditions, Figures, LoadOverride};
-use crate::supply::{
-    ASSUMED_CREST_LOW, ASSUMED_OVERSIZE, DiodeParams, Supply, WARM_WINDING_FACTOR, WindingModel,
-    WindingSource,
-};
+use crate::supply::{ASSUMED_CREST_LOW, Supply};
 use crate::units::{format_number, format_uf};
 use serde::Serialize;
 

@@ -82,7 +82,7 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
     // act on top of that.
     let cal = supply.calibration_in_force();
     let winding_factor = cond.winding_factor * cal.winding_factor;
-    let winding = crate::supply::WindingModel {
+    let winding = crate::circuit::winding::WindingModel {
         secondary_ohms: winding.secondary_ohms * winding_factor,
         primary_ohms: winding.primary_ohms * winding_factor,
         ..winding

@@ -9,6 +9,7 @@ pub mod network;
 mod paper;
 pub mod solver;
 pub mod waveform;
+pub mod winding;
 
 pub use build::{Conditions, LoadOverride, network};
 pub use figures::Figures;

@@ -1,0 +1,210 @@
+//! The transformer as the circuit takes it: a turns ratio and resistances, from the file's
+//! measured values, its nameplate, or a transformer assumed sized for the load.
+
+use crate::supply::*;
+use crate::units::format_number;
+
+/// The turns ratio and series resistance the circuit uses, after the nameplate form is
+/// turned into the measured form.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct WindingModel {
+    /// Primary to whole secondary.
+    pub ratio: f64,
+    /// Whole secondary DC resistance, ohms.
+    pub secondary_ohms: f64,
+    /// Primary DC resistance, ohms (reflected by the circuit according to the topology).
+    pub primary_ohms: f64,
+    /// Regulation assumed from the rating when the nameplate gave none, percent.
+    pub assumed_regulation_pct: Option<f64>,
+    /// Where the resistance comes from, and the range the worst case and the diagnosis allow
+    /// it.
+    pub source: WindingSource,
+}
+
+/// Where a winding's resistance comes from.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum WindingSource {
+    /// Measured (cold, with an ohmmeter) and written in the file.
+    Measured,
+    /// Worked out from the nameplate's regulation and VA rating.
+    Nameplate,
+    /// Not stated: sized for the load (see [`Supply::assumed_winding`]).
+    Assumed {
+        /// The rating the transformer is taken to have, volt-amperes.
+        rated_va: f64,
+        /// The resistance range allowed, whole secondary, ohms.
+        low_ohms: f64,
+        high_ohms: f64,
+    },
+}
+
+/// Copper's resistance rises 0.39 %/degC (memory of the handbook value); a winding in service
+/// runs 20-40 degC above the cold ohmmeter reading (practice): up to 15.6 % more.
+pub const WARM_WINDING_FACTOR: f64 = 1.0 + 0.0039 * 40.0;
+
+/// The regulation of small transformers, 5-25 % (practice), the range assumed for a winding
+/// whose resistance the file leaves out.
+pub const ASSUMED_REGULATION_PCT: (f64, f64) = (5.0, 25.0);
+
+/// A transformer may be up to this many times larger than its load needs (a bench or
+/// general-purpose unit on a light load), which the low end of an assumed winding allows.
+pub const ASSUMED_OVERSIZE: f64 = 4.0;
+
+/// Volt-amperes a transformer needs per watt of DC it feeds through a capacitor-input filter:
+/// the charging pulses raise the winding's RMS current well above the DC (practice: about 1.8
+/// for a bridge; a center tap's halves and a half-wave winding carry pulses less of the time,
+/// which costs more).
+fn va_per_dc_watt(topology: Topology) -> f64 {
+    match topology {
+        Topology::Bridge | Topology::SplitRail => 1.8,
+        Topology::CenterTap => 2.3,
+        Topology::HalfWave | Topology::Doubler => 3.0,
+    }
+}
+
+/// Field practice for small transformers with no regulation figure on the plate: the smaller
+/// the unit, the softer it is (domain notes: 10-25 % for small units).
+fn regulation_from_rating(rated_va: f64) -> f64 {
+    match rated_va {
+        va if va < 10.0 => 25.0,
+        va if va < 50.0 => 15.0,
+        va if va < 300.0 => 10.0,
+        _ => 6.0,
+    }
+}
+
+impl Supply {
+    /// Turns the transformer section into a turns ratio and resistances (volts, ohms).
+    ///
+    /// Nameplate form: no-load secondary = `secondary_vrms * (1 + regulation_pct/100)`; without
+    /// measured ohms the whole series resistance follows from the regulation at rated current,
+    /// R = secondary_vrms^2 * regulation / rated_va, all put in the secondary.
+    pub fn winding(&self) -> Result<WindingModel, SupplyError> {
+        let t = &self.transformer;
+        let secondary_ohms = t.secondary_ohms.unwrap_or(0.0);
+        let primary_ohms = t.primary_ohms.unwrap_or(0.0);
+        SECONDARY_OHMS.check(secondary_ohms)?;
+        PRIMARY_OHMS.check(primary_ohms)?;
+        if let Some(ratio) = t.ratio {
+            RATIO.check(ratio)?;
+            let measured = t.secondary_ohms.is_some() || t.primary_ohms.is_some();
+            return Ok(if measured {
+                WindingModel {
+                    ratio,
+                    secondary_ohms,
+                    primary_ohms,
+                    assumed_regulation_pct: None,
+                    source: WindingSource::Measured,
+                }
+            } else {
+                self.assumed_winding(ratio, None)
+            });
+        }
+        let missing = |key| SupplyError::Missing {
+            key,
+            why: "give either `ratio` or the nameplate `primary_vrms` and `secondary_vrms`",
+            line: None,
+        };
+        let primary = t.primary_vrms.ok_or(missing("transformer.ratio"))?;
+        let secondary = t
+            .secondary_vrms
+            .ok_or(missing("transformer.secondary_vrms"))?;
+        PRIMARY_VRMS.check(primary)?;
+        SECONDARY_VRMS.check(secondary)?;
+        if let Some(va) = t.rated_va {
+            RATED_VA.check(va)?;
+        }
+        let (regulation, assumed) = match (t.regulation_pct, t.rated_va) {
+            (Some(r), _) => (r, None),
+            (None, Some(va)) => {
+                let r = regulation_from_rating(va);
+                (r, Some(r))
+            }
+            (None, None) => {
+                return Err(SupplyError::Missing {
+                    key: "transformer.regulation_pct",
+                    why: "the nameplate form needs the regulation or the rated VA to know the no-load voltage",
+                    line: None,
+                });
+            }
+        };
+        REGULATION_PCT.check(regulation)?;
+        let no_load = secondary * (1.0 + regulation / 100.0);
+        let ratio = primary / no_load;
+        if !RATIO.allows(ratio) {
+            return Err(SupplyError::out_of_range(
+                RATIO.key,
+                format!(
+                    "{}, from primary_vrms over the no-load secondary_vrms",
+                    format_number(ratio)
+                ),
+                RATIO.allowed(),
+            ));
+        }
+        let measured = t.secondary_ohms.is_some() || t.primary_ohms.is_some();
+        Ok(match (measured, t.rated_va) {
+            (true, _) => WindingModel {
+                ratio,
+                secondary_ohms,
+                primary_ohms,
+                assumed_regulation_pct: assumed,
+                source: WindingSource::Measured,
+            },
+            (false, Some(va)) => WindingModel {
+                ratio,
+                secondary_ohms: secondary * secondary * regulation / 100.0 / va,
+                primary_ohms,
+                assumed_regulation_pct: assumed,
+                source: WindingSource::Nameplate,
+            },
+            (false, None) => self.assumed_winding(ratio, Some(regulation)),
+        })
+    }
+
+    /// The winding of a transformer whose resistance the file leaves out, taken as sized for
+    /// its load: the DC power the load draws (its current, or the rail's paper estimate over
+    /// its resistance) times the volt-amperes a capacitor-input filter needs per watt, at
+    /// least 1 VA. Copper loss as regulation: R = regulation x V^2 / VA on the whole
+    /// secondary. The range runs from 5 % regulation on a transformer four times larger to
+    /// 25 % on one just large enough (practice); the nominal is the nameplate's regulation on
+    /// a transformer that size when given, otherwise the range's middle on a log scale, ohms.
+    pub fn assumed_winding(&self, ratio: f64, regulation_pct: Option<f64>) -> WindingModel {
+        let secondary_v = self.mains.vrms / ratio;
+        let topology = self.rectifier.topology;
+        let (share, diodes) = match topology {
+            Topology::HalfWave => (1.0, 1.0),
+            Topology::CenterTap | Topology::SplitRail => (0.5, 1.0),
+            Topology::Bridge => (1.0, 2.0),
+            Topology::Doubler => (2.0, 2.0),
+        };
+        // A rough rail: the peak less about 0.8 V a silicon diode (practice).
+        let rail_v = (share * secondary_v * std::f64::consts::SQRT_2 - 0.8 * diodes).max(0.1);
+        let amps = match (&self.regulator, self.load.amps, self.load.ohms) {
+            (_, Some(a), _) => a,
+            (Some(reg), None, Some(r)) => reg.output_v / r,
+            (None, None, Some(r)) => rail_v / r,
+            _ => 0.0,
+        };
+        let rated_va = (va_per_dc_watt(topology) * rail_v * amps).max(1.0);
+        let ohms = |reg_pct: f64, va: f64| reg_pct / 100.0 * secondary_v * secondary_v / va;
+        let low_ohms = ohms(ASSUMED_REGULATION_PCT.0, ASSUMED_OVERSIZE * rated_va);
+        let high_ohms = ohms(ASSUMED_REGULATION_PCT.1, rated_va);
+        // With no more to go on, the middle of the range on a log scale: neither the tight
+        // large unit nor the soft small one.
+        let nominal = match regulation_pct {
+            Some(r) => ohms(r, rated_va).clamp(low_ohms, high_ohms),
+            None => (low_ohms * high_ohms).sqrt(),
+        };
+        WindingModel {
+            ratio,
+            secondary_ohms: nominal,
+            primary_ohms: 0.0,
+            assumed_regulation_pct: regulation_pct,
+            source: WindingSource::Assumed {
+                rated_va,
+                low_ohms,
+                high_ohms,
+            },
+        }
+    }
+}

@@ -1,0 +1,237 @@
+//! Checking a parsed supply field by field against the range table, and the load's and the
+//! visits' rules.
+
+use super::*;
+
+impl Supply {
+    /// Checks every field against the range the model accepts ([`RANGES`]); the first fault
+    /// found is returned, naming its key.
+    pub fn validate(&self) -> Result<(), SupplyError> {
+        if self.format == 0 {
+            let allowed = if FORMAT == 1 {
+                "1, the only format so far".to_string()
+            } else {
+                format!("between 1 and {FORMAT}")
+            };
+            return Err(SupplyError::out_of_range("format", "0", allowed));
+        }
+        if self.format > FORMAT {
+            return Err(SupplyError::NewerFormat { found: self.format });
+        }
+        if self.name.trim().is_empty() {
+            return Err(SupplyError::Missing {
+                key: "name",
+                why: "every supply needs a name to find it by",
+                line: None,
+            });
+        }
+        let m = &self.mains;
+        MAINS_VRMS.check(m.vrms)?;
+        MAINS_HZ.check(m.hz)?;
+        MAINS_LOW_PCT.check(m.low_pct)?;
+        MAINS_HIGH_PCT.check(m.high_pct)?;
+        if let Some(c) = m.crest {
+            MAINS_CREST.check(c)?;
+        }
+        self.winding()?;
+        if let Some(p) = self.transformer.ratio_pct {
+            RATIO_PCT.check(p)?;
+        }
+        let r = &self.rectifier;
+        self.rectifier_diode()?;
+        for (range, v) in [
+            (&TEMP_C, r.temp_c),
+            (&DROP_SPREAD_PCT, r.drop_spread_pct),
+            (&RATED_PIV_V, r.rated_piv_v),
+            (&DIODE_RATED_A, r.rated_a),
+            (&SURGE_A, r.surge_a),
+        ] {
+            if let Some(v) = v {
+                range.check(v)?;
+            }
+        }
+        let f = &self.filter;
+        match f.kind {
+            FilterKind::None => {
+                if r.topology == Topology::Doubler {
+                    return Err(SupplyError::out_of_range(
+                        "filter.kind",
+                        "none",
+                        "capacitor or crc for a doubler (its capacitors are part of it)",
+                    ));
+                }
+            }
+            FilterKind::Capacitor | FilterKind::Crc => {
+                let uf = f.uf.ok_or(SupplyError::Missing {
+                    key: "filter.uf",
+                    why: "a capacitor filter needs its capacitance in microfarads",
+                    line: None,
+                })?;
+                FILTER_UF.check(uf)?;
+                ESR_OHMS.check(f.esr_ohms)?;
+                CAP_LOW_PCT.check(f.low_pct)?;
+                CAP_HIGH_PCT.check(f.high_pct)?;
+            }
+        }
+        if f.kind == FilterKind::Crc {
+            let ohms = f.series_ohms.ok_or(SupplyError::Missing {
+                key: "filter.series_ohms",
+                why: "a CRC filter needs the resistor between its capacitors",
+                line: None,
+            })?;
+            SERIES_OHMS.check(ohms)?;
+            let uf = f.second_uf.ok_or(SupplyError::Missing {
+                key: "filter.second_uf",
+                why: "a CRC filter needs its second capacitor in microfarads",
+                line: None,
+            })?;
+            SECOND_UF.check(uf)?;
+        }
+        for (range, v) in [
+            (&CAP_RATED_V, f.rated_v),
+            (&RATED_RIPPLE_A, f.rated_ripple_a),
+            (&BLEEDER_OHMS, f.bleeder_ohms),
+            (&AGED_PCT, f.aged_pct),
+        ] {
+            if let Some(v) = v {
+                range.check(v)?;
+            }
+        }
+        self.validate_load()?;
+        if let Some(c) = &self.calibration {
+            if c.visit.date.is_none() {
+                return Err(SupplyError::out_of_range(
+                    "calibration.visit",
+                    c.visit.to_string(),
+                    "a calendar date such as 2026-11-30",
+                ));
+            }
+            for (range, v) in [
+                (&CALIBRATION_WINDING, c.winding_factor),
+                (&CALIBRATION_CREST, c.crest),
+                (&CALIBRATION_CAP, c.cap_factor),
+            ] {
+                if let Some(v) = v {
+                    range.check(v)?;
+                }
+            }
+        }
+        for (i, v) in self.visits.iter().enumerate() {
+            let in_visit = |e: SupplyError| match e {
+                SupplyError::OutOfRange {
+                    key,
+                    value,
+                    allowed,
+                    line,
+                    ..
+                } => SupplyError::OutOfRange {
+                    key,
+                    value,
+                    allowed,
+                    line,
+                    visit: Some(i + 1),
+                },
+                other => other,
+            };
+            if v.date.date.is_none() {
+                return Err(in_visit(SupplyError::out_of_range(
+                    "visit.date",
+                    v.date.to_string(),
+                    "a calendar date such as 2026-11-30",
+                )));
+            }
+            let r = &v.readings;
+            for (range, value) in [
+                (&VISIT_MAINS_VRMS, r.mains_vrms),
+                (&VISIT_SECONDARY_VAC, r.secondary_vac),
+                (&VISIT_DC_V, r.dc_v),
+                (&VISIT_RIPPLE_PP_V, r.ripple_pp_v),
+                (&VISIT_RIPPLE_RMS_V, r.ripple_rms_v),
+                (&VISIT_RIPPLE_HZ, r.ripple_hz),
+                (&VISIT_LOAD_A, r.load_a),
+            ] {
+                if let Some(value) = value {
+                    range.check(value).map_err(in_visit)?;
+                }
+            }
+        }
+        if let Some(reg) = &self.regulator {
+            OUTPUT_V.check(reg.output_v)?;
+            DROPOUT_V.check(reg.dropout_v)?;
+            if let Some(w) = reg.rated_w {
+                REGULATOR_RATED_W.check(w)?;
+            }
+        }
+        Ok(())
+    }
+
+    /// The load: one kind (current or resistance), its range of the same kind, low end not
+    /// above the high end.
+    fn validate_load(&self) -> Result<(), SupplyError> {
+        let l = &self.load;
+        let (range_kind, other_kind) = match (l.amps, l.ohms) {
+            (Some(a), None) => {
+                LOAD_AMPS.check(a)?;
+                (
+                    [(&MIN_AMPS, l.min_amps), (&MAX_AMPS, l.max_amps)],
+                    [(&MIN_OHMS, l.min_ohms), (&MAX_OHMS, l.max_ohms)],
+                )
+            }
+            (None, Some(o)) => {
+                LOAD_OHMS.check(o)?;
+                (
+                    [(&MIN_OHMS, l.min_ohms), (&MAX_OHMS, l.max_ohms)],
+                    [(&MIN_AMPS, l.min_amps), (&MAX_AMPS, l.max_amps)],
+                )
+            }
+            (Some(_), Some(_)) => {
+                return Err(SupplyError::out_of_range(
+                    "load",
+                    "both amps and ohms",
+                    "either `amps` (constant current) or `ohms` (resistive), not both",
+                ));
+            }
+            (None, None) => {
+                return Err(SupplyError::Missing {
+                    key: "load.amps",
+                    why: "give the load as `amps` (constant current) or `ohms` (resistive)",
+                    line: None,
+                });
+            }
+        };
+        // A range of the other kind would be silently ignored by the worst case.
+        for (range, v) in other_kind {
+            if let Some(v) = v {
+                let (nominal, its_range) = if l.amps.is_some() {
+                    ("`amps` (a current load)", "`min_amps` / `max_amps`")
+                } else {
+                    ("`ohms` (a resistive load)", "`min_ohms` / `max_ohms`")
+                };
+                return Err(SupplyError::out_of_range(
+                    range.key,
+                    format_number(v),
+                    format!("left out with {nominal}: its range is {its_range}"),
+                ));
+            }
+        }
+        for (range, v) in range_kind {
+            if let Some(v) = v {
+                range.check(v)?;
+            }
+        }
+        if let [(min_range, Some(min)), (max_range, Some(max))] = range_kind
+            && min > max
+        {
+            return Err(SupplyError::out_of_range(
+                min_range.key,
+                format_number(min),
+                format!(
+                    "at most `{}` ({}), being the low end of the range",
+                    max_range.key,
+                    format_number(max)
+                ),
+            ));
+        }
+        Ok(())
+    }
+}
