@@ -171,7 +171,7 @@ impl Report {
             s.rectifier.topology.key(),
             filter_words(s)
         ));
-        if s.rectifier.topology == Topology::SplitRail {
+        if s.rectifier.topology.rails() == 2 {
             out.push_str("  split rail: figures are the + rail; the - rail mirrors it\n");
         }
         if let Ok(w) = s.winding()
@@ -317,7 +317,7 @@ impl Report {
             "name": self.supply.name,
             "file": self.file,
             "topology": self.supply.rectifier.topology.key(),
-            "rail": if self.supply.rectifier.topology == Topology::SplitRail { "+" } else { "single" },
+            "rail": if self.supply.rectifier.topology.rails() == 2 { "+" } else { "single" },
             "nominal": nominal,
             "hand_estimate": self.hand,
             "hand_differences": self.differences,

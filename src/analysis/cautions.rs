@@ -1,6 +1,6 @@
 //! The safety cautions a supply calls for: mains hazard, stored energy, discharge time.
 
-use crate::supply::{FilterKind, Supply, Topology};
+use crate::supply::{FilterKind, Supply};
 
 /// The touch voltage that equipment-safety standards treat as extra-low voltage for DC
 /// (60 V, from memory of the usual limit); below it a charged capacitor is taken as safe.
@@ -15,11 +15,8 @@ pub fn rail_farads(supply: &Supply) -> f64 {
     }
     let high = 1.0 + f.high_pct / 100.0;
     let c = f.uf.unwrap_or(0.0) * 1e-6 * high;
-    let c = if supply.rectifier.topology == Topology::Doubler {
-        c / 2.0
-    } else {
-        c
-    };
+    // Stacked reservoirs (a doubler's two) are in series across the rail.
+    let c = c / supply.rectifier.topology.reservoirs() as f64;
     let second = if f.kind == FilterKind::Crc {
         f.second_uf.unwrap_or(0.0) * 1e-6 * high
     } else {

@@ -1,6 +1,7 @@
 //! What follows from the solved circuit: the worst case over tolerances, rating checks,
 //! capacitor sizing, and safety cautions.
 
+#![deny(clippy::wildcard_enum_match_arm)]
 pub mod cautions;
 pub mod checks;
 pub mod sizing;

@@ -187,11 +187,9 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         }
         _ if cond.capacitor_open => (Vec::new(), None),
         (_, stage) => {
-            let reservoirs = if topology == Topology::Doubler {
-                vec![faulted, stated]
-            } else {
-                vec![faulted]
-            };
+            // The capacitor a fault concerns first, the others as stated.
+            let mut reservoirs = vec![faulted];
+            reservoirs.resize(topology.reservoirs(), stated);
             (reservoirs, stage)
         }
     };

@@ -4,7 +4,6 @@
 use super::network::{LoadLaw, Network};
 use super::solver::{self, SteadyState};
 use crate::supply::Supply;
-use crate::supply::Topology;
 use serde::Serialize;
 use std::f64::consts::PI;
 
@@ -104,7 +103,7 @@ pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figure
     let offset = dc - s.ripple_ref_v;
     let ripple_rms = (s.mean_sq_ripple - offset * offset).max(0.0).sqrt();
     let topology = supply.rectifier.topology;
-    let halves = matches!(topology, Topology::CenterTap | Topology::SplitRail);
+    let halves = topology.has_half_windings();
     let winding_rms = s.mean_sq_i_winding.max(0.0).sqrt();
     // Volt-amperes as the transformer's rating counts them: its RMS EMF times RMS current,
     // each half of a center-tapped winding counted.

@@ -2,6 +2,7 @@
 //! solver; and the figures a technician reads off a supply. Building the network from a
 //! supply is in `build`, the figures in `figures`, the paper estimate in `paper`.
 
+#![deny(clippy::wildcard_enum_match_arm)]
 mod build;
 pub mod diode;
 mod figures;

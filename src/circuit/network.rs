@@ -250,17 +250,19 @@ impl Network {
                 let mine = if e >= 0.0 { path_i[0] } else { 0.0 };
                 match self.arrangement {
                     Arrangement::CenterTap => (mine, mine),
-                    _ => (mine, path_i[0] * e.signum()),
+                    Arrangement::Direct | Arrangement::Bridge | Arrangement::SplitRail => {
+                        (mine, path_i[0] * e.signum())
+                    }
                 }
             }
-            _ => (path_i[0], path_i[0] - path_i[1]),
+            Polarity::Forward | Polarity::Inverted => (path_i[0], path_i[0] - path_i[1]),
         };
         let share = first.emf_share;
         // The whole secondary's terminal voltage, as an AC meter across it reads: the EMF less
         // the drop of the current through it (both halves' drops for a center tap).
         let signed = match first.polarity {
             Polarity::Rectified | Polarity::OneLegOpen => path_i[0] * e.signum(),
-            _ => path_i[0] - path_i[1],
+            Polarity::Forward | Polarity::Inverted => path_i[0] - path_i[1],
         };
         let v_secondary = e - first.ohms / share * signed;
         let v_reverse = match self.arrangement {

@@ -48,7 +48,7 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
         crate::supply::DiodeSpec::Preset(p) if p == "schottky" => 0.4,
         crate::supply::DiodeSpec::Preset(p) if p == "ideal" => 0.0,
         crate::supply::DiodeSpec::Fixed { drop_v, .. } => *drop_v,
-        _ => 0.7,
+        crate::supply::DiodeSpec::Preset(_) | crate::supply::DiodeSpec::Junction { .. } => 0.7,
     };
     let secondary_peak = supply.mains.vrms / winding.ratio * supply.mains.crest();
     let (share, diodes) = match topology {

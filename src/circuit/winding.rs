@@ -50,18 +50,6 @@ pub const ASSUMED_REGULATION_PCT: (f64, f64) = (5.0, 25.0);
 /// general-purpose unit on a light load), which the low end of an assumed winding allows.
 pub const ASSUMED_OVERSIZE: f64 = 4.0;
 
-/// Volt-amperes a transformer needs per watt of DC it feeds through a capacitor-input filter:
-/// the charging pulses raise the winding's RMS current well above the DC (practice: about 1.8
-/// for a bridge; a center tap's halves and a half-wave winding carry pulses less of the time,
-/// which costs more).
-fn va_per_dc_watt(topology: Topology) -> f64 {
-    match topology {
-        Topology::Bridge | Topology::SplitRail => 1.8,
-        Topology::CenterTap => 2.3,
-        Topology::HalfWave | Topology::Doubler => 3.0,
-    }
-}
-
 /// Field practice for small transformers with no regulation figure on the plate: the smaller
 /// the unit, the softer it is (domain notes: 10-25 % for small units).
 fn regulation_from_rating(rated_va: f64) -> f64 {
@@ -171,12 +159,7 @@ impl Supply {
     pub fn assumed_winding(&self, ratio: f64, regulation_pct: Option<f64>) -> WindingModel {
         let secondary_v = self.mains.vrms / ratio;
         let topology = self.rectifier.topology;
-        let (share, diodes) = match topology {
-            Topology::HalfWave => (1.0, 1.0),
-            Topology::CenterTap | Topology::SplitRail => (0.5, 1.0),
-            Topology::Bridge => (1.0, 2.0),
-            Topology::Doubler => (2.0, 2.0),
-        };
+        let (share, diodes) = (topology.peak_share(), topology.diodes_to_peak());
         // A rough rail: the peak less about 0.8 V a silicon diode (practice).
         let rail_v = (share * secondary_v * std::f64::consts::SQRT_2 - 0.8 * diodes).max(0.1);
         let amps = match (&self.regulator, self.load.amps, self.load.ohms) {
@@ -185,7 +168,7 @@ impl Supply {
             (None, None, Some(r)) => rail_v / r,
             _ => 0.0,
         };
-        let rated_va = (va_per_dc_watt(topology) * rail_v * amps).max(1.0);
+        let rated_va = (topology.va_per_dc_watt() * rail_v * amps).max(1.0);
         let ohms = |reg_pct: f64, va: f64| reg_pct / 100.0 * secondary_v * secondary_v / va;
         let low_ohms = ohms(ASSUMED_REGULATION_PCT.0, ASSUMED_OVERSIZE * rated_va);
         let high_ohms = ohms(ASSUMED_REGULATION_PCT.1, rated_va);

@@ -134,7 +134,13 @@ pub fn calibrate(
         .filter(|a| match a.kind {
             AxisKind::Winding | AxisKind::Crest => true,
             AxisKind::Capacitance => filtered && ripple_read,
-            _ => false,
+            // What varies between visits (the load, the mains) or is a spread of parts stays
+            // a range: only the unit's own unknowns are calibrated.
+            AxisKind::Mains
+            | AxisKind::LoadAmps
+            | AxisKind::LoadOhms
+            | AxisKind::DiodeDrop
+            | AxisKind::Ratio => false,
         })
         .map(|a| Free {
             kind: a.kind,
@@ -162,7 +168,11 @@ pub fn calibrate(
                 AxisKind::Winding => c.winding_factor = v,
                 AxisKind::Crest => c.crest = Some(v),
                 AxisKind::Capacitance => c.cap_factor = v,
-                _ => {}
+                AxisKind::Mains
+                | AxisKind::LoadAmps
+                | AxisKind::LoadOhms
+                | AxisKind::DiodeDrop
+                | AxisKind::Ratio => {}
             }
         }
         c
@@ -264,7 +274,12 @@ pub fn calibrate(
             let what = match f.kind {
                 AxisKind::Winding => "the winding's resistance",
                 AxisKind::Crest => "the mains crest",
-                _ => "the capacitance",
+                AxisKind::Capacitance
+                | AxisKind::Mains
+                | AxisKind::LoadAmps
+                | AxisKind::LoadOhms
+                | AxisKind::DiodeDrop
+                | AxisKind::Ratio => "the capacitance",
             };
             let end = if v > f.nominal { "top" } else { "bottom" };
             format!(

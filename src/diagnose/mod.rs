@@ -2,13 +2,14 @@
 //! fault that explains the readings best, each fault a changed circuit solved by the engine
 //! with at most one free parameter fitted to the readings.
 
+#![deny(clippy::wildcard_enum_match_arm)]
 pub mod calibrate;
 mod nuisance;
 pub mod trend;
 
 use crate::analysis::worst_case::{AxisKind, ToleranceBox, worst_case_in};
 use crate::circuit::{self, Conditions, Figures, LoadOverride};
-use crate::supply::{FilterKind, Supply, Topology};
+use crate::supply::{FilterKind, Supply};
 use serde::Serialize;
 
 pub use crate::visit::Readings;
@@ -359,7 +360,13 @@ fn search_range(fault: Fault, supply: &Supply, mains_known: bool) -> Option<(f64
         Fault::SecondaryLow => Some((1.03, 3.0)),
         Fault::LoadHeavy => Some((1.15, 8.0)),
         Fault::LoadLight => Some((0.0, 0.85)),
-        _ => None,
+        Fault::MainsLow
+        | Fault::MainsHigh
+        | Fault::Healthy
+        | Fault::CapacitorOpen
+        | Fault::RectifierLegOpen
+        | Fault::RegulatorDropout
+        | Fault::NoOutput => None,
     }
 }
 
@@ -435,11 +442,7 @@ impl Readings {
         }
         self.check(supply.mains.hz)?;
         if let (Some(dc), Ok(w)) = (self.dc_v, supply.winding()) {
-            let share = match supply.rectifier.topology {
-                Topology::HalfWave | Topology::Bridge => 1.0,
-                Topology::CenterTap | Topology::SplitRail => 0.5,
-                Topology::Doubler => 2.0,
-            };
+            let share = supply.rectifier.topology.peak_share();
             let highest_mains = self
                 .mains_vrms
                 .map_or(nominal * (1.0 + supply.mains.high_pct / 100.0), |m| {
@@ -517,7 +520,7 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
         Err(_) => f64::INFINITY,
     };
     let mains_known = readings.mains_vrms.is_some();
-    let full_wave = supply.rectifier.topology != Topology::HalfWave;
+    let full_wave = supply.rectifier.topology.is_full_wave();
     let filtered = supply.filter.kind != FilterKind::None;
     let mut hyps: Vec<Hypothesis> = Vec::new();
     for fault in Fault::ALL {
@@ -526,7 +529,11 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             Fault::RectifierLegOpen => full_wave,
             Fault::MainsLow | Fault::MainsHigh => true,
             Fault::RegulatorDropout => supply.regulator.is_some(),
-            _ => true,
+            Fault::Healthy
+            | Fault::SecondaryLow
+            | Fault::LoadHeavy
+            | Fault::LoadLight
+            | Fault::NoOutput => true,
         };
         if !applicable {
             continue;
@@ -568,7 +575,15 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
                     _ => (None, f64::INFINITY),
                 }
             }
-            _ => match search_range(fault, supply, mains_known) {
+            Fault::CapacitanceLow
+            | Fault::EsrHigh
+            | Fault::CapacitorOpen
+            | Fault::RectifierLegOpen
+            | Fault::MainsLow
+            | Fault::MainsHigh
+            | Fault::SecondaryLow
+            | Fault::LoadHeavy
+            | Fault::LoadLight => match search_range(fault, supply, mains_known) {
                 Some((lo, hi)) if lo < hi => {
                     let (x, chi2) = fit(lo, hi, |x| {
                         judged(fault, conditions(fault, x, &base, supply))
@@ -607,7 +622,17 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
                         let hi = supply.mains.vrms * (1.0 + supply.mains.high_pct / 100.0);
                         let outside = match fault {
                             Fault::MainsLow => v < lo,
-                            _ => v > hi,
+                            Fault::MainsHigh => v > hi,
+                            Fault::Healthy
+                            | Fault::CapacitanceLow
+                            | Fault::EsrHigh
+                            | Fault::CapacitorOpen
+                            | Fault::RectifierLegOpen
+                            | Fault::SecondaryLow
+                            | Fault::LoadHeavy
+                            | Fault::LoadLight
+                            | Fault::RegulatorDropout
+                            | Fault::NoOutput => false,
                         };
                         if !outside {
                             continue;
@@ -628,7 +653,16 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             // Shorted turns are rare beside a low mains, which looks the same from the rail
             // when the mains was not read (common practice).
             Fault::SecondaryLow => FAULT_PRIOR + 1.0,
-            _ => FAULT_PRIOR,
+            Fault::CapacitanceLow
+            | Fault::EsrHigh
+            | Fault::CapacitorOpen
+            | Fault::RectifierLegOpen
+            | Fault::MainsLow
+            | Fault::MainsHigh
+            | Fault::LoadHeavy
+            | Fault::LoadLight
+            | Fault::RegulatorDropout
+            | Fault::NoOutput => FAULT_PRIOR,
         };
         let penalty = implausibility(fault, estimate, supply);
         hyps.push(Hypothesis {
@@ -713,7 +747,11 @@ fn estimate_of(fault: Fault, x: f64, supply: &Supply, base: &Conditions) -> (&'s
                 .unwrap_or(0.0);
             ("load_a", amps)
         }
-        _ => ("", x),
+        Fault::Healthy
+        | Fault::CapacitorOpen
+        | Fault::RectifierLegOpen
+        | Fault::RegulatorDropout
+        | Fault::NoOutput => ("", x),
     }
 }
 
@@ -725,7 +763,19 @@ fn implausibility(fault: Fault, estimate: Option<(&'static str, f64)>, supply: &
         Fault::CapacitanceLow if v < 0.02 * supply.filter.uf.unwrap_or(1.0) => 3.0,
         Fault::EsrHigh if v > 50.0 => 3.0,
         Fault::MainsLow if v < 0.5 * supply.mains.vrms => 3.0,
-        _ => 0.0,
+        // Guards aside, no penalty; listed so a new fault is thought about here too.
+        Fault::Healthy
+        | Fault::CapacitanceLow
+        | Fault::EsrHigh
+        | Fault::CapacitorOpen
+        | Fault::RectifierLegOpen
+        | Fault::MainsLow
+        | Fault::MainsHigh
+        | Fault::SecondaryLow
+        | Fault::LoadHeavy
+        | Fault::LoadLight
+        | Fault::RegulatorDropout
+        | Fault::NoOutput => 0.0,
     }
 }
 

@@ -61,7 +61,7 @@ impl SupplyError {
                 key, line, visit, ..
             } => *line = line_of_key(text, key, *visit),
             SupplyError::Missing { key, line, .. } => *line = line_of_key(text, key, None),
-            _ => {}
+            SupplyError::Syntax { .. } | SupplyError::NewerFormat { .. } => {}
         }
         self
     }

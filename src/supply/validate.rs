@@ -53,7 +53,7 @@ impl Supply {
         let f = &self.filter;
         match f.kind {
             FilterKind::None => {
-                if r.topology == Topology::Doubler {
+                if r.topology.needs_capacitor() {
                     return Err(SupplyError::out_of_range(
                         "filter.kind",
                         "none",
@@ -131,7 +131,9 @@ impl Supply {
                     line,
                     visit: Some(i + 1),
                 },
-                other => other,
+                other @ (SupplyError::Syntax { .. }
+                | SupplyError::Missing { .. }
+                | SupplyError::NewerFormat { .. }) => other,
             };
             if v.date.date.is_none() {
                 return Err(in_visit(SupplyError::out_of_range(

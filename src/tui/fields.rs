@@ -247,11 +247,6 @@ const DIODES: [&str; 6] = [
     "fixed drop",
     "junction",
 ];
-const KINDS: [(FilterKind, &str); 3] = [
-    (FilterKind::None, "none"),
-    (FilterKind::Capacitor, "capacitor"),
-    (FilterKind::Crc, "crc"),
-];
 
 /// A change the form made, ready to apply.
 #[derive(Debug, Clone, PartialEq)]
@@ -323,7 +318,7 @@ impl Field {
         match self.edit {
             Edit::Choice(Choice::Topology) => Topology::ALL.iter().map(|t| t.key()).collect(),
             Edit::Choice(Choice::Diode) => DIODES.to_vec(),
-            Edit::Choice(Choice::FilterKind) => KINDS.iter().map(|(_, w)| *w).collect(),
+            Edit::Choice(Choice::FilterKind) => FilterKind::ALL.iter().map(|k| k.key()).collect(),
             Edit::Choice(Choice::TransformerForm) => vec!["ratio", "nameplate"],
             Edit::Choice(Choice::LoadKind) => vec!["resistance", "current"],
             Edit::Choice(Choice::Regulator) => vec!["none", "linear"],
@@ -423,11 +418,7 @@ fn choice_word(c: Choice, s: &Supply) -> String {
             DiodeSpec::Fixed { .. } => "fixed drop".into(),
             DiodeSpec::Junction { .. } => "junction".into(),
         },
-        Choice::FilterKind => KINDS
-            .iter()
-            .find(|(k, _)| *k == s.filter.kind)
-            .map(|(_, w)| w.to_string())
-            .unwrap_or_default(),
+        Choice::FilterKind => s.filter.kind.key().into(),
         Choice::TransformerForm => if s.transformer.ratio.is_some() {
             "ratio"
         } else {
@@ -499,10 +490,9 @@ fn choose(
             };
         }
         Choice::FilterKind => {
-            out.filter.kind = KINDS
-                .iter()
-                .find(|(_, w)| *w == word)
-                .map(|(k, _)| *k)
+            out.filter.kind = FilterKind::ALL
+                .into_iter()
+                .find(|k| k.key() == word)
                 .expect("a listed word");
             if out.filter.kind != FilterKind::None && out.filter.uf.is_none() {
                 out.filter.uf = Some(1000.0);
