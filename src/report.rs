@@ -4,7 +4,7 @@
 use crate::analysis::cautions::{SAFE_TOUCH_V, cautions};
 use crate::analysis::checks::{self, Check, Status};
 use crate::analysis::worst_case::{self, WorstCase};
-use crate::circuit::{self, CircuitError, Figures, HandEstimate, Operating};
+use crate::circuit::{self, CircuitError, Figure, Figures, HandEstimate, Operating};
 use crate::escape::printable;
 use crate::supply::{FilterKind, Supply, Topology};
 use crate::units::{format_number, format_si, format_uf};
@@ -72,46 +72,10 @@ pub fn build_default(supply: Supply, file: &str) -> Result<Report, CircuitError>
 
 /// Each figure's label, JSON name, value and unit, in the report's order.
 pub fn figure_rows(f: &Figures) -> Vec<(&'static str, &'static str, Option<f64>, &'static str)> {
-    vec![
-        ("DC (meter, average)", "dc_v", Some(f.dc_v), "V"),
-        ("Highest", "max_v", Some(f.max_v), "V"),
-        ("Lowest", "min_v", Some(f.min_v), "V"),
-        ("Ripple peak-peak", "ripple_pp_v", Some(f.ripple_pp_v), "V"),
-        ("Ripple RMS", "ripple_rms_v", Some(f.ripple_rms_v), "V"),
-        ("Ripple frequency", "ripple_hz", Some(f.ripple_hz), "Hz"),
-        ("Load current", "load_a", Some(f.load_a), "A"),
-        ("Diode peak", "diode_peak_a", Some(f.diode_peak_a), "A"),
-        ("Diode average", "diode_avg_a", Some(f.diode_avg_a), "A"),
-        ("Diode RMS", "diode_rms_a", Some(f.diode_rms_a), "A"),
-        (
-            "Diode reverse peak",
-            "diode_piv_v",
-            Some(f.diode_piv_v),
-            "V",
-        ),
-        ("Winding RMS", "winding_rms_a", Some(f.winding_rms_a), "A"),
-        ("Winding VA", "winding_va", Some(f.winding_va), "VA"),
-        (
-            "Capacitor ripple RMS",
-            "cap_ripple_rms_a",
-            Some(f.cap_ripple_rms_a),
-            "A",
-        ),
-        (
-            "Conduction per pulse",
-            "conduction_deg",
-            Some(f.conduction_deg),
-            "deg",
-        ),
-        ("Switch-on surge", "inrush_peak_a", f.inrush_peak_a, "A"),
-        ("Capacitor peak", "cap_peak_v", Some(f.cap_peak_v), "V"),
-        (
-            "Secondary AC (meter)",
-            "secondary_rms_v",
-            Some(f.secondary_rms_v),
-            "V",
-        ),
-    ]
+    Figure::ALL
+        .iter()
+        .map(|fig| (fig.label(), fig.key(), fig.of(f), fig.unit()))
+        .collect()
 }
 
 /// The filter as a technician orders its parts: capacitances in microfarads with the voltage
@@ -216,7 +180,8 @@ impl Report {
             "Figure", "Nominal", "Worst min", "", "Worst max", ""
         ));
         for (label, name, value, unit) in figure_rows(&self.nominal.figures) {
-            let (lo, lo_at, hi, hi_at) = match self.worst.extent(name) {
+            let figure = Figure::from_key(name).expect("a figure of the table");
+            let (lo, lo_at, hi, hi_at) = match self.worst.extent(figure) {
                 Some(e) => (
                     show(Some(e.min), unit),
                     letter(&e.min_at),

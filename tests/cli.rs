@@ -314,7 +314,12 @@ fn size_is_the_smallest_preferred_value_that_meets_the_target() {
     let mut s = railcheck::supply::Supply::from_toml_str(&text).unwrap();
     s.filter.uf = Some(e12_values[i - 1]);
     let wc = railcheck::analysis::worst_case::worst_case(&s).unwrap();
-    assert!(wc.extent("ripple_pp_v").unwrap().max > 0.5);
+    assert!(
+        wc.extent(railcheck::circuit::Figure::from_key("ripple_pp_v").unwrap())
+            .unwrap()
+            .max
+            > 0.5
+    );
 }
 
 #[test]

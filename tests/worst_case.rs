@@ -60,7 +60,9 @@ fn worst_case_brackets_the_ngspice_corners() {
                 .iter()
                 .map(|r| r[figure])
                 .fold(f64::NEG_INFINITY, f64::max);
-            let e = wc.extent(figure).unwrap();
+            let e = wc
+                .extent(railcheck::circuit::Figure::from_key(figure).unwrap())
+                .unwrap();
             assert!(
                 e.min <= spice_min * (1.0 + slack) && e.max >= spice_max * (1.0 - slack),
                 "{case} {figure}: engine {:.4}..{:.4} does not bracket ngspice {spice_min:.4}..{spice_max:.4}",
@@ -152,7 +154,7 @@ fn regulator_headroom_fails_at_11_5_v_and_passes_at_9_5_v_over_a_10_8_v_valley()
     let valley = |ratio: f64| {
         worst_case(&bridge(ratio, "", ""))
             .unwrap()
-            .extent("min_v")
+            .extent(railcheck::circuit::Figure::from_key("min_v").unwrap())
             .unwrap()
             .min
     };
@@ -274,7 +276,10 @@ fn every_rated_check_turns_on_its_limit() {
         "[regulator]\noutput_v = 12.0\ndropout_v = 2.0",
     ))
     .unwrap();
-    let dc_max = wc.extent("dc_v").unwrap().max;
+    let dc_max = wc
+        .extent(railcheck::circuit::Figure::from_key("dc_v").unwrap())
+        .unwrap()
+        .max;
     assert!(
         worst <= (dc_max - 12.0) * 0.5 + 1e-9 && worst > 0.0,
         "{worst} against {dc_max}"
@@ -351,7 +356,9 @@ fn the_seeded_spread_lies_inside_the_hard_limits_and_repeats() {
     assert_eq!(a, b, "the same seed gives the same spread");
     let mut passed: f64 = 0.0;
     for (name, p) in &a {
-        let e = wc.extent(name).unwrap();
+        let e = wc
+            .extent(railcheck::circuit::Figure::from_key(name).unwrap())
+            .unwrap();
         let scale = e.max.abs().max(1e-9);
         passed = passed
             .max((e.min - p.p1) / scale)
@@ -362,7 +369,9 @@ fn the_seeded_spread_lies_inside_the_hard_limits_and_repeats() {
         100.0 * passed.max(0.0)
     );
     for (name, p) in &a {
-        let e = wc.extent(name).unwrap();
+        let e = wc
+            .extent(railcheck::circuit::Figure::from_key(name).unwrap())
+            .unwrap();
         // Every sample lies in the box, so its percentiles lie within the hard limits and in
         // order; the limits come from a grid of points, and a figure that bottoms out between
         // them (the diode's peak current can) may be passed by up to half a percent.
@@ -375,6 +384,8 @@ fn the_seeded_spread_lies_inside_the_hard_limits_and_repeats() {
     }
     // A spread is narrower than the hard limits for the DC: corners are rare.
     let (_, dc) = a.iter().find(|(n, _)| *n == "dc_v").unwrap();
-    let e = wc.extent("dc_v").unwrap();
+    let e = wc
+        .extent(railcheck::circuit::Figure::from_key("dc_v").unwrap())
+        .unwrap();
     assert!(dc.p99 - dc.p1 < e.max - e.min);
 }

@@ -1,7 +1,7 @@
 //! Rating checks: each part's rating against the worst it sees over the tolerance box.
 
 use super::worst_case::WorstCase;
-use crate::circuit::Figures;
+use crate::circuit::{Figure, Figures};
 use crate::supply::{Supply, Topology};
 use serde::Serialize;
 
@@ -101,7 +101,7 @@ pub fn checks(
     } else {
         "high line, lightest load"
     };
-    let max_of = |name: &str| wc.extent(name).map(|e| (e.max, e.max_at.clone()));
+    let max_of = |figure: Figure| wc.extent(figure).map(|e| (e.max, e.max_at.clone()));
     let f = &supply.filter;
     let filtered = f.kind != crate::supply::FilterKind::None;
     if filtered {
@@ -123,7 +123,7 @@ pub fn checks(
             }
             None => not_rated.push("cap-voltage"),
         }
-        match (f.rated_ripple_a, max_of("cap_ripple_rms_a")) {
+        match (f.rated_ripple_a, max_of(Figure::CapRippleRmsA)) {
             (Some(rated), Some((v, at))) => out.push(at_most(
                 "cap-ripple-current",
                 v,
@@ -140,7 +140,7 @@ pub fn checks(
         Some(rated) => {
             let piv = stress
                 .diode_piv_v
-                .max(max_of("diode_piv_v").map_or(0.0, |m| m.0));
+                .max(max_of(Figure::DiodePivV).map_or(0.0, |m| m.0));
             out.push(at_most(
                 "diode-piv",
                 piv,
@@ -152,7 +152,7 @@ pub fn checks(
         }
         None => not_rated.push("diode-piv"),
     }
-    match (r.rated_a, max_of("diode_avg_a")) {
+    match (r.rated_a, max_of(Figure::DiodeAvgA)) {
         (Some(rated), Some((v, at))) => out.push(at_most(
             "diode-current",
             v,
@@ -175,7 +175,7 @@ pub fn checks(
         // With no winding resistance or ESR given nothing bounds the surge to check against.
         (Some(_), None) | (None, _) => not_rated.push("diode-surge"),
     }
-    match (supply.transformer.rated_va, max_of("winding_va")) {
+    match (supply.transformer.rated_va, max_of(Figure::WindingVa)) {
         (Some(rated), Some((v, at))) => out.push(at_most(
             "transformer-va",
             v,
@@ -188,7 +188,7 @@ pub fn checks(
     }
     if let Some(reg) = &supply.regulator {
         let need = reg.output_v + reg.dropout_v;
-        if let Some(e) = wc.extent("min_v") {
+        if let Some(e) = wc.extent(Figure::MinV) {
             out.push(at_least(
                 "regulator-headroom",
                 e.min,

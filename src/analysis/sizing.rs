@@ -2,7 +2,7 @@
 //! headroom target at the worst case, with the voltage rating and ripple current it needs.
 
 use super::worst_case::{voltage_stress, worst_case};
-use crate::circuit::CircuitError;
+use crate::circuit::{CircuitError, Figure};
 use crate::supply::{FilterKind, Supply};
 use serde::Serialize;
 
@@ -137,9 +137,11 @@ pub fn size(supply: &Supply, target: Target) -> Result<Vec<Sized>, SizingError> 
             }
             Err(e) => return Err(e.into()),
         };
-        let ripple = wc.extent("ripple_pp_v").map_or(f64::INFINITY, |e| e.max);
-        let valley = wc.extent("min_v").map_or(0.0, |e| e.min);
-        let ripple_a = wc.extent("cap_ripple_rms_a").map_or(0.0, |e| e.max);
+        let ripple = wc
+            .extent(Figure::RipplePpV)
+            .map_or(f64::INFINITY, |e| e.max);
+        let valley = wc.extent(Figure::MinV).map_or(0.0, |e| e.min);
+        let ripple_a = wc.extent(Figure::CapRippleRmsA).map_or(0.0, |e| e.max);
         let meets = match target {
             Target::RipplePp(v) => ripple <= v,
             Target::Headroom(_) | Target::MinValley(_) => valley >= need_valley,

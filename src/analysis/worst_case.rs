@@ -476,11 +476,11 @@ impl WorstCase {
         Some((self.solved[i].0.as_str(), self.conditions[i]))
     }
 
-    /// The extent of the figure named `name` (a [`Figures::named`] name).
-    pub fn extent(&self, name: &str) -> Option<&Extent> {
+    /// The extent of `figure`.
+    pub fn extent(&self, figure: crate::circuit::Figure) -> Option<&Extent> {
         self.extents
             .iter()
-            .find(|(n, _)| *n == name)
+            .find(|(n, _)| *n == figure.key())
             .map(|(_, e)| e)
     }
 }

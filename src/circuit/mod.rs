@@ -5,6 +5,7 @@
 #![deny(clippy::wildcard_enum_match_arm)]
 mod build;
 pub mod diode;
+mod figure;
 mod figures;
 pub mod network;
 mod paper;
@@ -13,6 +14,7 @@ pub mod waveform;
 pub mod winding;
 
 pub use build::{Conditions, LoadOverride, network};
+pub use figure::Figure;
 pub use figures::Figures;
 pub use paper::{
     BELOW_THE_DROPS, BEYOND_THE_WINDING, HandEstimate, hand_differences, hand_estimate,

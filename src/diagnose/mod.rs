@@ -502,11 +502,14 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             mains_term += (out / meter_uncertainty(k, v)).powi(2);
             continue;
         }
-        let name = match k {
-            "secondary_vac" => "secondary_rms_v",
-            other => other,
+        // A reading is the figure of the same name, the secondary's AC excepted.
+        let figure = match k {
+            "secondary_vac" => Some(circuit::Figure::SecondaryRmsV),
+            other => circuit::Figure::from_key(other),
         };
-        let Some(e) = wc.extent(name) else { continue };
+        let Some(e) = figure.and_then(|f| wc.extent(f)) else {
+            continue;
+        };
         let nom = predicted(&nominal, k, &base, supply);
         expectations.push(window(k, v, nom, e.min, e.max));
     }

@@ -314,7 +314,7 @@ pub fn limit_uf(supply: &Supply) -> (f64, String) {
             s.filter.uf = Some(c);
             worst_case(&s)
                 .ok()
-                .and_then(|w| w.extent("min_v").map(|e| e.min))
+                .and_then(|w| w.extent(crate::circuit::Figure::MinV).map(|e| e.min))
                 .unwrap_or(0.0)
         };
         if valley(uf) >= need {

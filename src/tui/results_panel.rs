@@ -6,6 +6,7 @@ use super::app::{App, Open, Panel};
 use super::style::{Look, sig3, wrap_words};
 use super::worker::{JUDGED_VISITS, Judgement};
 use crate::analysis::checks::Status;
+use crate::circuit::Figure;
 use crate::units::{format_si, format_uf};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -27,20 +28,20 @@ fn show(v: Option<f64>, unit: &str) -> String {
 
 /// The figures the panel lists, most asked-for first; the secondary AC is what a meter
 /// across the winding reads (RMS, whole winding).
-const ROWS: [(&str, &str, &str); 13] = [
-    ("DC", "dc_v", "V"),
-    ("Ripple p-p", "ripple_pp_v", "V"),
-    ("Valley", "min_v", "V"),
-    ("Crest", "max_v", "V"),
-    ("Ripple RMS", "ripple_rms_v", "V"),
-    ("Secondary AC", "secondary_rms_v", "V"),
-    ("Load", "load_a", "A"),
-    ("Diode peak", "diode_peak_a", "A"),
-    ("Diode rev.", "diode_piv_v", "V"),
-    ("Winding RMS", "winding_rms_a", "A"),
-    ("Winding VA", "winding_va", "VA"),
-    ("Cap ripple", "cap_ripple_rms_a", "A"),
-    ("Surge", "inrush_peak_a", "A"),
+const ROWS: [Figure; 13] = [
+    Figure::DcV,
+    Figure::RipplePpV,
+    Figure::MinV,
+    Figure::MaxV,
+    Figure::RippleRmsV,
+    Figure::SecondaryRmsV,
+    Figure::LoadA,
+    Figure::DiodePeakA,
+    Figure::DiodePivV,
+    Figure::WindingRmsA,
+    Figure::WindingVa,
+    Figure::CapRippleRmsA,
+    Figure::InrushPeakA,
 ];
 
 /// A reading's words and unit on screen, by its visit key.
@@ -226,8 +227,9 @@ impl Widget for &ResultsPanel<'_> {
             ),
             look.heading(),
         ));
-        for (label, name, unit) in ROWS {
-            let e = solved.worst.extent(name);
+        for figure in ROWS {
+            let (label, name, unit) = (figure.short(), figure.key(), figure.unit());
+            let e = solved.worst.extent(figure);
             let last = match before {
                 // What-if: the change against the saved supply.
                 Some(b) => {
