@@ -202,44 +202,92 @@ pub enum DiodeParams {
     },
 }
 
+/// A named diode the file can give as `diode = "NAME"`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Preset {
+    pub name: &'static str,
+    /// The law at 27 degC (a junction's temperature is the file's `temp_c`).
+    pub law: DiodeParams,
+    /// The drop the paper estimate takes for it, volts (the textbook's round figure).
+    pub paper_drop_v: f64,
+}
+
+/// Every preset, in the order the form offers them. One table: the law, the name the file
+/// uses and the paper estimate's drop.
+pub const PRESETS: [Preset; 4] = [
+    // Junction parameters near a generic 1 A silicon rectifier's simulator model (domain
+    // notes, memory): 0.9 V at 1 A.
+    Preset {
+        name: "silicon",
+        law: DiodeParams::Junction {
+            is_a: 7.0e-9,
+            n: 1.8,
+            rs_ohms: 0.034,
+            temp_c: 27.0,
+        },
+        paper_drop_v: 0.7,
+    },
+    // Fast-recovery silicon: about 1.0 V at 1 A (our own round figures).
+    Preset {
+        name: "fast",
+        law: DiodeParams::Junction {
+            is_a: 1.0e-8,
+            n: 2.0,
+            rs_ohms: 0.06,
+            temp_c: 27.0,
+        },
+        paper_drop_v: 0.7,
+    },
+    // Schottky: about 0.37 V at 1 A, inside the 0.3-0.6 V of practice.
+    Preset {
+        name: "schottky",
+        law: DiodeParams::Junction {
+            is_a: 1.0e-5,
+            n: 1.05,
+            rs_ohms: 0.05,
+            temp_c: 27.0,
+        },
+        paper_drop_v: 0.4,
+    },
+    Preset {
+        name: "ideal",
+        law: DiodeParams::Fixed {
+            drop_v: 0.0,
+            ohms: 0.0,
+        },
+        paper_drop_v: 0.0,
+    },
+];
+
+/// The preset called `name`.
+pub fn preset(name: &str) -> Option<&'static Preset> {
+    PRESETS.iter().find(|p| p.name == name)
+}
+
 impl crate::supply::Supply {
     /// The diode law parameters after presets are resolved.
     pub fn rectifier_diode(&self) -> Result<DiodeParams, SupplyError> {
         let temp_c = self.rectifier.temp_c.unwrap_or(27.0);
         let params = match &self.rectifier.diode {
-            DiodeSpec::Preset(name) => match name.as_str() {
-                // Junction parameters near a generic 1 A silicon rectifier's simulator model
-                // (domain notes, memory): 0.9 V at 1 A.
-                "silicon" => DiodeParams::Junction {
-                    is_a: 7.0e-9,
-                    n: 1.8,
-                    rs_ohms: 0.034,
+            DiodeSpec::Preset(name) => match preset(name).map(|p| p.law) {
+                Some(DiodeParams::Junction {
+                    is_a, n, rs_ohms, ..
+                }) => DiodeParams::Junction {
+                    is_a,
+                    n,
+                    rs_ohms,
                     temp_c,
                 },
-                // Fast-recovery silicon: about 1.0 V at 1 A (our own round figures).
-                "fast" => DiodeParams::Junction {
-                    is_a: 1.0e-8,
-                    n: 2.0,
-                    rs_ohms: 0.06,
-                    temp_c,
-                },
-                // Schottky: about 0.37 V at 1 A, inside the 0.3-0.6 V of practice.
-                "schottky" => DiodeParams::Junction {
-                    is_a: 1.0e-5,
-                    n: 1.05,
-                    rs_ohms: 0.05,
-                    temp_c,
-                },
-                "ideal" => DiodeParams::Fixed {
-                    drop_v: 0.0,
-                    ohms: 0.0,
-                },
-                other => {
+                Some(fixed @ DiodeParams::Fixed { .. }) => fixed,
+                None => {
+                    let names: Vec<&str> = PRESETS.iter().map(|p| p.name).collect();
                     return Err(SupplyError::out_of_range(
                         "rectifier.diode",
-                        format!("{other:?}"),
-                        "silicon, fast, schottky or ideal, or a table \
-                         { drop_v, ohms } or { is_a, n, rs_ohms }",
+                        format!("{name:?}"),
+                        format!(
+                            "{}, or a table {{ drop_v, ohms }} or {{ is_a, n, rs_ohms }}",
+                            names.join(", ")
+                        ),
                     ));
                 }
             },

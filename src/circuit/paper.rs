@@ -45,10 +45,11 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
     let winding = supply.winding()?;
     let topology = supply.rectifier.topology;
     let drop = match &supply.rectifier.diode {
-        crate::supply::DiodeSpec::Preset(p) if p == "schottky" => 0.4,
-        crate::supply::DiodeSpec::Preset(p) if p == "ideal" => 0.0,
+        crate::supply::DiodeSpec::Preset(p) => {
+            super::diode::preset(p).map_or(0.7, |p| p.paper_drop_v)
+        }
         crate::supply::DiodeSpec::Fixed { drop_v, .. } => *drop_v,
-        crate::supply::DiodeSpec::Preset(_) | crate::supply::DiodeSpec::Junction { .. } => 0.7,
+        crate::supply::DiodeSpec::Junction { .. } => 0.7,
     };
     let secondary_peak = supply.mains.vrms / winding.ratio * supply.mains.crest();
     let (share, diodes) = match topology {

@@ -239,14 +239,15 @@ pub fn index_of(path: &str) -> Option<usize> {
 /// How a line break of the notes shows on the form's one line.
 const NEWLINE: &str = " | ";
 
-const DIODES: [&str; 6] = [
-    "silicon",
-    "fast",
-    "schottky",
-    "ideal",
-    "fixed drop",
-    "junction",
-];
+/// The diode row's words: the presets, then the two laws a technician can give.
+fn diode_words() -> Vec<&'static str> {
+    let mut words: Vec<&str> = crate::circuit::diode::PRESETS
+        .iter()
+        .map(|p| p.name)
+        .collect();
+    words.extend(["fixed drop", "junction"]);
+    words
+}
 
 /// A change the form made, ready to apply.
 #[derive(Debug, Clone, PartialEq)]
@@ -317,7 +318,7 @@ impl Field {
     pub fn words(&self) -> Vec<&'static str> {
         match self.edit {
             Edit::Choice(Choice::Topology) => Topology::ALL.iter().map(|t| t.key()).collect(),
-            Edit::Choice(Choice::Diode) => DIODES.to_vec(),
+            Edit::Choice(Choice::Diode) => diode_words(),
             Edit::Choice(Choice::FilterKind) => FilterKind::ALL.iter().map(|k| k.key()).collect(),
             Edit::Choice(Choice::TransformerForm) => vec!["ratio", "nameplate"],
             Edit::Choice(Choice::LoadKind) => vec!["resistance", "current"],
