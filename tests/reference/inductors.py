@@ -49,7 +49,9 @@ Columns (all over the last mains period in steady state):
                   1e-6 of its own peak, the crossings interpolated linearly between ngspice's
                   points, times 360 / period;
   ripple_hz       the stronger of the line-frequency and twice-line components of the output
-                  (generate.py's dominant_ripple);
+                  (generate.py's dominant_ripple), written as the line frequency or twice it;
+The period's ends are interpolated between ngspice's points, so each integral spans exactly
+one mains period.
   load_a          the load's average current.
 
 Textbook relations the Rust tests check against (standard choke-input and pi-filter
@@ -340,8 +342,23 @@ def conduction_deg(seg, T):
     return 360.0 * on / T
 
 
+def at(rows, t):
+    """Every column linearly interpolated at time t between ngspice's points (t within a
+    tenth of a microsecond past the last point, wrdata's rounding of tstop, takes the last
+    point: ngspice's steps are microseconds)."""
+    if rows[-1][0] < t <= rows[-1][0] + 1e-7:
+        return [t] + rows[-1][1:]
+    for a, b in zip(rows, rows[1:]):
+        if a[0] <= t <= b[0]:
+            u = 0.0 if b[0] == a[0] else (t - a[0]) / (b[0] - a[0])
+            return [x + u * (y - x) for x, y in zip(a, b)]
+    raise ValueError(f"time {t} outside the stored points")
+
+
 def figures(rows, t0, t1, c):
-    seg = [r for r in rows if t0 - 1e-12 <= r[0] <= t1 + 1e-12]
+    # The period's ends interpolated, so the integrals span exactly one period (selecting
+    # ngspice's points inside it, as generate.py does, leaves out up to one step: 0.025 %).
+    seg = [at(rows, t0)] + [r for r in rows if t0 < r[0] < t1] + [at(rows, t1)]
     T = seg[-1][0] - seg[0][0]
 
     def integ(fn):
@@ -365,7 +382,8 @@ def figures(rows, t0, t1, c):
         choke_rms_a=None, choke_peak_a=None, choke_dc_drop_v=None, choke_min_a=None,
         choke_avg_a=None,
         conduction_deg=conduction_deg(seg, T),
-        ripple_hz=dominant_ripple(seg, 1.0 / T),
+        # generate.py's rule; the line frequency or exactly twice it.
+        ripple_hz=c["hz"] * (1 if dominant_ripple(seg, 1.0 / T) < 1.5 / T else 2),
         load_a=c["amps"] if c["amps"] is not None else dc / c["ohms"],
     )
     if len(seg[0]) > 6:
