@@ -78,6 +78,13 @@ pub trait PeriodicCircuit {
     fn line_period_s(&self) -> f64;
     /// Volts that set the scale of the tolerances (the winding's peak).
     fn volts_scale(&self) -> f64;
+    /// The size of state `i` against a capacitor voltage, in its unit per volt: its error
+    /// tolerance, its difference increments and its share of Newton's step norms are a
+    /// voltage's times this. 1 for a capacitor voltage (the default); an inductor current
+    /// would give amps per volt, say the reciprocal of its path's resistance.
+    fn state_scale(&self, _i: usize) -> f64 {
+        1.0
+    }
     /// The smallest voltage change that matters, volts: a small part of the expected ripple,
     /// since the charge a period moves is the ripple times the capacitance.
     fn volts_resolution(&self) -> f64;

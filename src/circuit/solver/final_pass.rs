@@ -93,7 +93,9 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
             breaks.sort_by(f64::total_cmp);
         }
         let mut atol = [f64::INFINITY; WIDTH];
-        atol[..n].fill(tolerance_v(c));
+        for i in 0..n {
+            atol[i] = tolerance_v(c) * c.state_scale(i);
+        }
         let charge = 1e-6 * first.i_load.abs().max(1e-9) * period;
         atol[n] = tolerance_v(c) * period;
         for q in [2, 6, 7] {

@@ -103,6 +103,8 @@ pub(super) struct Run {
     pub(super) method: Method,
     /// Volts that set the finite-difference increments of the stiff formula's Jacobian.
     pub(super) volts: f64,
+    /// Each state's scale against a voltage ([`super::PeriodicCircuit::state_scale`]).
+    pub(super) scales: [f64; MAX_STATES],
     /// Longest explicit step that is stable throughout the period, seconds.
     pub(super) h_stable: f64,
     /// Derivative evaluations (one circuit evaluation each) and accepted steps, in all.
@@ -205,7 +207,7 @@ impl Jacobian {
         t: f64,
         y: &Vector,
         f0: &Vector,
-        (volts, period): (f64, f64),
+        (volts, scales, period): (f64, &[f64; MAX_STATES], f64),
     ) -> Jacobian
     where
         F: FnMut(f64, &Vector, &mut Vector) -> Probe,
@@ -216,7 +218,7 @@ impl Jacobian {
         for j in 0..states {
             // The square root of the rounding unit times the voltage's size: the usual forward
             // difference increment.
-            let delta = 1.5e-8 * y[j].abs().max(volts);
+            let delta = 1.5e-8 * y[j].abs().max(volts * scales[j]);
             probe_y[j] = y[j] + delta;
             let delta = probe_y[j] - y[j];
             f(t, &probe_y, &mut fp);
@@ -471,7 +473,15 @@ where
                     _ => {
                         since_refresh = 0;
                         fresh_here = true;
-                        Jacobian::at(n, states, &mut f, t, y, &k[0], (run.volts, t1 - t0))
+                        Jacobian::at(
+                            n,
+                            states,
+                            &mut f,
+                            t,
+                            y,
+                            &k[0],
+                            (run.volts, &run.scales, t1 - t0),
+                        )
                     }
                 };
                 let (head, tail) = k.split_at_mut(6);
@@ -604,6 +614,147 @@ pub(super) fn hermite(y0: f64, f0: f64, y1: f64, f1: f64, h: f64, s: f64) -> f64
 #[cfg(test)]
 mod tests {
     use super::*;
+    use std::f64::consts::TAU;
+
+    /// A fresh run with the given formula and first step, seconds.
+    fn run_with(method: Method, h0: f64) -> Run {
+        Run {
+            h0,
+            method,
+            volts: 1.0,
+            scales: [1.0; MAX_STATES],
+            h_stable: f64::INFINITY,
+            evaluations: 0,
+            steps: 0,
+        }
+    }
+
+    /// The probe the test problems report: nothing switches.
+    fn quiet() -> Probe {
+        Probe {
+            edges: [f64::NAN; EDGES],
+            ..Probe::default()
+        }
+    }
+
+    /// Integrates `f` from 0 to `t1` under error control with absolute tolerance `atol` on
+    /// the first `n` components; returns the end state and, for every accepted step, the
+    /// Hermite interpolant at its middle as (instant, first component).
+    fn solve<F>(
+        n: usize,
+        f: F,
+        y0: &[f64],
+        t1: f64,
+        atol: f64,
+        run: &mut Run,
+    ) -> (Vector, Vec<(f64, f64)>)
+    where
+        F: Fn(f64, &Vector, &mut Vector),
+    {
+        let mut y = [0.0; WIDTH];
+        y[..n].copy_from_slice(y0);
+        let mut g = |t: f64, y: &Vector, dy: &mut Vector| {
+            f(t, y, dy);
+            quiet()
+        };
+        let mut grid = Vec::new();
+        let mut mids = Vec::new();
+        let outcome = integrate(
+            n,
+            n,
+            n,
+            &mut g,
+            0.0,
+            t1,
+            &mut y,
+            run,
+            &[atol; WIDTH],
+            &[],
+            Steps::Adaptive(&mut grid),
+            |t, h, (y0, f0, y1, f1), _, _| {
+                mids.push((t + 0.5 * h, hermite(y0[0], f0[0], y1[0], f1[0], h, 0.5)));
+            },
+        )
+        .unwrap();
+        assert_eq!(outcome, Outcome::Done);
+        assert_eq!(grid.len(), run.steps, "every accepted step is recorded");
+        (y, mids)
+    }
+
+    #[test]
+    fn exponential_decay_and_its_interpolant_match_the_exact_solution() {
+        // y' = -y / tau, y(0) = 1: y(t) = exp(-t / tau) (any calculus text).
+        let tau = 0.25;
+        let mut run = run_with(Method::Explicit, 1e-3);
+        let decay = |_t: f64, y: &Vector, dy: &mut Vector| dy[0] = -y[0] / tau;
+        let (y, mids) = solve(1, decay, &[1.0], 1.0, 1e-9, &mut run);
+        let exact = (-4.0f64).exp();
+        assert!((y[0] - exact).abs() < 1e-8, "{} against {exact}", y[0]);
+        // The dense output between step ends: the cubic Hermite is third order, so it holds to
+        // about the step's own error.
+        let worst = mids
+            .iter()
+            .map(|&(t, v)| (v - (-t / tau).exp()).abs())
+            .fold(0.0, f64::max);
+        assert!(worst < 1e-7, "interpolant off by {worst}");
+        // A smooth problem needs few steps: MIN_STEPS caps them at 1/24 of the span.
+        assert!(run.steps >= 24 && run.steps < 200, "{} steps", run.steps);
+    }
+
+    #[test]
+    fn a_harmonic_oscillator_comes_back_after_one_period() {
+        // y'' = -w^2 y as two states: y(t) = cos(w t), y'(t) = -w sin(w t).
+        let w = TAU * 50.0;
+        let period = TAU / w;
+        let mut run = run_with(Method::Explicit, period / 64.0);
+        let spring = |_t: f64, y: &Vector, dy: &mut Vector| {
+            dy[0] = w * y[1];
+            dy[1] = -w * y[0];
+        };
+        // The second state is y' / w, so both have the size 1 and one tolerance suits them.
+        let (y, mids) = solve(2, spring, &[1.0, 0.0], period, 1e-10, &mut run);
+        assert!((y[0] - 1.0).abs() < 1e-8, "y(T) = {}", y[0]);
+        assert!(y[1].abs() < 1e-8, "y'(T) / w = {}", y[1]);
+        let worst = mids
+            .iter()
+            .map(|&(t, v)| (v - (w * t).cos()).abs())
+            .fold(0.0, f64::max);
+        assert!(worst < 1e-7, "interpolant off by {worst}");
+    }
+
+    #[test]
+    fn the_stiff_formula_follows_a_fast_low_pass_in_few_steps() {
+        // dv/dt = (sin wt - v) / tau with tau = 20 ns against a 20 ms period: the periodic
+        // solution is (sin wt - w tau cos wt) / (1 + (w tau)^2) (the first-order low-pass,
+        // any circuits text). The explicit pair would need about 3 million steps.
+        let (w, tau) = (TAU * 50.0, 2e-8);
+        let wt = w * tau;
+        let exact = |t: f64| ((w * t).sin() - wt * (w * t).cos()) / (1.0 + wt * wt);
+        let mut run = run_with(Method::Stiff, 0.02 / 64.0);
+        let rc = |t: f64, y: &Vector, dy: &mut Vector| dy[0] = ((w * t).sin() - y[0]) / tau;
+        let (y, _) = solve(1, rc, &[exact(0.0)], 0.02, 1e-7, &mut run);
+        // The filtered error estimate lets the state drift from its exact path by a few
+        // times the tolerance where h / tau is large (see `rosenbrock_step`).
+        assert!(
+            (y[0] - exact(0.02)).abs() < 1e-5,
+            "{} against {}",
+            y[0],
+            exact(0.02)
+        );
+        assert!(run.steps < 5_000, "{} steps", run.steps);
+        assert!(run.evaluations < 30_000, "{} evaluations", run.evaluations);
+    }
+
+    #[test]
+    fn first_crossing_finds_the_earliest_sign_change() {
+        let nan = f64::NAN;
+        // Edge 0 from 1 to -1 crosses at 0.5; edge 2 from -3 to 1 crosses at 0.75.
+        assert_eq!(
+            first_crossing(&[1.0, nan, -3.0], &[-1.0, nan, 1.0]),
+            Some(0.5)
+        );
+        assert_eq!(first_crossing(&[1.0, nan, 2.0], &[0.5, nan, 1.0]), None);
+    }
 
     #[test]
     fn lu_solves_a_pivoting_system() {

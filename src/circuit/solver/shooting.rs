@@ -20,7 +20,10 @@ fn period_map<Ckt: PeriodicCircuit + ?Sized>(
         edges: c.derivatives(t, &y[..n], &mut dy[..n]),
         ..Probe::default()
     };
-    let atol = [tolerance_v(c); WIDTH];
+    let mut atol = [tolerance_v(c); WIDTH];
+    for i in 0..n {
+        atol[i] *= run.scales[i];
+    }
     let breaks = c.breakpoints_s();
     let mut own_grid = Vec::new();
     let mut under_control = false;
@@ -84,11 +87,12 @@ fn choose_method<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt, x: &[f64], run: &mut Ru
         for j in 0..n {
             let mut xp = [0.0; MAX_STATES];
             xp[..n].copy_from_slice(x);
-            let delta = 1.5e-8 * x[j].abs().max(run.volts);
+            let delta = 1.5e-8 * x[j].abs().max(run.volts * run.scales[j]);
             xp[j] += delta;
             c.derivatives(t, &xp[..n], &mut fp[..n]);
             for i in 0..n {
-                rows[i] += ((fp[i] - f0[i]) / delta).abs();
+                // The norm of the scaled system, where every state counts as a voltage.
+                rows[i] += ((fp[i] - f0[i]) / delta).abs() * run.scales[j] / run.scales[i];
             }
         }
         run.evaluations += n + 1;
@@ -144,10 +148,15 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
     let scale = c.volts_scale().max(1e-6);
     let mut x = vec![0.0; n];
     c.initial_guess(&mut x);
+    let mut scales = [1.0; MAX_STATES];
+    for (i, s) in scales.iter_mut().enumerate().take(n) {
+        *s = c.state_scale(i);
+    }
     let mut run = Run {
         h0: c.period_s() / 64.0,
         method: Method::Explicit,
         volts: scale,
+        scales,
         h_stable: f64::INFINITY,
         evaluations: 0,
         steps: 0,
@@ -163,17 +172,10 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
         let mut g = sub(&period_map(c, &x, run, Steps::Adaptive(&mut grid))?, &x);
         integrations += 1;
         // Finite-difference Jacobian of G(x) = Phi(x) - x to start; Broyden keeps it after.
-        let mut jac = [[0.0; MAX_STATES]; MAX_STATES];
-        let delta = 1e-5 * scale;
-        for j in 0..n {
-            let mut xp = x.clone();
-            xp[j] += delta;
-            let gp = sub(&period_map(c, &xp, run, Steps::Replay(&grid))?, &xp);
+        let mut jac = difference_jacobian(&x, &g, 1e-5 * scale, &scales, |xp| {
             integrations += 1;
-            for i in 0..n {
-                jac[i][j] = (gp[i] - g[i]) / delta;
-            }
-        }
+            Ok(sub(&period_map(c, xp, run, Steps::Replay(&grid))?, xp))
+        })?;
         let limit = 60;
         let tol = tolerance_v(c);
         // Whether `g` came from an error-controlled pass at the present `x`.
@@ -194,7 +196,7 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
                 step = g.clone();
             }
             // Never step further than the winding's peak: the map is only piecewise smooth.
-            let longest = step.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+            let longest = scaled_norm(&step, &scales);
             if longest > scale {
                 for s in step.iter_mut() {
                     *s *= scale / longest;
@@ -207,7 +209,7 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
             // capacitor forgets little), so an error-controlled period must come back to
             // within 300 tolerances of where it started: 3e-4 of the ripple, a charge balance
             // good to 0.03 %.
-            let worst_g = g.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+            let worst_g = scaled_norm(&g, &scales);
             if (fresh && worst_g <= 300.0 * tol) || (!fresh && longest <= 1e-2 * tol) {
                 break;
             }
@@ -272,7 +274,7 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
     let tol = tolerance_v(c);
     let gap =
         |s: &SteadyState| -> Vec<f64> { s.end.iter().zip(&s.start).map(|(e, b)| e - b).collect() };
-    let worst = |g: &[f64]| g.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    let worst = |g: &[f64]| scaled_norm(g, &scales);
     let mut g = gap(&state);
     // A replay with the stiff formula can run away where a diode turns within a step that the
     // error control no longer watches; the error-controlled pass then stands as the answer.
@@ -306,25 +308,18 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
                 integrations += 1;
                 g = gap(&state);
             }
-            let delta = 1e-6 * scale;
-            let mut jt = [[0.0; MAX_STATES]; MAX_STATES];
-            for j in 0..n {
-                let mut xp = x.clone();
-                xp[j] += delta;
-                let sp = match final_pass(c, &xp, run, Steps::Replay(&grid_t)) {
-                    Ok(s) => s,
-                    Err(SolveError::NotFinite) => {
-                        state = controlled.clone();
-                        break 'close;
-                    }
-                    Err(e) => return Err(e),
-                };
+            let jt = match difference_jacobian(&x, &g, 1e-6 * scale, &scales, |xp| {
+                let sp = final_pass(c, xp, run, Steps::Replay(&grid_t))?;
                 integrations += 1;
-                let gp = gap(&sp);
-                for i in 0..n {
-                    jt[i][j] = (gp[i] - g[i]) / delta;
+                Ok(gap(&sp))
+            }) {
+                Ok(jt) => jt,
+                Err(SolveError::NotFinite) => {
+                    state = controlled.clone();
+                    break 'close;
                 }
-            }
+                Err(e) => return Err(e),
+            };
             for _ in 0..8 {
                 let mut step: Vec<f64> = g.iter().map(|v| -v).collect();
                 let mut a = jt;
@@ -374,10 +369,7 @@ fn plain_periods<Ckt: PeriodicCircuit + ?Sized>(
             Err(_) => return Ok(None),
         };
         *integrations += 1;
-        let moved = next
-            .iter()
-            .zip(&x)
-            .fold(0.0f64, |m, (a, b)| m.max((a - b).abs()));
+        let moved = scaled_norm(&sub(&next, &x), &run.scales);
         x = next;
         if !x.iter().all(|v| v.is_finite()) {
             return Ok(None);
@@ -394,6 +386,40 @@ fn plain_periods<Ckt: PeriodicCircuit + ?Sized>(
 pub(super) fn tolerance_v<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> f64 {
     let scale = c.volts_scale().max(1e-6);
     (1e-6 * c.volts_resolution()).clamp(1e-10 * scale, 1e-7 * scale)
+}
+
+/// The largest of |v_i| / scale_i: a vector of state changes measured as volts.
+fn scaled_norm(v: &[f64], scales: &[f64; MAX_STATES]) -> f64 {
+    v.iter()
+        .zip(scales)
+        .fold(0.0f64, |m, (a, s)| m.max((a / s).abs()))
+}
+
+/// The forward-difference Jacobian of a residual G at `x` (the shooting mismatch of one map or
+/// another), with G(x) in `g`: column j from G at x plus `delta` times state j's scale. The
+/// residual's error (an integration that failed) ends it and is handed back.
+fn difference_jacobian<R>(
+    x: &[f64],
+    g: &[f64],
+    delta: f64,
+    scales: &[f64; MAX_STATES],
+    mut residual: R,
+) -> Result<[[f64; MAX_STATES]; MAX_STATES], SolveError>
+where
+    R: FnMut(&[f64]) -> Result<Vec<f64>, SolveError>,
+{
+    let n = x.len();
+    let mut jac = [[0.0; MAX_STATES]; MAX_STATES];
+    for j in 0..n {
+        let step = delta * scales[j];
+        let mut xp = x.to_vec();
+        xp[j] += step;
+        let gp = residual(&xp)?;
+        for i in 0..n {
+            jac[i][j] = (gp[i] - g[i]) / step;
+        }
+    }
+    Ok(jac)
 }
 
 fn sub(a: &[f64], b: &[f64]) -> Vec<f64> {
