@@ -50,8 +50,12 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     };
     let mut t_s = Vec::with_capacity(SAMPLES);
     let mut probes = Vec::with_capacity(SAMPLES);
-    // Probes at every step end as well as the even samples, so a crest between samples counts.
-    let mut extremes: Vec<Probe> = Vec::with_capacity(4 * SAMPLES);
+    // Probes at every step end and in the middle of every conducting step, in time order with
+    // their instants: where the extremes and the conduction edges are looked for, then found
+    // on the dense output between them.
+    let mut extremes: Vec<(f64, Probe)> = Vec::with_capacity(4 * SAMPLES);
+    let mut spans: Vec<Span> = Vec::with_capacity(2 * SAMPLES);
+    let mut stiff = false;
     let mut end = Vec::new();
     let dt = period / SAMPLES as f64;
     if n == 0 {
@@ -73,7 +77,7 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
             for (a, v) in acc.iter_mut().zip(integrands(&p, ripple_ref_v)) {
                 *a += w * v * h / 3.0;
             }
-            extremes.push(p);
+            extremes.push((t, p));
             if i < fine {
                 t_s.push(t);
                 probes.push(p);
@@ -104,10 +108,12 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         loop {
             let mut next = 0usize;
             let mut mids = 0usize;
-            let stiff = run.method == Method::Stiff;
+            stiff = run.method == Method::Stiff;
             t_s.clear();
             probes.clear();
             extremes.clear();
+            extremes.push((0.0, first));
+            spans.clear();
             y = [0.0; WIDTH];
             y[..n].copy_from_slice(x);
             let outcome = integrate(
@@ -124,8 +130,8 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
                 steps.again(),
                 |t, h, (y0, f0, y1, f1), start, end| {
                     // Steps are short wherever the waveform bends (the pulses), so the even
-                    // samples are drawn straight between step ends; the extremes come from the
-                    // step ends themselves.
+                    // samples are drawn straight between step ends; the extremes start from
+                    // the step ends and are sought between them after the pass.
                     while next < SAMPLES && (next as f64) * dt < t + h {
                         let ts = next as f64 * dt;
                         let s = ((ts - t) / h).clamp(0.0, 1.0);
@@ -133,7 +139,19 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
                         probes.push(start.towards(end, s));
                         next += 1;
                     }
-                    extremes.push(*end);
+                    let mut span = Span {
+                        t,
+                        h,
+                        y0: [0.0; MAX_STATES],
+                        f0: [0.0; MAX_STATES],
+                        y1: [0.0; MAX_STATES],
+                        f1: [0.0; MAX_STATES],
+                    };
+                    span.y0[..n].copy_from_slice(&y0[..n]);
+                    span.f0[..n].copy_from_slice(&f0[..n]);
+                    span.y1[..n].copy_from_slice(&y1[..n]);
+                    span.f1[..n].copy_from_slice(&f1[..n]);
+                    spans.push(span);
                     // A pulse's crest lies between step ends: look at the middle of each step in
                     // which a diode conducts, from the interpolated state.
                     if start.i_diode > 0.0 || end.i_diode > 0.0 {
@@ -148,9 +166,13 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
                             };
                         }
                         let mut dx = [0.0; MAX_STATES];
-                        extremes.push(c.evaluate(t + 0.5 * h, &mid[..n], &mut dx[..n]));
+                        extremes.push((
+                            t + 0.5 * h,
+                            c.evaluate(t + 0.5 * h, &mid[..n], &mut dx[..n]),
+                        ));
                         mids += 1;
                     }
+                    extremes.push((t + h, *end));
                 },
             )?;
             run.evaluations += mids;
@@ -163,16 +185,26 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         let q: Vec<f64> = y[n..n + QUADRATURES].to_vec();
         y[..QUADRATURES].copy_from_slice(&q);
     }
-    let (mut v_max, mut v_min) = (f64::NEG_INFINITY, f64::INFINITY);
-    let mut v_cap_max = f64::NEG_INFINITY;
-    let (mut i_peak, mut vr_max) = (0.0f64, f64::NEG_INFINITY);
-    for p in &extremes {
-        v_max = v_max.max(p.v_out);
-        v_min = v_min.min(p.v_out);
-        v_cap_max = v_cap_max.max(p.v_cap);
-        i_peak = i_peak.max(p.i_diode);
-        vr_max = vr_max.max(p.v_reverse);
-    }
+    // The crests and troughs lie between the probes: each is found on the dense output near
+    // the best probe, and the conduction edges between the probes that straddle them.
+    let mut dense = Dense {
+        c,
+        spans: &spans,
+        stiff,
+        period,
+        evaluations: 0,
+    };
+    let i_peak = dense.largest(&extremes, |p| p.i_diode).max(0.0);
+    let v_max = dense.largest(&extremes, |p| p.v_out);
+    let v_min = -dense.largest(&extremes, |p| -p.v_out);
+    let v_cap_max = dense.largest(&extremes, |p| p.v_cap);
+    let vr_max = dense.largest(&extremes, |p| p.v_reverse);
+    let conduction_fraction = if i_peak > 0.0 {
+        dense.share_above(&extremes, CONDUCTION_SHARE * i_peak, |p| p.i_diode)
+    } else {
+        0.0
+    };
+    run.evaluations += dense.evaluations;
     let mean = |i: usize| y[i] / period;
     let mean_v_out = mean(0);
     let state = SteadyState {
@@ -185,6 +217,7 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         v_cap_max,
         i_diode_peak: i_peak,
         v_reverse_max: vr_max,
+        conduction_fraction,
         mean_v_out,
         mean_i_diode: mean(2),
         mean_i_load: mean(6),
@@ -213,5 +246,173 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         Ok(state)
     } else {
         Err(SolveError::NotFinite)
+    }
+}
+
+/// A diode counts as conducting while its current exceeds this share of its peak: its
+/// exponential law leaves a trickle below any absolute level (the same threshold as
+/// tests/reference/generate.py's conduction angle).
+pub(super) const CONDUCTION_SHARE: f64 = 1e-3;
+/// Parabolic steps towards a crest: each gains about half again as many correct digits, and
+/// the three probes it starts from are a step or half a step apart.
+const CREST_STEPS: usize = 4;
+/// Regula falsi steps towards a conduction edge.
+const EDGE_STEPS: usize = 8;
+
+/// One accepted step of the final pass: enough to draw the states anywhere inside it.
+#[derive(Debug, Clone, Copy)]
+struct Span {
+    t: f64,
+    h: f64,
+    y0: [f64; MAX_STATES],
+    f0: [f64; MAX_STATES],
+    y1: [f64; MAX_STATES],
+    f1: [f64; MAX_STATES],
+}
+
+/// The solution between step ends (the integrator's dense output) and the circuit's probes on it.
+struct Dense<'a, Ckt: ?Sized> {
+    c: &'a Ckt,
+    /// The period's steps in order; none for a circuit without states.
+    spans: &'a [Span],
+    /// The stiff formula's steps are drawn straight: a fast state's derivatives are far too
+    /// large for a cubic through them to mean anything across the step. Otherwise the cubic
+    /// Hermite through each step's end values and slopes (third order).
+    stiff: bool,
+    period: f64,
+    /// Circuit evaluations spent.
+    evaluations: usize,
+}
+
+impl<Ckt: PeriodicCircuit + ?Sized> Dense<'_, Ckt> {
+    /// The probe at `t` seconds, from the interpolated state.
+    fn probe(&mut self, t: f64) -> Probe {
+        let n = self.c.states();
+        self.evaluations += 1;
+        if n == 0 || self.spans.is_empty() {
+            return self.c.evaluate(t, &[], &mut []);
+        }
+        let k = self
+            .spans
+            .partition_point(|s| s.t + s.h < t)
+            .min(self.spans.len() - 1);
+        let s = &self.spans[k];
+        let u = ((t - s.t) / s.h).clamp(0.0, 1.0);
+        let mut x = [0.0; MAX_STATES];
+        for i in 0..n {
+            x[i] = if self.stiff {
+                s.y0[i] + u * (s.y1[i] - s.y0[i])
+            } else {
+                hermite(s.y0[i], s.f0[i], s.y1[i], s.f1[i], s.h, u)
+            };
+        }
+        let mut dx = [0.0; MAX_STATES];
+        self.c.evaluate(t, &x[..n], &mut dx[..n])
+    }
+
+    /// The largest value `g` takes: the best of the time-ordered `samples`, then a few steps
+    /// of successive parabolic interpolation (Brent's, without the golden fallback) between
+    /// its neighbours. Every value kept is one the solution takes, so the result is never
+    /// below the best sample. A crest at either end of the period is left at the sample.
+    fn largest<G: Fn(&Probe) -> f64>(&mut self, samples: &[(f64, Probe)], g: G) -> f64 {
+        let Some(j) =
+            (0..samples.len()).max_by(|&a, &b| g(&samples[a].1).total_cmp(&g(&samples[b].1)))
+        else {
+            return f64::NAN;
+        };
+        let (mut m, mut fm) = (samples[j].0, g(&samples[j].1));
+        if j == 0 || j + 1 >= samples.len() {
+            return fm;
+        }
+        let (mut a, mut fa) = (samples[j - 1].0, g(&samples[j - 1].1));
+        let (mut b, mut fb) = (samples[j + 1].0, g(&samples[j + 1].1));
+        for _ in 0..CREST_STEPS {
+            // The vertex of the parabola through the three points.
+            let (p, q) = ((m - a) * (fm - fb), (m - b) * (fm - fa));
+            let den = p - q;
+            if den == 0.0 || !den.is_finite() {
+                break;
+            }
+            let u = m - 0.5 * ((m - a) * p - (m - b) * q) / den;
+            if !(u > a && u < b) || (u - m).abs() <= 1e-12 * self.period {
+                break;
+            }
+            let fu = g(&self.probe(u));
+            if !fu.is_finite() {
+                break;
+            }
+            if fu > fm {
+                if u < m {
+                    (b, fb) = (m, fm);
+                } else {
+                    (a, fa) = (m, fm);
+                }
+                (m, fm) = (u, fu);
+            } else if u < m {
+                (a, fa) = (u, fu);
+            } else {
+                (b, fb) = (u, fu);
+            }
+        }
+        fm
+    }
+
+    /// The share of the period in which `g` exceeds `level`: each crossing between two
+    /// time-ordered `samples` that straddle it is found on the dense output by the Illinois
+    /// variant of regula falsi.
+    fn share_above<G: Fn(&Probe) -> f64>(
+        &mut self,
+        samples: &[(f64, Probe)],
+        level: f64,
+        g: G,
+    ) -> f64 {
+        let mut on = 0.0;
+        for w in samples.windows(2) {
+            let (ta, da) = (w[0].0, g(&w[0].1) - level);
+            let (tb, db) = (w[1].0, g(&w[1].1) - level);
+            if da > 0.0 && db > 0.0 {
+                on += tb - ta;
+            } else if da > 0.0 || db > 0.0 {
+                let tc = self.crossing((ta, da), (tb, db), |p| g(p) - level);
+                on += if da > 0.0 { tc - ta } else { tb - tc };
+            }
+        }
+        (on / self.period).clamp(0.0, 1.0)
+    }
+
+    /// Where `d` changes sign between `(ta, da)` and `(tb, db)`, seconds.
+    fn crossing<D: Fn(&Probe) -> f64>(
+        &mut self,
+        (mut a, mut fa): (f64, f64),
+        (mut b, mut fb): (f64, f64),
+        d: D,
+    ) -> f64 {
+        let mut kept = 0i8;
+        for _ in 0..EDGE_STEPS {
+            if b - a <= 1e-9 * self.period {
+                break;
+            }
+            let t = ((a * fb - b * fa) / (fb - fa)).clamp(a, b);
+            let ft = d(&self.probe(t));
+            if ft == 0.0 || !ft.is_finite() {
+                return t;
+            }
+            // Illinois: an end kept twice running has its value halved, so the secant does
+            // not creep towards the root from one side (convex pulse edges would).
+            if (ft > 0.0) == (fb > 0.0) {
+                (b, fb) = (t, ft);
+                if kept == -1 {
+                    fa *= 0.5;
+                }
+                kept = -1;
+            } else {
+                (a, fa) = (t, ft);
+                if kept == 1 {
+                    fb *= 0.5;
+                }
+                kept = 1;
+            }
+        }
+        ((a * fb - b * fa) / (fb - fa)).clamp(a, b)
     }
 }
