@@ -35,7 +35,7 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     x: &[f64],
     run: &mut Run,
     mut steps: Steps<'_>,
-) -> Result<SteadyState, SolveError> {
+) -> Result<(SteadyState, Trace), SolveError> {
     let n = c.states();
     let period = c.line_period_s();
     let mut scratch = [0.0; MAX_STATES];
@@ -50,7 +50,7 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     };
     let mut t_s = Vec::with_capacity(SAMPLES);
     let mut probes = Vec::with_capacity(SAMPLES);
-    // Probes at every step end and in the middle of every conducting step, in time order with
+    // Probes at the start and at every step end, in time order with
     // their instants: where the extremes and the conduction edges are looked for, then found
     // on the dense output between them.
     let mut extremes: Vec<(f64, Probe)> = Vec::with_capacity(4 * SAMPLES);
@@ -107,7 +107,6 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         }
         loop {
             let mut next = 0usize;
-            let mut mids = 0usize;
             stiff = run.method == Method::Stiff;
             t_s.clear();
             probes.clear();
@@ -152,30 +151,9 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
                     span.y1[..n].copy_from_slice(&y1[..n]);
                     span.f1[..n].copy_from_slice(&f1[..n]);
                     spans.push(span);
-                    // A pulse's crest lies between step ends: look at the middle of each step in
-                    // which a diode conducts, from the interpolated state.
-                    if start.i_diode > 0.0 || end.i_diode > 0.0 {
-                        let mut mid = [0.0; MAX_STATES];
-                        for i in 0..n {
-                            mid[i] = if stiff {
-                                // A fast state's derivatives are far too large for a cubic
-                                // through them to mean anything across the step.
-                                0.5 * (y0[i] + y1[i])
-                            } else {
-                                hermite(y0[i], f0[i], y1[i], f1[i], h, 0.5)
-                            };
-                        }
-                        let mut dx = [0.0; MAX_STATES];
-                        extremes.push((
-                            t + 0.5 * h,
-                            c.evaluate(t + 0.5 * h, &mid[..n], &mut dx[..n]),
-                        ));
-                        mids += 1;
-                    }
                     extremes.push((t + h, *end));
                 },
             )?;
-            run.evaluations += mids;
             // A stiff period is integrated again from its start with the stiff formula.
             if outcome == Outcome::Done {
                 break;
@@ -187,24 +165,19 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     }
     // The crests and troughs lie between the probes: each is found on the dense output near
     // the best probe, and the conduction edges between the probes that straddle them.
-    let mut dense = Dense {
-        c,
-        spans: &spans,
-        stiff,
-        period,
-        evaluations: 0,
+    // The best probes for now; `refine` seeks the crests between them once the pass is the
+    // answer (the closing Newton iterations run many passes whose extremes nobody reads).
+    let best = |g: fn(&Probe) -> f64| {
+        extremes
+            .iter()
+            .fold(f64::NEG_INFINITY, |m, (_, p)| m.max(g(p)))
     };
-    let i_peak = dense.largest(&extremes, |p| p.i_diode).max(0.0);
-    let v_max = dense.largest(&extremes, |p| p.v_out);
-    let v_min = -dense.largest(&extremes, |p| -p.v_out);
-    let v_cap_max = dense.largest(&extremes, |p| p.v_cap);
-    let vr_max = dense.largest(&extremes, |p| p.v_reverse);
-    let conduction_fraction = if i_peak > 0.0 {
-        dense.share_above(&extremes, CONDUCTION_SHARE * i_peak, |p| p.i_diode)
-    } else {
-        0.0
-    };
-    run.evaluations += dense.evaluations;
+    let i_peak = best(|p| p.i_diode).max(0.0);
+    let v_max = best(|p| p.v_out);
+    let v_min = -best(|p| -p.v_out);
+    let v_cap_max = best(|p| p.v_cap);
+    let vr_max = best(|p| p.v_reverse);
+    let conduction_fraction = 0.0;
     let mean = |i: usize| y[i] / period;
     let mean_v_out = mean(0);
     let state = SteadyState {
@@ -243,7 +216,14 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     .iter()
     .all(|v| v.is_finite());
     if finite {
-        Ok(state)
+        Ok((
+            state,
+            Trace {
+                extremes,
+                spans,
+                stiff,
+            },
+        ))
     } else {
         Err(SolveError::NotFinite)
     }
@@ -254,10 +234,49 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
 /// tests/reference/generate.py's conduction angle).
 pub(super) const CONDUCTION_SHARE: f64 = 1e-3;
 /// Parabolic steps towards a crest: each gains about half again as many correct digits, and
-/// the three probes it starts from are a step or half a step apart.
-const CREST_STEPS: usize = 4;
+/// the three probes it starts from are a step apart.
+const CREST_STEPS: usize = 3;
 /// Regula falsi steps towards a conduction edge.
 const EDGE_STEPS: usize = 8;
+
+/// What a final pass keeps for `refine`: its probes in time order and its steps.
+#[derive(Debug, Clone)]
+pub(super) struct Trace {
+    extremes: Vec<(f64, Probe)>,
+    spans: Vec<Span>,
+    stiff: bool,
+}
+
+/// Seeks the crests (diode current, rail max and min, capacitor, reverse voltage) and the
+/// conduction edges of the pass `trace` came from on its dense output, and writes them into
+/// `state`.
+pub(super) fn refine<Ckt: PeriodicCircuit + ?Sized>(
+    c: &Ckt,
+    state: &mut SteadyState,
+    trace: &Trace,
+    run: &mut Run,
+) {
+    let extremes = &trace.extremes;
+    let mut dense = Dense {
+        c,
+        spans: &trace.spans,
+        stiff: trace.stiff,
+        period: c.line_period_s(),
+        evaluations: 0,
+    };
+    state.i_diode_peak = dense.largest(extremes, |p| p.i_diode).max(0.0);
+    state.v_out_max = dense.largest(extremes, |p| p.v_out);
+    state.v_out_min = -dense.largest(extremes, |p| -p.v_out);
+    state.v_cap_max = dense.largest(extremes, |p| p.v_cap);
+    state.v_reverse_max = dense.largest(extremes, |p| p.v_reverse);
+    let level = CONDUCTION_SHARE * state.i_diode_peak;
+    state.conduction_fraction = if state.i_diode_peak > 0.0 {
+        dense.share_above(extremes, level, |p| p.i_diode)
+    } else {
+        0.0
+    };
+    run.evaluations += dense.evaluations;
+}
 
 /// One accepted step of the final pass: enough to draw the states anywhere inside it.
 #[derive(Debug, Clone, Copy)]

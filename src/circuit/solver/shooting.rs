@@ -4,7 +4,7 @@
 // Small dense matrices read best with their indices written out.
 #![allow(clippy::needless_range_loop)]
 
-use super::final_pass::final_pass;
+use super::final_pass::{Trace, final_pass, refine};
 use super::integrator::{Method, Outcome, Run, STIFF_STEPS, Steps, integrate};
 use super::{MAX_STATES, PeriodicCircuit, Probe, SolveError, SteadyState, Vector, WIDTH};
 
@@ -269,7 +269,7 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
     // replaying its steps: that map is smooth, so it closes to rounding, and since the same
     // stages integrate the charge, the charge balance then holds as exactly.
     let mut grid_t = Vec::new();
-    let mut state = final_pass(c, &x, run, Steps::Adaptive(&mut grid_t))?;
+    let (mut state, mut trace) = final_pass(c, &x, run, Steps::Adaptive(&mut grid_t))?;
     integrations += 1;
     let tol = tolerance_v(c);
     let gap =
@@ -279,7 +279,7 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
     // A replay with the stiff formula can run away where a diode turns within a step that the
     // error control no longer watches; the error-controlled pass then stands as the answer.
     if n > 0 && worst(&g) > 300.0 * tol {
-        let controlled = state.clone();
+        let controlled: (SteadyState, Trace) = (state.clone(), trace.clone());
         'close: {
             // A circuit that repeats every half cycle is integrated with the first half's steps
             // twice over: the same discrete map on both halves keeps the closed period symmetric,
@@ -297,10 +297,10 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
                     t += step.h;
                 }
                 grid_t = first.iter().chain(first.iter()).copied().collect();
-                state = match final_pass(c, &x, run, Steps::Replay(&grid_t)) {
+                (state, trace) = match final_pass(c, &x, run, Steps::Replay(&grid_t)) {
                     Ok(s) => s,
                     Err(SolveError::NotFinite) => {
-                        state = controlled.clone();
+                        (state, trace) = controlled.clone();
                         break 'close;
                     }
                     Err(e) => return Err(e),
@@ -309,13 +309,13 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
                 g = gap(&state);
             }
             let jt = match difference_jacobian(&x, &g, 1e-6 * scale, &scales, |xp| {
-                let sp = final_pass(c, xp, run, Steps::Replay(&grid_t))?;
+                let (sp, _) = final_pass(c, xp, run, Steps::Replay(&grid_t))?;
                 integrations += 1;
                 Ok(gap(&sp))
             }) {
                 Ok(jt) => jt,
                 Err(SolveError::NotFinite) => {
-                    state = controlled.clone();
+                    (state, trace) = controlled.clone();
                     break 'close;
                 }
                 Err(e) => return Err(e),
@@ -327,10 +327,10 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
                     break;
                 }
                 x = x.iter().zip(&step).map(|(a, b)| a + b).collect();
-                state = match final_pass(c, &x, run, Steps::Replay(&grid_t)) {
+                (state, trace) = match final_pass(c, &x, run, Steps::Replay(&grid_t)) {
                     Ok(s) => s,
                     Err(SolveError::NotFinite) => {
-                        state = controlled.clone();
+                        (state, trace) = controlled.clone();
                         break 'close;
                     }
                     Err(e) => return Err(e),
@@ -343,6 +343,7 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
             }
         }
     }
+    refine(c, &mut state, &trace, run);
     state.newton_steps = newton_steps;
     state.integrations = integrations;
     state.evaluations = run.evaluations;
