@@ -53,8 +53,11 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     // Probes at the start and at every step end, in time order with
     // their instants: where the extremes and the conduction edges are looked for, then found
     // on the dense output between them.
-    let mut extremes: Vec<(f64, Probe)> = Vec::with_capacity(4 * SAMPLES);
-    let mut spans: Vec<Span> = Vec::with_capacity(2 * SAMPLES);
+    // Sized for a period's usual hundred or two steps, and kept below the allocator's
+    // mapping threshold (128 KiB in glibc): a block above it is mapped and unmapped on every
+    // solve, which costs more than the pass's own work on a small circuit.
+    let mut extremes: Vec<(f64, Probe)> = Vec::with_capacity(2 * SAMPLES);
+    let mut spans: Vec<Span> = Vec::with_capacity(if n > 0 { SAMPLES } else { 0 });
     let mut stiff = false;
     let mut end = Vec::new();
     let dt = period / SAMPLES as f64;
@@ -334,12 +337,18 @@ impl<Ckt: PeriodicCircuit + ?Sized> Dense<'_, Ckt> {
     /// its neighbours. Every value kept is one the solution takes, so the result is never
     /// below the best sample. A crest at either end of the period is left at the sample.
     fn largest<G: Fn(&Probe) -> f64>(&mut self, samples: &[(f64, Probe)], g: G) -> f64 {
-        let Some(j) =
-            (0..samples.len()).max_by(|&a, &b| g(&samples[a].1).total_cmp(&g(&samples[b].1)))
-        else {
-            return f64::NAN;
-        };
-        let (mut m, mut fm) = (samples[j].0, g(&samples[j].1));
+        // One pass over the probes, each value taken once; a NaN never wins.
+        let (mut j, mut fm) = (0, f64::NEG_INFINITY);
+        for (k, (_, p)) in samples.iter().enumerate() {
+            let v = g(p);
+            if v > fm {
+                (j, fm) = (k, v);
+            }
+        }
+        if !fm.is_finite() {
+            return samples.first().map_or(f64::NAN, |(_, p)| g(p));
+        }
+        let mut m = samples[j].0;
         if j == 0 || j + 1 >= samples.len() {
             return fm;
         }
