@@ -3,7 +3,9 @@
 //! state by tests/reference/generate.py. This test reads only the stored CSV and TOML files.
 //!
 //! Tolerances (the engine issue's acceptance figures): DC, min and max within 1 %; ripple
-//! peak-peak within 3 %; RMS currents within 4 %; peak diode current within 5 %.
+//! peak-peak within 3 %; RMS currents within 4 %. Issue 12 (peaks and edges found on the
+//! solution between step ends): peak diode current and peak reverse voltage within 0.2 %, the
+//! conduction angle (one diode's current above a thousandth of its peak) within 1 degree.
 
 mod common;
 use railcheck::{Conditions, Supply, solve};
@@ -28,7 +30,7 @@ fn engine_matches_ngspice_across_the_matrix() {
     // (figure, tolerance as a fraction, scale floor for figures that can be near zero)
     let checks: [(&str, f64); 11] = [
         ("diode_avg_a", 0.01),
-        ("diode_piv_v", 0.03),
+        ("diode_piv_v", 0.002),
         ("dc_v", 0.01),
         ("min_v", 0.01),
         ("max_v", 0.01),
@@ -36,7 +38,7 @@ fn engine_matches_ngspice_across_the_matrix() {
         ("diode_rms_a", 0.04),
         ("winding_rms_a", 0.04),
         ("cap_ripple_rms_a", 0.04),
-        ("diode_peak_a", 0.05),
+        ("diode_peak_a", 0.002),
         ("ripple_rms_v", 0.04),
     ];
     let mut worst: BTreeMap<&str, (f64, String)> = BTreeMap::new();
@@ -56,6 +58,16 @@ fn engine_matches_ngspice_across_the_matrix() {
                 continue;
             }
             let err = (g - w).abs() / scale;
+            // The one known model gap: with a primary resistance, the conducting half of a
+            // center tap pulls the shared EMF down, so the blocking half's end sits nearer
+            // ground than the network's EMF-less-own-drop puts it (ct_r_60: the engine 0.7 %
+            // high, the safe side for the PIV check). It keeps the old 3 % until the network
+            // splits a path's resistance into winding and reflected primary.
+            let tol = if key == "diode_piv_v" && case == "ct_r_60" {
+                0.03
+            } else {
+                tol
+            };
             let entry = worst.entry(key).or_insert((0.0, String::new()));
             if err > entry.0 {
                 *entry = (err, case.clone());
@@ -68,9 +80,29 @@ fn engine_matches_ngspice_across_the_matrix() {
             }
         }
     }
+    // The conduction angle compares in degrees: ngspice's edges are placed on its own time
+    // grid (4000 points a period) by straight lines, the same threshold as the engine's.
+    let mut worst_angle = (0.0f64, String::new());
+    for (case, want) in &cases {
+        let g = engine(case).conduction_deg;
+        let w = want["conduction_deg"];
+        let err = (g - w).abs();
+        if err > worst_angle.0 {
+            worst_angle = (err, case.clone());
+        }
+        if err > 1.0 {
+            failures.push(format!(
+                "{case} conduction_deg: engine {g:.3}, ngspice {w:.3}"
+            ));
+        }
+    }
     for (key, (err, case)) in &worst {
         println!("largest {key} difference: {:.3} % ({case})", 100.0 * err);
     }
+    println!(
+        "largest conduction_deg difference: {:.3} degrees ({})",
+        worst_angle.0, worst_angle.1
+    );
     assert!(
         failures.is_empty(),
         "outside tolerance:\n{}",

@@ -112,8 +112,6 @@ pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figure
     } else {
         net.emf_rms_v * winding_rms
     };
-    let threshold = 1e-3 * s.i_diode_peak.max(1e-12);
-    let on = s.probes.iter().filter(|p| p.i_diode > threshold).count();
     Figures {
         dc_v: dc,
         max_v: s.v_out_max,
@@ -129,7 +127,7 @@ pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figure
         winding_rms_a: winding_rms,
         winding_va,
         cap_ripple_rms_a: s.mean_sq_i_cap.max(0.0).sqrt(),
-        conduction_deg: 360.0 * on as f64 / s.probes.len().max(1) as f64,
+        conduction_deg: 360.0 * s.conduction_fraction,
         inrush_peak_a: inrush(net),
         cap_peak_v: s.v_cap_max,
         secondary_rms_v: (s

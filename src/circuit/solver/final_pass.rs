@@ -1,0 +1,446 @@
+//! The final pass: one mains period from the steady start, with the running integrals of the
+//! figures appended to the state, the even samples for the sketch, and the extremes.
+
+// Runge-Kutta stages read best with their indices written out.
+#![allow(clippy::needless_range_loop)]
+
+use super::integrator::{Method, Outcome, Run, Steps, hermite, integrate};
+use super::shooting::tolerance_v;
+use super::{
+    MAX_STATES, PeriodicCircuit, Probe, QUADRATURES, SAMPLES, SolveError, SteadyState, Vector,
+    WIDTH,
+};
+
+/// What the final pass integrates over the period: the rail, its ripple about `ripple_ref_v`
+/// squared, the diode current and its square, the winding's and capacitor's squares, the
+/// load current and the capacitor current.
+fn integrands(p: &Probe, ripple_ref_v: f64) -> [f64; QUADRATURES] {
+    let r = p.v_out - ripple_ref_v;
+    [
+        p.v_out,
+        r * r,
+        p.i_diode,
+        p.i_diode * p.i_diode,
+        p.i_winding * p.i_winding,
+        p.i_cap * p.i_cap,
+        p.i_load,
+        p.i_cap,
+    ]
+}
+
+/// Integrates one mains period from the steady start, with the running integrals appended to
+/// the state so the averages are as accurate as the integration itself.
+pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
+    c: &Ckt,
+    x: &[f64],
+    run: &mut Run,
+    mut steps: Steps<'_>,
+) -> Result<(SteadyState, Trace), SolveError> {
+    let n = c.states();
+    let period = c.line_period_s();
+    let mut scratch = [0.0; MAX_STATES];
+    let first = c.evaluate(0.0, x, &mut scratch[..n]);
+    let ripple_ref_v = first.v_out;
+    let mut y = [0.0; WIDTH];
+    y[..n].copy_from_slice(x);
+    let mut f = |t: f64, y: &Vector, dy: &mut Vector| {
+        let p = c.evaluate(t, &y[..n], &mut dy[..n]);
+        dy[n..n + QUADRATURES].copy_from_slice(&integrands(&p, ripple_ref_v));
+        p
+    };
+    let mut t_s = Vec::with_capacity(SAMPLES);
+    let mut probes = Vec::with_capacity(SAMPLES);
+    // Probes at the start and at every step end, in time order with
+    // their instants: where the extremes and the conduction edges are looked for, then found
+    // on the dense output between them.
+    // Sized for a period's usual hundred or two steps, and kept below the allocator's
+    // mapping threshold (128 KiB in glibc): a block above it is mapped and unmapped on every
+    // solve, which costs more than the pass's own work on a small circuit.
+    let mut extremes: Vec<(f64, Probe)> = Vec::with_capacity(2 * SAMPLES);
+    let mut spans: Vec<Span> = Vec::with_capacity(if n > 0 { SAMPLES } else { 0 });
+    let mut stiff = false;
+    let mut end = Vec::new();
+    let dt = period / SAMPLES as f64;
+    if n == 0 {
+        // Nothing to integrate but the averages: Simpson's rule on a fine fixed grid.
+        // Simpson's rule with every sample instant a node.
+        let fine = SAMPLES;
+        let h = period / fine as f64;
+        let mut acc = [0.0; QUADRATURES];
+        for i in 0..=fine {
+            let t = i as f64 * h;
+            let p = c.evaluate(t, &[], &mut []);
+            let w = if i == 0 || i == fine {
+                1.0
+            } else if i % 2 == 1 {
+                4.0
+            } else {
+                2.0
+            };
+            for (a, v) in acc.iter_mut().zip(integrands(&p, ripple_ref_v)) {
+                *a += w * v * h / 3.0;
+            }
+            extremes.push((t, p));
+            if i < fine {
+                t_s.push(t);
+                probes.push(p);
+            }
+        }
+        y[..QUADRATURES].copy_from_slice(&acc);
+        run.evaluations += fine + 1;
+    } else {
+        // The charge integrals are held to the same relative accuracy as the voltages, so that
+        // a narrow pulse is resolved for its charge and not only for the jump it leaves; the
+        // mean squares need no control of their own.
+        // A circuit that repeats every half cycle gets a step end at the half, so that the two
+        // halves can be integrated alike (see the closure in `steady_state`).
+        let mut breaks = c.breakpoints_s();
+        if c.period_s() < 0.75 * period {
+            breaks.push(c.period_s());
+            breaks.sort_by(f64::total_cmp);
+        }
+        let mut atol = [f64::INFINITY; WIDTH];
+        for i in 0..n {
+            atol[i] = tolerance_v(c) * c.state_scale(i);
+        }
+        let charge = 1e-6 * first.i_load.abs().max(1e-9) * period;
+        atol[n] = tolerance_v(c) * period;
+        for q in [2, 6, 7] {
+            atol[n + q] = charge;
+        }
+        loop {
+            let mut next = 0usize;
+            stiff = run.method == Method::Stiff;
+            t_s.clear();
+            probes.clear();
+            extremes.clear();
+            extremes.push((0.0, first));
+            spans.clear();
+            y = [0.0; WIDTH];
+            y[..n].copy_from_slice(x);
+            let outcome = integrate(
+                n + QUADRATURES,
+                n,
+                n + QUADRATURES,
+                &mut f,
+                0.0,
+                period,
+                &mut y,
+                run,
+                &atol,
+                &breaks,
+                steps.again(),
+                |t, h, (y0, f0, y1, f1), start, end| {
+                    // Steps are short wherever the waveform bends (the pulses), so the even
+                    // samples are drawn straight between step ends; the extremes start from
+                    // the step ends and are sought between them after the pass.
+                    while next < SAMPLES && (next as f64) * dt < t + h {
+                        let ts = next as f64 * dt;
+                        let s = ((ts - t) / h).clamp(0.0, 1.0);
+                        t_s.push(ts);
+                        probes.push(start.towards(end, s));
+                        next += 1;
+                    }
+                    let mut span = Span {
+                        t,
+                        h,
+                        y0: [0.0; MAX_STATES],
+                        f0: [0.0; MAX_STATES],
+                        y1: [0.0; MAX_STATES],
+                        f1: [0.0; MAX_STATES],
+                    };
+                    span.y0[..n].copy_from_slice(&y0[..n]);
+                    span.f0[..n].copy_from_slice(&f0[..n]);
+                    span.y1[..n].copy_from_slice(&y1[..n]);
+                    span.f1[..n].copy_from_slice(&f1[..n]);
+                    spans.push(span);
+                    extremes.push((t + h, *end));
+                },
+            )?;
+            // A stiff period is integrated again from its start with the stiff formula.
+            if outcome == Outcome::Done {
+                break;
+            }
+        }
+        end = y[..n].to_vec();
+        let q: Vec<f64> = y[n..n + QUADRATURES].to_vec();
+        y[..QUADRATURES].copy_from_slice(&q);
+    }
+    // The crests and troughs lie between the probes: each is found on the dense output near
+    // the best probe, and the conduction edges between the probes that straddle them.
+    // The best probes for now; `refine` seeks the crests between them once the pass is the
+    // answer (the closing Newton iterations run many passes whose extremes nobody reads).
+    let best = |g: fn(&Probe) -> f64| {
+        extremes
+            .iter()
+            .fold(f64::NEG_INFINITY, |m, (_, p)| m.max(g(p)))
+    };
+    let i_peak = best(|p| p.i_diode).max(0.0);
+    let v_max = best(|p| p.v_out);
+    let v_min = -best(|p| -p.v_out);
+    let v_cap_max = best(|p| p.v_cap);
+    let vr_max = best(|p| p.v_reverse);
+    let conduction_fraction = 0.0;
+    let mean = |i: usize| y[i] / period;
+    let mean_v_out = mean(0);
+    let state = SteadyState {
+        start: x.to_vec(),
+        end,
+        t_s,
+        probes,
+        v_out_max: v_max,
+        v_out_min: v_min,
+        v_cap_max,
+        i_diode_peak: i_peak,
+        v_reverse_max: vr_max,
+        conduction_fraction,
+        mean_v_out,
+        mean_i_diode: mean(2),
+        mean_i_load: mean(6),
+        mean_i_cap: mean(7),
+        mean_sq_ripple: mean(1),
+        ripple_ref_v,
+        mean_sq_i_diode: mean(3),
+        mean_sq_i_winding: mean(4),
+        mean_sq_i_cap: mean(5),
+        newton_steps: 0,
+        integrations: 0,
+        evaluations: 0,
+        steps: 0,
+        stiff: false,
+    };
+    let finite = [
+        state.mean_v_out,
+        state.mean_sq_ripple,
+        state.v_out_max,
+        state.v_out_min,
+        state.i_diode_peak,
+    ]
+    .iter()
+    .all(|v| v.is_finite());
+    if finite {
+        Ok((
+            state,
+            Trace {
+                extremes,
+                spans,
+                stiff,
+            },
+        ))
+    } else {
+        Err(SolveError::NotFinite)
+    }
+}
+
+/// A diode counts as conducting while its current exceeds this share of its peak: its
+/// exponential law leaves a trickle below any absolute level (the same threshold as
+/// tests/reference/generate.py's conduction angle).
+pub(super) const CONDUCTION_SHARE: f64 = 1e-3;
+/// Parabolic steps towards a crest: each gains about half again as many correct digits, and
+/// the three probes it starts from are a step apart.
+const CREST_STEPS: usize = 3;
+/// Regula falsi steps towards a conduction edge.
+const EDGE_STEPS: usize = 8;
+
+/// What a final pass keeps for `refine`: its probes in time order and its steps.
+#[derive(Debug, Clone)]
+pub(super) struct Trace {
+    extremes: Vec<(f64, Probe)>,
+    spans: Vec<Span>,
+    stiff: bool,
+}
+
+/// Seeks the crests (diode current, rail max and min, capacitor, reverse voltage) and the
+/// conduction edges of the pass `trace` came from on its dense output, and writes them into
+/// `state`.
+pub(super) fn refine<Ckt: PeriodicCircuit + ?Sized>(
+    c: &Ckt,
+    state: &mut SteadyState,
+    trace: &Trace,
+    run: &mut Run,
+) {
+    let extremes = &trace.extremes;
+    let mut dense = Dense {
+        c,
+        spans: &trace.spans,
+        stiff: trace.stiff,
+        period: c.line_period_s(),
+        evaluations: 0,
+    };
+    state.i_diode_peak = dense.largest(extremes, |p| p.i_diode).max(0.0);
+    state.v_out_max = dense.largest(extremes, |p| p.v_out);
+    state.v_out_min = -dense.largest(extremes, |p| -p.v_out);
+    state.v_cap_max = dense.largest(extremes, |p| p.v_cap);
+    state.v_reverse_max = dense.largest(extremes, |p| p.v_reverse);
+    let level = CONDUCTION_SHARE * state.i_diode_peak;
+    state.conduction_fraction = if state.i_diode_peak > 0.0 {
+        dense.share_above(extremes, level, |p| p.i_diode)
+    } else {
+        0.0
+    };
+    run.evaluations += dense.evaluations;
+}
+
+/// One accepted step of the final pass: enough to draw the states anywhere inside it.
+#[derive(Debug, Clone, Copy)]
+struct Span {
+    t: f64,
+    h: f64,
+    y0: [f64; MAX_STATES],
+    f0: [f64; MAX_STATES],
+    y1: [f64; MAX_STATES],
+    f1: [f64; MAX_STATES],
+}
+
+/// The solution between step ends (the integrator's dense output) and the circuit's probes on it.
+struct Dense<'a, Ckt: ?Sized> {
+    c: &'a Ckt,
+    /// The period's steps in order; none for a circuit without states.
+    spans: &'a [Span],
+    /// The stiff formula's steps are drawn straight: a fast state's derivatives are far too
+    /// large for a cubic through them to mean anything across the step. Otherwise the cubic
+    /// Hermite through each step's end values and slopes (third order).
+    stiff: bool,
+    period: f64,
+    /// Circuit evaluations spent.
+    evaluations: usize,
+}
+
+impl<Ckt: PeriodicCircuit + ?Sized> Dense<'_, Ckt> {
+    /// The probe at `t` seconds, from the interpolated state.
+    fn probe(&mut self, t: f64) -> Probe {
+        let n = self.c.states();
+        self.evaluations += 1;
+        if n == 0 || self.spans.is_empty() {
+            return self.c.evaluate(t, &[], &mut []);
+        }
+        let k = self
+            .spans
+            .partition_point(|s| s.t + s.h < t)
+            .min(self.spans.len() - 1);
+        let s = &self.spans[k];
+        let u = ((t - s.t) / s.h).clamp(0.0, 1.0);
+        let mut x = [0.0; MAX_STATES];
+        for i in 0..n {
+            x[i] = if self.stiff {
+                s.y0[i] + u * (s.y1[i] - s.y0[i])
+            } else {
+                hermite(s.y0[i], s.f0[i], s.y1[i], s.f1[i], s.h, u)
+            };
+        }
+        let mut dx = [0.0; MAX_STATES];
+        self.c.evaluate(t, &x[..n], &mut dx[..n])
+    }
+
+    /// The largest value `g` takes: the best of the time-ordered `samples`, then a few steps
+    /// of successive parabolic interpolation (Brent's, without the golden fallback) between
+    /// its neighbours. Every value kept is one the solution takes, so the result is never
+    /// below the best sample. A crest at either end of the period is left at the sample.
+    fn largest<G: Fn(&Probe) -> f64>(&mut self, samples: &[(f64, Probe)], g: G) -> f64 {
+        // One pass over the probes, each value taken once; a NaN never wins.
+        let (mut j, mut fm) = (0, f64::NEG_INFINITY);
+        for (k, (_, p)) in samples.iter().enumerate() {
+            let v = g(p);
+            if v > fm {
+                (j, fm) = (k, v);
+            }
+        }
+        if !fm.is_finite() {
+            return samples.first().map_or(f64::NAN, |(_, p)| g(p));
+        }
+        let mut m = samples[j].0;
+        if j == 0 || j + 1 >= samples.len() {
+            return fm;
+        }
+        let (mut a, mut fa) = (samples[j - 1].0, g(&samples[j - 1].1));
+        let (mut b, mut fb) = (samples[j + 1].0, g(&samples[j + 1].1));
+        for _ in 0..CREST_STEPS {
+            // The vertex of the parabola through the three points.
+            let (p, q) = ((m - a) * (fm - fb), (m - b) * (fm - fa));
+            let den = p - q;
+            if den == 0.0 || !den.is_finite() {
+                break;
+            }
+            let u = m - 0.5 * ((m - a) * p - (m - b) * q) / den;
+            if !(u > a && u < b) || (u - m).abs() <= 1e-12 * self.period {
+                break;
+            }
+            let fu = g(&self.probe(u));
+            if !fu.is_finite() {
+                break;
+            }
+            if fu > fm {
+                if u < m {
+                    (b, fb) = (m, fm);
+                } else {
+                    (a, fa) = (m, fm);
+                }
+                (m, fm) = (u, fu);
+            } else if u < m {
+                (a, fa) = (u, fu);
+            } else {
+                (b, fb) = (u, fu);
+            }
+        }
+        fm
+    }
+
+    /// The share of the period in which `g` exceeds `level`: each crossing between two
+    /// time-ordered `samples` that straddle it is found on the dense output by the Illinois
+    /// variant of regula falsi.
+    fn share_above<G: Fn(&Probe) -> f64>(
+        &mut self,
+        samples: &[(f64, Probe)],
+        level: f64,
+        g: G,
+    ) -> f64 {
+        let mut on = 0.0;
+        for w in samples.windows(2) {
+            let (ta, da) = (w[0].0, g(&w[0].1) - level);
+            let (tb, db) = (w[1].0, g(&w[1].1) - level);
+            if da > 0.0 && db > 0.0 {
+                on += tb - ta;
+            } else if da > 0.0 || db > 0.0 {
+                let tc = self.crossing((ta, da), (tb, db), |p| g(p) - level);
+                on += if da > 0.0 { tc - ta } else { tb - tc };
+            }
+        }
+        (on / self.period).clamp(0.0, 1.0)
+    }
+
+    /// Where `d` changes sign between `(ta, da)` and `(tb, db)`, seconds.
+    fn crossing<D: Fn(&Probe) -> f64>(
+        &mut self,
+        (mut a, mut fa): (f64, f64),
+        (mut b, mut fb): (f64, f64),
+        d: D,
+    ) -> f64 {
+        let mut kept = 0i8;
+        for _ in 0..EDGE_STEPS {
+            if b - a <= 1e-9 * self.period {
+                break;
+            }
+            let t = ((a * fb - b * fa) / (fb - fa)).clamp(a, b);
+            let ft = d(&self.probe(t));
+            if ft == 0.0 || !ft.is_finite() {
+                return t;
+            }
+            // Illinois: an end kept twice running has its value halved, so the secant does
+            // not creep towards the root from one side (convex pulse edges would).
+            if (ft > 0.0) == (fb > 0.0) {
+                (b, fb) = (t, ft);
+                if kept == -1 {
+                    fa *= 0.5;
+                }
+                kept = -1;
+            } else {
+                (a, fa) = (t, ft);
+                if kept == 1 {
+                    fb *= 0.5;
+                }
+                kept = 1;
+            }
+        }
+        ((a * fb - b * fa) / (fb - fa)).clamp(a, b)
+    }
+}

@@ -1,0 +1,428 @@
+//! Shooting: Newton with Broyden updates on x -> Phi(x) - x, where Phi is the one-period map,
+//! and the closing of the final pass on itself.
+
+// Small dense matrices read best with their indices written out.
+#![allow(clippy::needless_range_loop)]
+
+use super::final_pass::{Trace, final_pass, refine};
+use super::integrator::{Method, Outcome, Run, STIFF_STEPS, Steps, integrate};
+use super::{MAX_STATES, PeriodicCircuit, Probe, SolveError, SteadyState, Vector, WIDTH};
+
+/// The one-period map: capacitor voltages after one period from `x` (volts).
+fn period_map<Ckt: PeriodicCircuit + ?Sized>(
+    c: &Ckt,
+    x: &[f64],
+    run: &mut Run,
+    mut steps: Steps<'_>,
+) -> Result<Vec<f64>, SolveError> {
+    let n = c.states();
+    let mut f = |t: f64, y: &Vector, dy: &mut Vector| Probe {
+        edges: c.derivatives(t, &y[..n], &mut dy[..n]),
+        ..Probe::default()
+    };
+    let mut atol = [tolerance_v(c); WIDTH];
+    for i in 0..n {
+        atol[i] *= run.scales[i];
+    }
+    let breaks = c.breakpoints_s();
+    let mut own_grid = Vec::new();
+    let mut under_control = false;
+    loop {
+        let mut y = [0.0; WIDTH];
+        y[..n].copy_from_slice(x);
+        let outcome = match integrate(
+            n,
+            n,
+            n,
+            &mut f,
+            0.0,
+            c.period_s(),
+            &mut y,
+            run,
+            &atol,
+            &breaks,
+            if under_control {
+                Steps::Adaptive(&mut own_grid)
+            } else {
+                steps.again()
+            },
+            |_, _, _, _, _| {},
+        ) {
+            // A replay with the stiff formula can run away where a diode turns within a step
+            // that no error control watches: this period is then integrated under control.
+            Err(SolveError::NotFinite)
+                if run.method == Method::Stiff
+                    && !under_control
+                    && matches!(steps, Steps::Replay(_)) =>
+            {
+                under_control = true;
+                continue;
+            }
+            other => other?,
+        };
+        // A stiff period is integrated again from its start with the stiff formula.
+        if outcome == Outcome::Done {
+            c.after_period(&mut y[..n]);
+            return Ok(y[..n].to_vec());
+        }
+    }
+}
+
+/// Picks the formula before the first period: the stiffness present all period long (the
+/// smallest, over eight instants, of the Jacobian's row-sum norm at the starting state, a bound
+/// on its fastest rate) sets how many steps the explicit formula would need for stability
+/// alone. Beyond `STIFF_STEPS` of them the stiff formula is taken from the start;
+/// otherwise the explicit steps are capped at that stability limit. Stiffness that comes and
+/// goes (a diode conducting through a small resistance) is left to the error control and to
+/// the switch inside `integrate`.
+fn choose_method<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt, x: &[f64], run: &mut Run) {
+    let n = c.states();
+    let period = c.period_s();
+    let mut slowest_rate = f64::INFINITY;
+    let (mut f0, mut fp) = ([0.0; MAX_STATES], [0.0; MAX_STATES]);
+    for k in 0..8 {
+        let t = period * k as f64 / 8.0;
+        c.derivatives(t, x, &mut f0[..n]);
+        let mut rows = [0.0f64; MAX_STATES];
+        for j in 0..n {
+            let mut xp = [0.0; MAX_STATES];
+            xp[..n].copy_from_slice(x);
+            let delta = 1.5e-8 * x[j].abs().max(run.volts * run.scales[j]);
+            xp[j] += delta;
+            c.derivatives(t, &xp[..n], &mut fp[..n]);
+            for i in 0..n {
+                // The norm of the scaled system, where every state counts as a voltage.
+                rows[i] += ((fp[i] - f0[i]) / delta).abs() * run.scales[j] / run.scales[i];
+            }
+        }
+        run.evaluations += n + 1;
+        let rate = rows[..n].iter().fold(0.0f64, |m, v| m.max(*v));
+        if rate.is_finite() {
+            slowest_rate = slowest_rate.min(rate);
+        }
+    }
+    if !slowest_rate.is_finite() || slowest_rate <= 0.0 {
+        return;
+    }
+    // The explicit pair's stability region reaches about 3.3 along the negative axis.
+    run.h_stable = 3.0 / slowest_rate;
+    if period / run.h_stable > STIFF_STEPS {
+        run.method = Method::Stiff;
+    }
+}
+
+/// Solves `a x = b` for n <= 4 by Gaussian elimination with partial pivoting; None if singular.
+fn solve_linear(n: usize, a: &mut [[f64; MAX_STATES]; MAX_STATES], b: &mut [f64]) -> Option<()> {
+    for col in 0..n {
+        let pivot = (col..n).max_by(|&i, &j| a[i][col].abs().total_cmp(&a[j][col].abs()))?;
+        if a[pivot][col].abs() < 1e-300 {
+            return None;
+        }
+        a.swap(col, pivot);
+        b.swap(col, pivot);
+        for row in col + 1..n {
+            let factor = a[row][col] / a[col][col];
+            for k in col..n {
+                a[row][k] -= factor * a[col][k];
+            }
+            b[row] -= factor * b[col];
+        }
+    }
+    for col in (0..n).rev() {
+        let mut acc = b[col];
+        for k in col + 1..n {
+            acc -= a[col][k] * b[k];
+        }
+        b[col] = acc / a[col][col];
+    }
+    Some(())
+}
+
+/// Finds the periodic steady state of `c` and samples one mains period of it.
+pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyState, SolveError> {
+    let n = c.states();
+    assert!(
+        n <= MAX_STATES,
+        "a circuit with more states than the solver holds"
+    );
+    let scale = c.volts_scale().max(1e-6);
+    let mut x = vec![0.0; n];
+    c.initial_guess(&mut x);
+    let mut scales = [1.0; MAX_STATES];
+    for (i, s) in scales.iter_mut().enumerate().take(n) {
+        *s = c.state_scale(i);
+    }
+    let mut run = Run {
+        h0: c.period_s() / 64.0,
+        method: Method::Explicit,
+        volts: scale,
+        scales,
+        h_stable: f64::INFINITY,
+        evaluations: 0,
+        steps: 0,
+    };
+    let run = &mut run;
+    if n > 0 {
+        choose_method(c, &x, run);
+    }
+    let mut integrations = 0;
+    let mut newton_steps = 0;
+    if n > 0 {
+        let mut grid = Vec::new();
+        let mut g = sub(&period_map(c, &x, run, Steps::Adaptive(&mut grid))?, &x);
+        integrations += 1;
+        // Finite-difference Jacobian of G(x) = Phi(x) - x to start; Broyden keeps it after.
+        let mut jac = difference_jacobian(&x, &g, 1e-5 * scale, &scales, |xp| {
+            integrations += 1;
+            Ok(sub(&period_map(c, xp, run, Steps::Replay(&grid))?, xp))
+        })?;
+        let limit = 60;
+        let tol = tolerance_v(c);
+        // Whether `g` came from an error-controlled pass at the present `x`.
+        let mut fresh = true;
+        loop {
+            newton_steps += 1;
+            if newton_steps > limit {
+                // Newton can wander where a starved load's knee folds the map; plain periods
+                // then converge, since such a circuit forgets its start within a few cycles.
+                x = plain_periods(c, &x, run, tol, &mut integrations)?
+                    .ok_or(SolveError::NoConvergence(limit))?;
+                break;
+            }
+            let mut step: Vec<f64> = g.iter().map(|v| -v).collect();
+            let mut a = jac;
+            if solve_linear(n, &mut a, &mut step).is_none() {
+                // A flat map means the state is forgotten within one period: Phi(x) is the answer.
+                step = g.clone();
+            }
+            // Never step further than the winding's peak: the map is only piecewise smooth.
+            let longest = scaled_norm(&step, &scales);
+            if longest > scale {
+                for s in step.iter_mut() {
+                    *s *= scale / longest;
+                }
+            }
+            // The replayed map is smooth, so Newton is quadratic on it and is run to well below
+            // the tolerance. But the replayed steps were chosen for an earlier state, so the
+            // answer is confirmed by the final pass, with steps chosen for itself (below).
+            // Local errors add up over a period's hundred-odd steps (a lightly loaded
+            // capacitor forgets little), so an error-controlled period must come back to
+            // within 300 tolerances of where it started: 3e-4 of the ripple, a charge balance
+            // good to 0.03 %.
+            let worst_g = scaled_norm(&g, &scales);
+            if (fresh && worst_g <= 300.0 * tol) || (!fresh && longest <= 1e-2 * tol) {
+                break;
+            }
+            let mut x_new: Vec<f64> = x.iter().zip(&step).map(|(a, b)| a + b).collect();
+            // A long step moves the conduction pulses: let the integrator find its steps anew.
+            fresh = longest > 1e-4 * scale;
+            let steps = if fresh {
+                Steps::Adaptive(&mut grid)
+            } else {
+                Steps::Replay(&grid)
+            };
+            let mut g_new = sub(&period_map(c, &x_new, run, steps)?, &x_new);
+            integrations += 1;
+            // Where no diode conducts the map is flat and Newton overshoots: halve the step
+            // until the mismatch shrinks, and fall back on one plain period (x -> Phi(x)),
+            // which a capacitor that only discharges between pulses always gets closer by.
+            let norm = |v: &[f64]| v.iter().fold(0.0f64, |m, a| m.max(a.abs()));
+            let mut halvings = 0;
+            while fresh && norm(&g_new) > norm(&g) && halvings < 8 {
+                halvings += 1;
+                for s in step.iter_mut() {
+                    *s *= 0.5;
+                }
+                if halvings == 8 {
+                    step.clone_from(&g);
+                }
+                x_new = x.iter().zip(&step).map(|(a, b)| a + b).collect();
+                g_new = sub(
+                    &period_map(c, &x_new, run, Steps::Adaptive(&mut grid))?,
+                    &x_new,
+                );
+                integrations += 1;
+            }
+            let dg: Vec<f64> = g_new.iter().zip(&g).map(|(a, b)| a - b).collect();
+            let ss: f64 = step.iter().map(|v| v * v).sum();
+            if ss > 0.0 {
+                for i in 0..n {
+                    let mut jd = 0.0;
+                    for j in 0..n {
+                        jd += jac[i][j] * step[j];
+                    }
+                    for j in 0..n {
+                        jac[i][j] += (dg[i] - jd) * step[j] / ss;
+                    }
+                }
+            }
+            x = x_new;
+            g = g_new;
+            if !x.iter().all(|v| v.is_finite()) {
+                return Err(SolveError::NotFinite);
+            }
+        }
+    }
+    // The final pass also holds the charge integrals to tolerance, so it is the most accurate
+    // period integrated. Should it not close on itself (a capacitor so lightly loaded that a
+    // small error in the map moves the fixed point far), Newton runs on the final pass itself,
+    // replaying its steps: that map is smooth, so it closes to rounding, and since the same
+    // stages integrate the charge, the charge balance then holds as exactly.
+    let mut grid_t = Vec::new();
+    let (mut state, mut trace) = final_pass(c, &x, run, Steps::Adaptive(&mut grid_t))?;
+    integrations += 1;
+    let tol = tolerance_v(c);
+    let gap =
+        |s: &SteadyState| -> Vec<f64> { s.end.iter().zip(&s.start).map(|(e, b)| e - b).collect() };
+    let worst = |g: &[f64]| scaled_norm(g, &scales);
+    let mut g = gap(&state);
+    // A replay with the stiff formula can run away where a diode turns within a step that the
+    // error control no longer watches; the error-controlled pass then stands as the answer.
+    if n > 0 && worst(&g) > 300.0 * tol {
+        let controlled: (SteadyState, Trace) = (state.clone(), trace.clone());
+        'close: {
+            // A circuit that repeats every half cycle is integrated with the first half's steps
+            // twice over: the same discrete map on both halves keeps the closed period symmetric,
+            // where independent steps would let an ill-conditioned light load split its charge
+            // unevenly between the two diodes.
+            if c.period_s() < 0.75 * c.line_period_s() {
+                let half = c.period_s();
+                let mut t = 0.0;
+                let mut first = Vec::new();
+                for &step in &grid_t {
+                    if t >= half * (1.0 - 1e-12) {
+                        break;
+                    }
+                    first.push(step);
+                    t += step.h;
+                }
+                grid_t = first.iter().chain(first.iter()).copied().collect();
+                (state, trace) = match final_pass(c, &x, run, Steps::Replay(&grid_t)) {
+                    Ok(s) => s,
+                    Err(SolveError::NotFinite) => {
+                        (state, trace) = controlled.clone();
+                        break 'close;
+                    }
+                    Err(e) => return Err(e),
+                };
+                integrations += 1;
+                g = gap(&state);
+            }
+            let jt = match difference_jacobian(&x, &g, 1e-6 * scale, &scales, |xp| {
+                let (sp, _) = final_pass(c, xp, run, Steps::Replay(&grid_t))?;
+                integrations += 1;
+                Ok(gap(&sp))
+            }) {
+                Ok(jt) => jt,
+                Err(SolveError::NotFinite) => {
+                    (state, trace) = controlled.clone();
+                    break 'close;
+                }
+                Err(e) => return Err(e),
+            };
+            for _ in 0..8 {
+                let mut step: Vec<f64> = g.iter().map(|v| -v).collect();
+                let mut a = jt;
+                if solve_linear(n, &mut a, &mut step).is_none() {
+                    break;
+                }
+                x = x.iter().zip(&step).map(|(a, b)| a + b).collect();
+                (state, trace) = match final_pass(c, &x, run, Steps::Replay(&grid_t)) {
+                    Ok(s) => s,
+                    Err(SolveError::NotFinite) => {
+                        (state, trace) = controlled.clone();
+                        break 'close;
+                    }
+                    Err(e) => return Err(e),
+                };
+                integrations += 1;
+                g = gap(&state);
+                if worst(&g) <= 1e-3 * tol {
+                    break;
+                }
+            }
+        }
+    }
+    refine(c, &mut state, &trace, run);
+    state.newton_steps = newton_steps;
+    state.integrations = integrations;
+    state.evaluations = run.evaluations;
+    state.steps = run.steps;
+    state.stiff = run.method == Method::Stiff;
+    Ok(state)
+}
+
+/// Repeats one period from `x` until the state comes back within 300 tolerances, at most 500
+/// times (and within the solve's evaluation budget); None if it never does.
+fn plain_periods<Ckt: PeriodicCircuit + ?Sized>(
+    c: &Ckt,
+    x: &[f64],
+    run: &mut Run,
+    tol: f64,
+    integrations: &mut usize,
+) -> Result<Option<Vec<f64>>, SolveError> {
+    let mut x = x.to_vec();
+    let mut grid = Vec::new();
+    for _ in 0..500 {
+        let next = match period_map(c, &x, run, Steps::Adaptive(&mut grid)) {
+            Ok(next) => next,
+            Err(SolveError::WorkLimit(n)) => return Err(SolveError::WorkLimit(n)),
+            Err(_) => return Ok(None),
+        };
+        *integrations += 1;
+        let moved = scaled_norm(&sub(&next, &x), &run.scales);
+        x = next;
+        if !x.iter().all(|v| v.is_finite()) {
+            return Ok(None);
+        }
+        if moved <= 300.0 * tol {
+            return Ok(Some(x));
+        }
+    }
+    Ok(None)
+}
+
+/// Absolute tolerance on the capacitor voltages, volts: 1e-5 of the ripple keeps the charge
+/// balance of a period within 1e-4, bounded to 1e-10..1e-7 of the winding's peak.
+pub(super) fn tolerance_v<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> f64 {
+    let scale = c.volts_scale().max(1e-6);
+    (1e-6 * c.volts_resolution()).clamp(1e-10 * scale, 1e-7 * scale)
+}
+
+/// The largest of |v_i| / scale_i: a vector of state changes measured as volts.
+fn scaled_norm(v: &[f64], scales: &[f64; MAX_STATES]) -> f64 {
+    v.iter()
+        .zip(scales)
+        .fold(0.0f64, |m, (a, s)| m.max((a / s).abs()))
+}
+
+/// The forward-difference Jacobian of a residual G at `x` (the shooting mismatch of one map or
+/// another), with G(x) in `g`: column j from G at x plus `delta` times state j's scale. The
+/// residual's error (an integration that failed) ends it and is handed back.
+fn difference_jacobian<R>(
+    x: &[f64],
+    g: &[f64],
+    delta: f64,
+    scales: &[f64; MAX_STATES],
+    mut residual: R,
+) -> Result<[[f64; MAX_STATES]; MAX_STATES], SolveError>
+where
+    R: FnMut(&[f64]) -> Result<Vec<f64>, SolveError>,
+{
+    let n = x.len();
+    let mut jac = [[0.0; MAX_STATES]; MAX_STATES];
+    for j in 0..n {
+        let step = delta * scales[j];
+        let mut xp = x.to_vec();
+        xp[j] += step;
+        let gp = residual(&xp)?;
+        for i in 0..n {
+            jac[i][j] = (gp[i] - g[i]) / step;
+        }
+    }
+    Ok(jac)
+}
+
+fn sub(a: &[f64], b: &[f64]) -> Vec<f64> {
+    a.iter().zip(b).map(|(x, y)| x - y).collect()
+}
