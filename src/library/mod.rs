@@ -178,6 +178,19 @@ fn entry_from(file: &Path, read: io::Result<Vec<u8>>) -> Entry {
 }
 
 /// The supply without its visits: what a diagnosis depends on.
+/// The supply and text of the library file `file` as it is now (under the caller's lock), or
+/// why it cannot be read.
+fn read_readable(file: &Path) -> Result<(Supply, String), LibraryError> {
+    let fresh = read_library_entry(file);
+    match fresh.state {
+        EntryState::Ok { supply, text, .. } => Ok(((*supply).clone(), text)),
+        EntryState::Unreadable { error } => Err(LibraryError::Unreadable {
+            path: fresh.file,
+            error,
+        }),
+    }
+}
+
 fn without_visits(s: &Supply) -> Supply {
     let mut s = s.clone();
     s.visits.clear();
@@ -461,23 +474,15 @@ impl Library {
         visit: Visit,
     ) -> Result<Entry, LibraryError> {
         let _lock = self.lock()?;
-        let fresh = read_library_entry(file);
-        let EntryState::Ok { supply, text, .. } = &fresh.state else {
-            let EntryState::Unreadable { error } = fresh.state else {
-                unreachable!()
-            };
-            return Err(LibraryError::Unreadable {
-                path: fresh.file,
-                error,
-            });
-        };
+        let (supply, text) = read_readable(file)?;
+        let (supply, text) = (&supply, &text);
         if without_visits(supply) != without_visits(basis) {
             return Err(LibraryError::ChangedWhileRunning {
                 name: basis.name.clone(),
                 path: file.to_path_buf(),
             });
         }
-        let mut next = (**supply).clone();
+        let mut next = supply.clone();
         next.visits.push(visit);
         next.validate().map_err(|e| LibraryError::Unreadable {
             path: file.to_path_buf(),
@@ -500,16 +505,8 @@ impl Library {
         new_visit: Option<Visit>,
     ) -> Result<Entry, LibraryError> {
         let _lock = self.lock()?;
-        let fresh = read_library_entry(file);
-        let EntryState::Ok { supply, text, .. } = &fresh.state else {
-            let EntryState::Unreadable { error } = fresh.state else {
-                unreachable!()
-            };
-            return Err(LibraryError::Unreadable {
-                path: fresh.file,
-                error,
-            });
-        };
+        let (supply, text) = read_readable(file)?;
+        let (supply, text) = (&supply, &text);
         let values = |s: &Supply| {
             let mut s = without_visits(s);
             s.calibration = None;
@@ -521,7 +518,7 @@ impl Library {
                 path: file.to_path_buf(),
             });
         }
-        let mut next = (**supply).clone();
+        let mut next = supply.clone();
         for v in &mut next.visits {
             v.baseline = false;
         }
