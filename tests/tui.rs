@@ -1,68 +1,12 @@
 //! The screen, driven through its update function and drawn on ratatui's TestBackend: key
 //! sequences that a technician would type, and snapshots of the main screens (insta).
 
+mod common;
+use common::screen::{demo, go_to, keys, screen, set_field, typed};
 use railcheck::library::Library;
 use railcheck::supply::Supply;
 use railcheck::tui::app::{App, Mode, Msg};
-use railcheck::tui::fields::FIELDS;
-use ratatui::Terminal;
-use ratatui::backend::TestBackend;
 use std::path::PathBuf;
-
-/// A fresh demo library in a folder whose last two parts are fixed, so the title is stable.
-fn demo(tag: &str) -> (App, PathBuf) {
-    let dir = std::env::temp_dir()
-        .join(format!("railcheck-tui-{}", std::process::id()))
-        .join(tag)
-        .join("demo-lib");
-    let _ = std::fs::remove_dir_all(&dir);
-    let lib = Library::open(&dir, true).unwrap();
-    let mut app = App::new(lib).unwrap();
-    app.color = false;
-    (app, dir)
-}
-
-fn keys(app: &mut App, msgs: &[Msg]) {
-    for m in msgs {
-        app.update(m.clone());
-    }
-}
-
-fn typed(app: &mut App, text: &str) {
-    for c in text.chars() {
-        app.update(Msg::Char(c));
-    }
-}
-
-/// Moves the form's cursor to the row of the file key `path` as a technician would: Tab to
-/// the form, then Up to the top and Down until there.
-fn go_to_field(app: &mut App, path: &str) {
-    for _ in 0..3 {
-        if app.panel == railcheck::tui::app::Panel::Form {
-            break;
-        }
-        app.update(Msg::NextPanel);
-    }
-    for _ in 0..FIELDS.len() {
-        app.update(Msg::Up);
-    }
-    for _ in 0..FIELDS.len() {
-        if FIELDS[app.open.as_ref().unwrap().field].path == path {
-            return;
-        }
-        app.update(Msg::Down);
-    }
-    panic!("no row {path} in the form");
-}
-
-/// Types `text` into the field of `path` as a technician would: move there, Enter, type (the
-/// old value, selected, goes with the first key), Enter.
-fn set_field(app: &mut App, path: &str, text: &str) {
-    go_to_field(app, path);
-    app.update(Msg::Enter);
-    typed(app, text);
-    app.update(Msg::Enter);
-}
 
 fn select(app: &mut App, name: &str) {
     let pos = app
@@ -90,12 +34,6 @@ fn figure(app: &App, name: &str) -> f64 {
         .unwrap()
         .1
         .unwrap()
-}
-
-fn screen(app: &App, w: u16, h: u16) -> String {
-    let mut t = Terminal::new(TestBackend::new(w, h)).unwrap();
-    t.draw(|f| railcheck::tui::view::view(app, f)).unwrap();
-    t.backend().to_string()
 }
 
 const PUMP: &str = "Pump-house 2, relay rail";
@@ -184,7 +122,7 @@ fn what_if_discard_leaves_the_file_as_it_was() {
 fn quitting_with_an_edit_in_progress_loses_nothing() {
     let (mut app, _) = demo("quit");
     select(&mut app, PUMP);
-    go_to_field(&mut app, "filter.esr_ohms");
+    go_to(&mut app, "filter.esr_ohms");
     app.update(Msg::Enter);
     for _ in 0..10 {
         app.update(Msg::Backspace);

@@ -1,43 +1,11 @@
 //! The screen's form, keys and library actions as a technician uses them (issue 11), driven
 //! through the update function and drawn on ratatui's TestBackend.
 
-use railcheck::library::Library;
+mod common;
+use common::screen::{demo, go_to, keys, screen, typed};
 use railcheck::supply::Supply;
 use railcheck::tui::app::{App, Confirm, Mode, Msg, Panel};
 use railcheck::tui::fields::FIELDS;
-use ratatui::Terminal;
-use ratatui::backend::TestBackend;
-use std::path::PathBuf;
-
-fn demo(tag: &str) -> (App, PathBuf) {
-    let dir = std::env::temp_dir()
-        .join(format!("railcheck-tui-form-{}", std::process::id()))
-        .join(tag)
-        .join("demo-lib");
-    let _ = std::fs::remove_dir_all(&dir);
-    let lib = Library::open(&dir, true).unwrap();
-    let mut app = App::new(lib).unwrap();
-    app.color = false;
-    (app, dir)
-}
-
-fn keys(app: &mut App, msgs: &[Msg]) {
-    for m in msgs {
-        app.update(m.clone());
-    }
-}
-
-fn typed(app: &mut App, text: &str) {
-    for c in text.chars() {
-        app.update(Msg::Char(c));
-    }
-}
-
-fn screen(app: &App, w: u16, h: u16) -> String {
-    let mut t = Terminal::new(TestBackend::new(w, h)).unwrap();
-    t.draw(|f| railcheck::tui::view::view(app, f)).unwrap();
-    t.backend().to_string()
-}
 
 fn select(app: &mut App, name: &str) {
     app.panel = Panel::List;
@@ -53,20 +21,6 @@ fn select(app: &mut App, name: &str) {
         app.update(Msg::Down);
     }
     assert_eq!(app.open.as_ref().unwrap().supply.name, name);
-}
-
-fn go_to(app: &mut App, path: &str) {
-    app.panel = Panel::Form;
-    for _ in 0..FIELDS.len() {
-        app.update(Msg::Up);
-    }
-    for _ in 0..FIELDS.len() {
-        if FIELDS[app.open.as_ref().unwrap().field].path == path {
-            return;
-        }
-        app.update(Msg::Down);
-    }
-    panic!("no row {path}");
 }
 
 fn on_disk(app: &App) -> (Supply, String) {

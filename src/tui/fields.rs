@@ -397,9 +397,9 @@ impl Field {
         out.unconfirmed.retain(|p| p != self.path);
         // A guess whose key the change dropped (the ratio, once the nameplate is chosen) is
         // no longer there to confirm.
-        let kept = out.clone();
-        out.unconfirmed
-            .retain(|p| row(p).is_none_or(|f| f.applies(&kept) && f.show(&kept) != "-"));
+        let mut unconfirmed = std::mem::take(&mut out.unconfirmed);
+        unconfirmed.retain(|p| row(p).is_none_or(|f| f.applies(&out) && f.show(&out) != "-"));
+        out.unconfirmed = unconfirmed;
         for g in guesses {
             if !out.unconfirmed.iter().any(|p| p == g) {
                 out.unconfirmed.push(g.to_string());

@@ -2,6 +2,7 @@
 #![allow(dead_code)]
 
 pub mod field;
+pub mod screen;
 
 use std::collections::BTreeMap;
 use std::path::Path;
