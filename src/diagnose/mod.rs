@@ -266,8 +266,15 @@ fn predicted(f: &Figures, reading: &str, cond: &Conditions, supply: &Supply) -> 
 }
 
 /// Weighted squared misfit of the readings against a solved circuit, each reading with its
-/// [`sigma`].
-fn misfit(readings: &Readings, f: &Figures, cond: &Conditions, supply: &Supply) -> f64 {
+/// [`sigma`] (the smaller model share when the unit is `calibrated`: worked out once by the
+/// caller, since it walks the visits).
+fn misfit(
+    readings: &Readings,
+    f: &Figures,
+    cond: &Conditions,
+    supply: &Supply,
+    calibrated: bool,
+) -> f64 {
     let mut chi2 = 0.0;
     for (k, v) in readings.present() {
         if k == "mains_vrms" && cond.mains_vrms.is_some() {
@@ -278,7 +285,7 @@ fn misfit(readings: &Readings, f: &Figures, cond: &Conditions, supply: &Supply) 
             chi2 += frequency_misfit(v, p);
             continue;
         }
-        chi2 += ((v - p) / sigma(k, v, p, supply.calibration_in_force().any())).powi(2);
+        chi2 += ((v - p) / sigma(k, v, p, calibrated)).powi(2);
     }
     chi2
 }

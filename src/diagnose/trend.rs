@@ -124,6 +124,8 @@ static DUMMY: Figures = Figures {
 /// fits.
 pub struct CapacitanceFit<'a> {
     supply: &'a Supply,
+    /// Whether a calibration is in force (it sets the readings' model share).
+    calibrated: bool,
     /// Tables in ascending mains volts.
     tables: Vec<(f64, Table)>,
 }
@@ -157,7 +159,11 @@ impl<'a> CapacitanceFit<'a> {
             .into_iter()
             .map(|v| (v, Table::solve(supply, v)))
             .collect();
-        CapacitanceFit { supply, tables }
+        CapacitanceFit {
+            supply,
+            calibrated: supply.calibration_in_force().any(),
+            tables,
+        }
     }
 
     /// Circuits solved for the tables: the work behind a trend, however many visits share it.
@@ -251,7 +257,7 @@ impl<'a> CapacitanceFit<'a> {
             ..Conditions::default()
         };
         let cost = |u: f64| match self.figures(mains, u) {
-            Some(f) => misfit(readings, &f, &cond, self.supply),
+            Some(f) => misfit(readings, &f, &cond, self.supply, self.calibrated),
             None => f64::INFINITY,
         };
         // The best node first (the misfit need not have one valley over so wide a range),
