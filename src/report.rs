@@ -102,6 +102,30 @@ fn filter_words(s: &Supply) -> String {
             format_number(f.series_ohms.unwrap_or(0.0)),
             format_uf(f.second_uf.unwrap_or(0.0))
         ),
+        FilterKind::Lc => format!("choke input {}, {}", choke_words(s), part(f.uf)),
+        FilterKind::Clc => format!(
+            "CLC filter {}, {}, {}",
+            part(f.uf),
+            choke_words(s),
+            format_uf(f.second_uf.unwrap_or(0.0))
+        ),
+    }
+}
+
+/// The choke as a technician names it: "10 H 150 ohm choke", a swinging one "5-20 H
+/// swinging choke (200 mA), 90 ohm".
+fn choke_words(s: &Supply) -> String {
+    let f = &s.filter;
+    let h = f.choke_h.unwrap_or(0.0);
+    let ohms = format_number(f.choke_ohms.unwrap_or(0.0));
+    match (f.choke_light_h, f.choke_rated_a) {
+        (Some(light), Some(rated)) => format!(
+            "{}-{} H swinging choke ({}), {ohms} ohm",
+            format_number(h),
+            format_number(light),
+            format_si(rated, "A")
+        ),
+        _ => format!("{} H {ohms} ohm choke", format_number(h)),
     }
 }
 

@@ -32,13 +32,18 @@ fn every_topology_and_filter_solves_and_reports_from_its_template() {
                 s.filter.series_ohms = Some(10.0);
                 s.filter.second_uf = Some(1000.0);
             }
+            if k.has_choke() {
+                let (henries, ohms) = railcheck::analysis::choke_guess(&s);
+                s.filter.choke_h = Some(henries);
+                s.filter.choke_ohms = Some(ohms);
+            }
             if !k.has_capacitor() {
                 // An unfiltered rectifier with a current load has no working point below its
                 // knee to speak of: a resistance, as such a load is.
                 s.load.amps = None;
                 s.load.ohms = Some(100.0);
             }
-            if t.needs_capacitor() && !k.has_capacitor() {
+            if t.needs_capacitor() && (!k.has_capacitor() || k.is_choke_input()) {
                 // Refused with the reason, never solved as something else.
                 let e = s.validate().unwrap_err().to_string();
                 assert!(e.contains("filter.kind"), "{t:?} {k:?}: {e}");

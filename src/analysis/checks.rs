@@ -135,6 +135,42 @@ pub fn checks(
             _ => not_rated.push("cap-ripple-current"),
         }
     }
+    if let Some(c) = super::choke::critical(supply, stress.dc_v) {
+        let below = c.henries < c.critical_henries;
+        let formula = if supply.rectifier.topology.is_full_wave() {
+            "R / 3w"
+        } else {
+            "pi R / 2w"
+        };
+        let load = if c.lightest_ohms.is_finite() {
+            format!(
+                "the lightest load, {}",
+                crate::units::format_si(c.lightest_ohms, "ohm")
+            )
+        } else {
+            "no load (nothing stated draws current; a bleeder would)".to_string()
+        };
+        out.push(Check {
+            id: "choke-critical",
+            status: if below { Status::Warn } else { Status::Ok },
+            value: c.henries,
+            limit: c.critical_henries,
+            message: if below {
+                format!(
+                    "choke {} at {load} is below the critical {} ({formula}): its current \
+                     stops each cycle and the rail rises towards the peak",
+                    crate::units::format_si(c.henries, "H"),
+                    crate::units::format_si(c.critical_henries, "H"),
+                )
+            } else {
+                format!(
+                    "choke {} at {load} clears the critical {} ({formula})",
+                    crate::units::format_si(c.henries, "H"),
+                    crate::units::format_si(c.critical_henries, "H"),
+                )
+            },
+        });
+    }
     let r = &supply.rectifier;
     match r.rated_piv_v {
         Some(rated) => {

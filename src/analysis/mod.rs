@@ -4,5 +4,8 @@
 #![deny(clippy::wildcard_enum_match_arm)]
 pub mod cautions;
 pub mod checks;
+pub mod choke;
 pub mod sizing;
 pub mod worst_case;
+
+pub use choke::choke_guess;

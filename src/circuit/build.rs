@@ -2,7 +2,9 @@
 //! charging paths of its topology, its reservoirs and filter, its load.
 
 use super::diode::DiodeLaw;
-use super::network::{Arrangement, LoadLaw, Network, Path, Polarity, Reservoir, SecondStage};
+use super::network::{
+    Arrangement, Inductance, LoadLaw, Network, Path, Polarity, Reservoir, SecondStage, Swing,
+};
 use super::waveform::MainsWave;
 use crate::supply::{FilterKind, Supply, SupplyError, Topology};
 
@@ -39,6 +41,13 @@ pub struct Conditions {
     pub winding_factor: f64,
     /// The mains crest factor instead of the file's (peak over RMS).
     pub crest: Option<f64>,
+    /// Multiplies the transformer's leakage inductance (its spread, or an assumed one).
+    pub leakage_factor: f64,
+    /// Multiplies a choke's resistance (a warm choke).
+    pub choke_factor: f64,
+    /// The choke shorted (turns shorted together or bridged): its inductance gone, its
+    /// resistance left.
+    pub choke_shorted: bool,
 }
 
 impl Default for Conditions {
@@ -56,6 +65,9 @@ impl Default for Conditions {
             capacitor_open: false,
             winding_factor: 1.0,
             crest: None,
+            leakage_factor: 1.0,
+            choke_factor: 1.0,
+            choke_shorted: false,
         }
     }
 }
@@ -91,12 +103,18 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
     let whole = winding.secondary_ohms + winding.primary_ohms / (ratio * ratio);
     let half = 0.5 * winding.secondary_ohms;
     let topology = supply.rectifier.topology;
-    let path = |emf_share, polarity, ohms, diodes, reservoir| Path {
+    // The leakage in each path's share of the winding: a center tap's half has half of it
+    // (as its resistance is half), the whole winding the rest.
+    let leakage_h = winding.leakage_h * cond.leakage_factor;
+    let path = |emf_share: f64, polarity, ohms, diodes, reservoir| Path {
         emf_share,
         polarity,
         ohms,
         diodes,
         reservoir,
+        leakage_h: leakage_h * emf_share.min(1.0),
+        choke: None,
+        series_ohms: 0.0,
     };
     let full_wave = if cond.leg_open {
         Polarity::OneLegOpen
@@ -160,14 +178,40 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         farads: stated.farads * cond.reservoir_factor,
         esr_ohms: cond.esr_ohms.unwrap_or(f.esr_ohms),
     };
+    let choke = f.choke_h.map(|henries| Inductance {
+        henries,
+        swing: match (f.choke_light_h, f.choke_rated_a) {
+            (Some(light_henries), Some(rated_a)) => Some(Swing {
+                light_henries,
+                rated_a,
+            }),
+            _ => None,
+        },
+    });
+    let choke_ohms = f.choke_ohms.unwrap_or(0.0) * cond.choke_factor;
+    // A shorted choke is a piece of wire: its resistance stays, its inductance goes.
+    let choke = choke.filter(|_| !cond.choke_shorted);
     let crc = match (f.kind, f.series_ohms, f.second_uf) {
         (FilterKind::Crc, Some(ohms), Some(uf)) => Some(SecondStage {
             ohms,
             farads: uf * 1e-6 * cap_factor,
+            choke: None,
         }),
-        _ => None,
+        (FilterKind::Clc, _, Some(uf)) => Some(SecondStage {
+            ohms: choke_ohms,
+            farads: uf * 1e-6 * cap_factor,
+            choke,
+        }),
+        (FilterKind::Crc | FilterKind::Clc | FilterKind::None | FilterKind::Capacitor, ..)
+        | (FilterKind::Lc, ..) => None,
     };
     let mut paths = paths;
+    if f.kind == FilterKind::Lc {
+        for p in &mut paths {
+            p.choke = choke;
+            p.series_ohms = choke_ohms;
+        }
+    }
     let (reservoirs, second) = match (f.kind, crc) {
         (FilterKind::None, _) => (Vec::new(), None),
         // A CRC whose first capacitor is open: the rectifier charges the second one through
@@ -175,7 +219,8 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         // else hangs on the rectifier's side of it).
         (_, Some(stage)) if cond.capacitor_open => {
             for p in &mut paths {
-                p.ohms += stage.ohms;
+                p.series_ohms += stage.ohms;
+                p.choke = stage.choke;
             }
             (
                 vec![Reservoir {

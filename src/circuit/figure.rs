@@ -26,11 +26,15 @@ pub enum Figure {
     InrushPeakA,
     CapPeakV,
     SecondaryRmsV,
+    ChokeRmsA,
+    ChokePeakA,
+    ChokeDcDropV,
+    OutCapRippleRmsA,
 }
 
 impl Figure {
     /// Every figure, in the report's order.
-    pub const ALL: [Figure; 18] = [
+    pub const ALL: [Figure; 22] = [
         Figure::DcV,
         Figure::MaxV,
         Figure::MinV,
@@ -49,6 +53,10 @@ impl Figure {
         Figure::InrushPeakA,
         Figure::CapPeakV,
         Figure::SecondaryRmsV,
+        Figure::ChokeRmsA,
+        Figure::ChokePeakA,
+        Figure::ChokeDcDropV,
+        Figure::OutCapRippleRmsA,
     ];
 
     /// One row of the table: JSON key, the report's words, the screen's short words, unit.
@@ -86,6 +94,15 @@ impl Figure {
                 "Secondary AC (meter)",
                 "Secondary AC",
                 "V",
+            ),
+            Figure::ChokeRmsA => ("choke_rms_a", "Choke RMS", "Choke RMS", "A"),
+            Figure::ChokePeakA => ("choke_peak_a", "Choke peak", "Choke peak", "A"),
+            Figure::ChokeDcDropV => ("choke_dc_drop_v", "Choke DC drop", "Choke drop", "V"),
+            Figure::OutCapRippleRmsA => (
+                "out_cap_ripple_rms_a",
+                "Output capacitor ripple RMS",
+                "Out cap rip.",
+                "A",
             ),
         }
     }
@@ -136,6 +153,10 @@ impl Figure {
             Figure::InrushPeakA => f.inrush_peak_a,
             Figure::CapPeakV => Some(f.cap_peak_v),
             Figure::SecondaryRmsV => Some(f.secondary_rms_v),
+            Figure::ChokeRmsA => f.choke_rms_a,
+            Figure::ChokePeakA => f.choke_peak_a,
+            Figure::ChokeDcDropV => f.choke_dc_drop_v,
+            Figure::OutCapRippleRmsA => f.out_cap_ripple_rms_a,
         }
     }
 }

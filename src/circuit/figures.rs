@@ -35,6 +35,14 @@ pub struct Figures {
     pub cap_peak_v: f64,
     /// What an AC meter across the whole secondary reads under this load (RMS volts).
     pub secondary_rms_v: f64,
+    /// The choke's RMS and peak current and the DC it drops (its resistance times its
+    /// average current); None without a choke.
+    pub choke_rms_a: Option<f64>,
+    pub choke_peak_a: Option<f64>,
+    pub choke_dc_drop_v: Option<f64>,
+    /// The output capacitor's ripple current, RMS: a CRC's or CLC's second capacitor; None
+    /// with one capacitor (then it is `cap_ripple_rms_a`).
+    pub out_cap_ripple_rms_a: Option<f64>,
 }
 
 impl Figures {
@@ -48,9 +56,11 @@ impl Figures {
         let heaviest = used()
             .max_by(|a, b| a.0.total_cmp(&b.0))
             .map_or(0.0, |(_, f)| f.ripple_hz);
-        let inrush = used()
-            .map(|(w, f)| f.inrush_peak_a.map(|a| w * a))
-            .sum::<Option<f64>>();
+        let optional = |g: fn(&Figures) -> Option<f64>| {
+            used()
+                .map(|(w, f)| g(f).map(|a| w * a))
+                .sum::<Option<f64>>()
+        };
         Figures {
             dc_v: sum(|f| f.dc_v),
             max_v: sum(|f| f.max_v),
@@ -67,14 +77,18 @@ impl Figures {
             winding_va: sum(|f| f.winding_va),
             cap_ripple_rms_a: sum(|f| f.cap_ripple_rms_a),
             conduction_deg: sum(|f| f.conduction_deg),
-            inrush_peak_a: inrush,
+            inrush_peak_a: optional(|f| f.inrush_peak_a),
             cap_peak_v: sum(|f| f.cap_peak_v),
             secondary_rms_v: sum(|f| f.secondary_rms_v),
+            choke_rms_a: optional(|f| f.choke_rms_a),
+            choke_peak_a: optional(|f| f.choke_peak_a),
+            choke_dc_drop_v: optional(|f| f.choke_dc_drop_v),
+            out_cap_ripple_rms_a: optional(|f| f.out_cap_ripple_rms_a),
         }
     }
 
     /// Every figure with its JSON name, in the report's order.
-    pub fn named(&self) -> [(&'static str, Option<f64>); 18] {
+    pub fn named(&self) -> [(&'static str, Option<f64>); 22] {
         [
             ("dc_v", Some(self.dc_v)),
             ("max_v", Some(self.max_v)),
@@ -94,6 +108,10 @@ impl Figures {
             ("inrush_peak_a", self.inrush_peak_a),
             ("cap_peak_v", Some(self.cap_peak_v)),
             ("secondary_rms_v", Some(self.secondary_rms_v)),
+            ("choke_rms_a", self.choke_rms_a),
+            ("choke_peak_a", self.choke_peak_a),
+            ("choke_dc_drop_v", self.choke_dc_drop_v),
+            ("out_cap_ripple_rms_a", self.out_cap_ripple_rms_a),
         ]
     }
 }
@@ -105,6 +123,13 @@ pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figure
     let topology = supply.rectifier.topology;
     let halves = topology.has_half_windings();
     let winding_rms = s.mean_sq_i_winding.max(0.0).sqrt();
+    // The choke's resistance, where there is a choke (a shorted one still carries the
+    // current through its copper).
+    let choke = supply
+        .filter
+        .kind
+        .has_choke()
+        .then(|| supply.filter.choke_ohms.unwrap_or(0.0));
     // Volt-amperes as the transformer's rating counts them: its RMS EMF times RMS current,
     // each half of a center-tapped winding counted.
     let winding_va = if halves {
@@ -137,6 +162,10 @@ pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figure
             .sum::<f64>()
             / s.probes.len().max(1) as f64)
             .sqrt(),
+        choke_rms_a: choke.map(|_| s.mean_sq_i_choke.max(0.0).sqrt()),
+        choke_peak_a: choke.map(|_| s.i_choke_peak),
+        choke_dc_drop_v: choke.map(|ohms| ohms * s.mean_i_choke),
+        out_cap_ripple_rms_a: net.second.map(|_| s.mean_sq_i_out_cap.max(0.0).sqrt()),
     }
 }
 
@@ -167,7 +196,7 @@ fn ripple_frequency(line_hz: f64, probes: &[solver::Probe]) -> f64 {
 fn inrush(net: &Network) -> Option<f64> {
     let p = net.paths.first()?;
     let esr = net.reservoirs.first().map_or(0.0, |r| r.esr_ohms);
-    let ohms = p.ohms + esr;
+    let ohms = p.ohms + p.series_ohms + esr;
     let peak = p.emf_share * net.emf_rms_v * net.wave.crest();
     if net.reservoirs.is_empty() {
         // No capacitor: the first pulse is an ordinary one.
@@ -180,8 +209,15 @@ fn inrush(net: &Network) -> Option<f64> {
         }
         return Some(net.diode.string_current(peak, ohms + load_ohms, p.diodes));
     }
-    if ohms <= 0.0 {
-        return None;
+    // Inductance in the path (leakage, a choke input) bounds the first pulse too: an
+    // undamped LC swing from the crest peaks at V / sqrt(L / C); the smaller bound holds.
+    let henries = p.leakage_h + p.choke.map_or(0.0, |c| c.at(0.0));
+    let farads = net.reservoirs.first().map_or(0.0, |r| r.farads);
+    let swing = (henries > 0.0 && farads > 0.0).then(|| peak / (henries / farads).sqrt());
+    match (ohms > 0.0, swing) {
+        (false, None) => None,
+        (true, None) => Some(net.diode.string_current(peak, ohms, p.diodes)),
+        (false, Some(a)) => Some(a),
+        (true, Some(a)) => Some(a.min(net.diode.string_current(peak, ohms, p.diodes))),
     }
-    Some(net.diode.string_current(peak, ohms, p.diodes))
 }

@@ -6,11 +6,26 @@
 //! reservoir capacitor. Reservoirs stack in series (a doubler has two). At most one path
 //! conducts at a time in these topologies, and with the diode currents known everything else
 //! is linear, so each path's diode sees a Thevenin source that two linear evaluations give.
+//!
+//! A path with inductance (the transformer's leakage, or a choke-input filter's choke between
+//! the rectifier and its capacitor) carries a current that cannot jump: the current is then a
+//! state of its own, driven by what is left of the source after the diodes, the resistance and
+//! the capacitor, and held at zero while the diodes block (the rectifier cannot carry it
+//! backwards). A CLC's choke between its capacitors is a state too, free to reverse.
 
 use super::diode::DiodeLaw;
 use super::solver::{EDGES, PeriodicCircuit, Probe};
 use super::waveform::MainsWave;
 use std::f64::consts::PI;
+
+/// A blocked path's current (below its knee, or an overshoot below zero) returns to zero with a
+/// time constant of the mains period over this: fast enough to be gone before the next pulse,
+/// slow enough not to make the circuit stiff.
+const RELAX_PER_PERIOD: f64 = 50.0;
+
+/// The knee current of an inductive path's diodes, as a share of what the winding's peak
+/// drives through the path's impedance (see `run`).
+const KNEE_SHARE: f64 = 1e-4;
 
 /// How a path sees the winding's EMF.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -37,6 +52,50 @@ pub struct Path {
     pub diodes: u32,
     /// Which reservoir it charges.
     pub reservoir: usize,
+    /// Leakage inductance in the path's share of the winding, henries.
+    pub leakage_h: f64,
+    /// A choke-input filter's choke, between the diodes and the reservoir.
+    pub choke: Option<Inductance>,
+    /// Resistance between the diodes and the reservoir, ohms: a choke's, or a CRC's resistor
+    /// when its first capacitor is open (outside the winding, so not in its drop).
+    pub series_ohms: f64,
+}
+
+/// A choke's inductance, henries, fixed or swinging with its current.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Inductance {
+    /// At the rated current and above (a fixed choke: at every current).
+    pub henries: f64,
+    pub swing: Option<Swing>,
+}
+
+/// A swinging choke: `light_henries` up to a tenth of `rated_a`, falling in a straight line to
+/// the rated inductance at `rated_a` (henries, amps).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Swing {
+    pub light_henries: f64,
+    pub rated_a: f64,
+}
+
+impl Inductance {
+    /// The inductance at `amps` (either direction), henries.
+    pub fn at(&self, amps: f64) -> f64 {
+        match self.swing {
+            None => self.henries,
+            Some(s) => {
+                let light_a = 0.1 * s.rated_a;
+                let a = amps.abs();
+                if a <= light_a {
+                    s.light_henries
+                } else if a >= s.rated_a {
+                    self.henries
+                } else {
+                    let u = (a - light_a) / (s.rated_a - light_a);
+                    s.light_henries + u * (self.henries - s.light_henries)
+                }
+            }
+        }
+    }
 }
 
 /// A filter capacitor with its equivalent series resistance (farads, ohms).
@@ -46,11 +105,13 @@ pub struct Reservoir {
     pub esr_ohms: f64,
 }
 
-/// The R and second C of a CRC filter (ohms, farads).
+/// The series part and second C of a CRC or CLC filter (ohms, farads): a resistor, or a
+/// choke with its resistance in `ohms`.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct SecondStage {
     pub ohms: f64,
     pub farads: f64,
+    pub choke: Option<Inductance>,
 }
 
 /// What the rail feeds.
@@ -166,6 +227,11 @@ impl Network {
             r_stack += r.esr_ohms;
         }
         let (i_out, v_out, i_load) = match self.second {
+            // A choke's current is a state: the capacitors see it as given.
+            Some(s) if s.choke.is_some() => {
+                let v2 = x[k];
+                (x[self.stage_state()], v2, self.load.current_at(v2))
+            }
             Some(s) => {
                 let v2 = x[k];
                 let i_out = (v0 - v2) / (s.ohms + r_stack);
@@ -186,6 +252,41 @@ impl Network {
             v_out,
             i_load,
         }
+    }
+
+    /// Capacitor voltages among the states: the reservoirs, then a second stage's capacitor.
+    fn capacitors(&self) -> usize {
+        self.reservoirs.len() + usize::from(self.second.is_some())
+    }
+
+    /// Whether the charging paths carry inductance, so that their currents are states. A
+    /// rectifier with no capacitor keeps its paths resistive (see `unfiltered`).
+    pub fn has_inductive_paths(&self) -> bool {
+        !self.reservoirs.is_empty()
+            && self
+                .paths
+                .iter()
+                .any(|p| p.leakage_h > 0.0 || p.choke.is_some())
+    }
+
+    /// Where path `j`'s current sits among the states.
+    fn path_state(&self, j: usize) -> usize {
+        self.capacitors() + j
+    }
+
+    /// Where a CLC choke's current sits among the states.
+    fn stage_state(&self) -> usize {
+        self.capacitors()
+            + if self.has_inductive_paths() {
+                self.paths.len()
+            } else {
+                0
+            }
+    }
+
+    /// A path's inductance at `amps`, henries.
+    fn path_henries(p: &Path, amps: f64) -> f64 {
+        p.leakage_h + p.choke.map_or(0.0, |c| c.at(amps))
     }
 
     /// A doubler with both legs working: e(t + T/2) = -e(t) turns each capacitor's half cycle
@@ -228,22 +329,27 @@ impl Network {
                 }
             }
         };
-        self.probe(e, [i, 0.0], v_out, v_out, 0.0, i, s)
+        self.probe(
+            e,
+            &Flow {
+                path_i: [i, 0.0],
+                drops: [ohms * i, 0.0],
+                cathode: v_out,
+                v_out,
+                v_cap: v_out,
+                i_cap: 0.0,
+                i_load: i,
+                v_source: s,
+                i_choke: 0.0,
+                i_out_cap: 0.0,
+            },
+        )
     }
 
     /// Assembles the probe from path currents and node values.
-    #[allow(clippy::too_many_arguments)]
-    fn probe(
-        &self,
-        e: f64,
-        path_i: [f64; 2],
-        v_out: f64,
-        rail0: f64,
-        i_cap: f64,
-        i_load: f64,
-        v_source: f64,
-    ) -> Probe {
+    fn probe(&self, e: f64, flow: &Flow) -> Probe {
         let first = &self.paths[0];
+        let path_i = flow.path_i;
         let (i_diode, i_winding) = match first.polarity {
             // In a full-wave path the current belongs to diode 1 while e > 0, to diode 2 after.
             Polarity::Rectified | Polarity::OneLegOpen => {
@@ -259,89 +365,154 @@ impl Network {
         };
         let share = first.emf_share;
         // The whole secondary's terminal voltage, as an AC meter across it reads: the EMF less
-        // the drop of the current through it (both halves' drops for a center tap).
-        let signed = match first.polarity {
-            Polarity::Rectified | Polarity::OneLegOpen => path_i[0] * e.signum(),
-            Polarity::Forward | Polarity::Inverted => path_i[0] - path_i[1],
+        // the drop of the current through it, resistive and leakage (both halves' drops for a
+        // center tap).
+        let signed_drop = match first.polarity {
+            Polarity::Rectified | Polarity::OneLegOpen => flow.drops[0] * e.signum(),
+            Polarity::Forward | Polarity::Inverted => flow.drops[0] - flow.drops[1],
         };
-        let v_secondary = e - first.ohms / share * signed;
+        let v_secondary = e - signed_drop / share;
+        // Where the diodes' cathodes meet: the reservoir's top, or a choke's input.
+        let cathode = flow.cathode;
         let v_reverse = match self.arrangement {
             Arrangement::Bridge if path_i[0] > 0.0 => {
                 let fwd = self.diode.forward_v(path_i[0]);
-                if e < 0.0 { rail0 + fwd } else { -fwd }
+                if e < 0.0 { cathode + fwd } else { -fwd }
             }
             // Not conducting: each pair of blocking diodes shares the rail, the winding
             // between their midpoints.
-            Arrangement::Bridge => 0.5 * (rail0 - share * e),
+            Arrangement::Bridge => 0.5 * (cathode - share * e),
             // While this half feeds the - rail its end sits below the EMF by its own drop.
-            Arrangement::SplitRail if e < 0.0 => rail0 - share * e - first.ohms * path_i[0],
+            Arrangement::SplitRail if e < 0.0 => cathode - share * e - flow.drops[0],
             // Cathode on the rail (or a reservoir's top), anode on the winding end, which
             // sits below the EMF by the drop of whatever current that winding carries.
-            Arrangement::Direct => rail0 - share * e + first.ohms * (path_i[0] - path_i[1]),
+            Arrangement::Direct => cathode - share * e + (flow.drops[0] - flow.drops[1]),
             Arrangement::CenterTap | Arrangement::SplitRail => {
-                rail0 - share * e + first.ohms * i_diode
+                let own = if i_diode > 0.0 { flow.drops[0] } else { 0.0 };
+                cathode - share * e + own
             }
         };
         Probe {
-            v_out,
+            v_out: flow.v_out,
             v_secondary,
-            v_cap: rail0,
-            v_source,
+            v_cap: flow.v_cap,
+            v_source: flow.v_source,
             i_diode,
             v_reverse,
             i_winding,
-            i_cap,
-            i_load,
+            i_cap: flow.i_cap,
+            i_load: flow.i_load,
+            i_choke: flow.i_choke,
+            i_out_cap: flow.i_out_cap,
             edges: [f64::NAN; EDGES],
         }
     }
 
-    /// The circuit at `t` seconds with capacitor voltages `x`: fills dV/dt and, when asked,
+    /// The circuit at `t` seconds with states `x`: fills their derivatives and, when asked,
     /// the probe; the switching functions are always filled.
     fn run(&self, t: f64, x: &[f64], dx: &mut [f64], want_probe: bool) -> Probe {
         let e = self.emf(t);
         if self.reservoirs.is_empty() {
             return self.unfiltered(e);
         }
-        let base = self.nodes(x, [0.0; 2]);
+        let k = self.reservoirs.len();
         let mut path_i = [0.0; 2];
         let mut charge = [0.0; 2];
+        let mut drops = [0.0; 2];
+        let mut cathode = f64::NAN;
         let mut v_source = f64::NEG_INFINITY;
         let mut edges = [f64::NAN; EDGES];
-        for (j, p) in self.paths.iter().enumerate() {
-            let s = self.path_source(p, e);
-            let k = p.reservoir;
-            let others: f64 =
-                base.terminal[..self.reservoirs.len()].iter().sum::<f64>() - base.terminal[k];
-            v_source = v_source.max(s + others);
-            let open = s - base.terminal[k];
-            if let DiodeLaw::Fixed { drop_v, .. } = self.diode {
-                edges[j] = open - p.diodes as f64 * drop_v;
+        let nodes = if self.has_inductive_paths() {
+            for (j, p) in self.paths.iter().enumerate() {
+                let i = x[self.path_state(j)].max(0.0);
+                path_i[j] = i;
+                charge[p.reservoir] += i;
             }
-            if open <= 0.0 {
-                continue;
+            let nodes = self.nodes(x, charge);
+            let stack: f64 = nodes.terminal[..k].iter().sum();
+            for (j, p) in self.paths.iter().enumerate() {
+                let s = self.path_source(p, e);
+                let top = nodes.terminal[p.reservoir];
+                v_source = v_source.max(s + stack - top);
+                let i = path_i[j];
+                let raw = x[self.path_state(j)];
+                // Below a small knee current the diodes' voltage is held at its value there:
+                // the exponential law's tail (microamps over tenths of a volt) carries no
+                // charge that matters, and following it would make every turn-on stiff.
+                let knee = KNEE_SHARE * self.volts_scale() * self.path_scale(p);
+                let drive = s
+                    - top
+                    - (p.ohms + p.series_ohms) * i
+                    - p.diodes as f64 * self.diode.forward_v(i.max(knee));
+                // The diodes block a current that would reverse: once it has fallen to the knee
+                // with the drive against it, it is let down to zero gently (and any overshoot
+                // below zero back up), held there until the source overcomes the capacitor and
+                // the diodes' threshold again. Dropping it at the full drive would chatter
+                // about zero, the drive reversing at each crossing.
+                let blocked = drive <= 0.0 && raw <= knee;
+                let didt = if blocked {
+                    -raw * self.line_hz * RELAX_PER_PERIOD
+                } else {
+                    drive / Self::path_henries(p, i)
+                };
+                dx[self.path_state(j)] = didt;
+                drops[j] = p.ohms * i + p.leakage_h * didt;
+                if j == 0 {
+                    let choke_h = p.choke.map_or(0.0, |c| c.at(i));
+                    cathode = top + p.series_ohms * i + choke_h * didt;
+                }
+                // The turn-off is where the current falls through the knee, the turn-on where
+                // the drive turns positive (measured in volts through the path's scale).
+                edges[j] = if raw <= knee && drive > 0.0 {
+                    drive
+                } else {
+                    (raw - knee) / self.path_scale(p)
+                };
             }
-            // The terminal voltage is affine in this path's current: its slope is the
-            // resistance the diode sees looking into the filter.
-            let mut unit = [0.0; 2];
-            unit[k] = 1.0;
-            let slope = self.nodes(x, unit).terminal[k] - base.terminal[k];
-            let ohms = (p.ohms + slope).max(self.min_path_ohms);
-            let i = self.diode.string_current(open, ohms, p.diodes);
-            path_i[j] = i;
-            charge[k] += i;
-        }
-        // With every diode off the network is as it was at zero charging current.
-        let nodes = if charge == [0.0; 2] {
-            base
+            nodes
         } else {
-            self.nodes(x, charge)
+            let base = self.nodes(x, [0.0; 2]);
+            for (j, p) in self.paths.iter().enumerate() {
+                let s = self.path_source(p, e);
+                let k = p.reservoir;
+                let others: f64 =
+                    base.terminal[..self.reservoirs.len()].iter().sum::<f64>() - base.terminal[k];
+                v_source = v_source.max(s + others);
+                let open = s - base.terminal[k];
+                if let DiodeLaw::Fixed { drop_v, .. } = self.diode {
+                    edges[j] = open - p.diodes as f64 * drop_v;
+                }
+                if open <= 0.0 {
+                    continue;
+                }
+                // The terminal voltage is affine in this path's current: its slope is the
+                // resistance the diode sees looking into the filter.
+                let mut unit = [0.0; 2];
+                unit[k] = 1.0;
+                let slope = self.nodes(x, unit).terminal[k] - base.terminal[k];
+                let ohms = (p.ohms + p.series_ohms + slope).max(self.min_path_ohms);
+                let i = self.diode.string_current(open, ohms, p.diodes);
+                path_i[j] = i;
+                charge[k] += i;
+                drops[j] = p.ohms * i;
+            }
+            // With every diode off the network is as it was at zero charging current.
+            if charge == [0.0; 2] {
+                base
+            } else {
+                self.nodes(x, charge)
+            }
         };
         for (i, r) in self.reservoirs.iter().enumerate() {
             dx[i] = (charge[i] - nodes.i_out) / r.farads;
         }
         if let Some(s) = self.second {
-            dx[self.reservoirs.len()] = (nodes.i_out - nodes.i_load) / s.farads;
+            dx[k] = (nodes.i_out - nodes.i_load) / s.farads;
+            if let Some(choke) = s.choke {
+                let stack: f64 = nodes.terminal[..k].iter().sum();
+                dx[self.stage_state()] =
+                    (stack - s.ohms * nodes.i_out - x[k]) / choke.at(nodes.i_out);
+            }
         }
         if let LoadLaw::Current { knee_v, .. } = self.load {
             edges[2] = nodes.v_out - knee_v;
@@ -352,23 +523,89 @@ impl Network {
                 ..Probe::default()
             };
         }
+        let i_choke = if self.paths[0].choke.is_some() {
+            path_i[0] + path_i[1]
+        } else if self.second.is_some_and(|s| s.choke.is_some()) {
+            nodes.i_out
+        } else {
+            0.0
+        };
+        let i_cap = charge[0] - nodes.i_out;
+        let i_out_cap = if self.second.is_some() {
+            nodes.i_out - nodes.i_load
+        } else {
+            i_cap
+        };
         let mut probe = self.probe(
             e,
-            path_i,
-            nodes.v_out,
-            nodes.terminal[0],
-            charge[0] - nodes.i_out,
-            nodes.i_load,
-            v_source.max(0.0),
+            &Flow {
+                path_i,
+                drops,
+                cathode: if cathode.is_nan() {
+                    nodes.terminal[0]
+                } else {
+                    cathode
+                },
+                v_out: nodes.v_out,
+                v_cap: nodes.terminal[0],
+                i_cap,
+                i_load: nodes.i_load,
+                v_source: v_source.max(0.0),
+                i_choke,
+                i_out_cap,
+            },
         );
         probe.edges = edges;
         probe
     }
+
+    /// A path current's size against a capacitor voltage, amps per volt: what a volt drives
+    /// through the path's resistance and its reactance at the ripple's frequency.
+    fn path_scale(&self, p: &Path) -> f64 {
+        let omega = std::f64::consts::TAU * self.line_hz;
+        let r = p.ohms + p.series_ohms + self.reservoirs[p.reservoir].esr_ohms;
+        let z = (r * r + (omega * Self::path_henries(p, 0.0)).powi(2)).sqrt();
+        1.0 / z.max(self.min_path_ohms).max(1e-12)
+    }
+}
+
+/// What the probe is assembled from: the paths' currents and their winding drops (resistive
+/// plus leakage), the node the diodes' cathodes meet, and the filter's values (volts, amps).
+struct Flow {
+    path_i: [f64; 2],
+    drops: [f64; 2],
+    cathode: f64,
+    v_out: f64,
+    v_cap: f64,
+    i_cap: f64,
+    i_load: f64,
+    v_source: f64,
+    i_choke: f64,
+    i_out_cap: f64,
 }
 
 impl PeriodicCircuit for Network {
     fn states(&self) -> usize {
-        self.reservoirs.len() + usize::from(self.second.is_some())
+        self.stage_state() + usize::from(self.second.is_some_and(|s| s.choke.is_some()))
+    }
+
+    fn state_scale(&self, i: usize) -> f64 {
+        let caps = self.capacitors();
+        if i < caps {
+            return 1.0;
+        }
+        if self.has_inductive_paths() && i < caps + self.paths.len() {
+            return self.path_scale(&self.paths[i - caps]);
+        }
+        // A CLC's choke: a volt across its resistance and reactance at the ripple.
+        let s = self
+            .second
+            .expect("a state beyond the paths is a CLC choke's");
+        let omega = 2.0 * std::f64::consts::TAU * self.line_hz;
+        let henries = s.choke.map_or(0.0, |c| c.at(0.0));
+        1.0 / (s.ohms * s.ohms + (omega * henries).powi(2))
+            .sqrt()
+            .max(1e-12)
     }
 
     fn period_s(&self) -> f64 {
@@ -384,6 +621,9 @@ impl PeriodicCircuit for Network {
         // Half a cycle on, a doubler's two capacitors have traded places.
         if self.is_symmetric_doubler() {
             x.swap(0, 1);
+            if self.has_inductive_paths() {
+                x.swap(self.path_state(0), self.path_state(1));
+            }
         }
     }
 
@@ -477,6 +717,27 @@ impl PeriodicCircuit for Network {
         if let Some(s) = self.second {
             let i = self.load.current_at(working);
             x[self.reservoirs.len()] = (working - i * s.ohms).max(0.0);
+            if s.choke.is_some() {
+                x[self.stage_state()] = i;
+            }
+        }
+        if self.paths[0].choke.is_some() {
+            // A choke input above its critical inductance: the rail is the rectified wave's
+            // average less the resistive and diode drops, the choke carrying the load.
+            let p = &self.paths[0];
+            let e = p.emf_share * peak;
+            let average = if p.polarity == Polarity::Rectified {
+                2.0 * e / PI
+            } else {
+                e / PI
+            };
+            let mut v = average;
+            for _ in 0..8 {
+                let i = self.load.current_at(v);
+                v = (average - (p.ohms + p.series_ohms) * i - p.diodes as f64 * 0.75).max(0.0);
+            }
+            x[0] = v;
+            x[self.path_state(0)] = self.load.current_at(v);
         }
     }
 }

@@ -10,9 +10,10 @@
 // Small dense matrices and Runge-Kutta stages read best with their indices written out.
 #![allow(clippy::needless_range_loop)]
 
-/// Most capacitor voltages a circuit may have, plus the running integrals of the final pass.
-pub const MAX_STATES: usize = 4;
-const QUADRATURES: usize = 8;
+/// Most states a circuit may have (capacitor voltages and inductor currents: a doubler with
+/// leakage and a CLC filter has six), plus the running integrals of the final pass.
+pub const MAX_STATES: usize = 6;
+const QUADRATURES: usize = 11;
 /// Switching functions a circuit may report: two charging paths and the load's knee.
 pub const EDGES: usize = 3;
 const WIDTH: usize = MAX_STATES + QUADRATURES;
@@ -39,6 +40,10 @@ pub struct Probe {
     /// Current into the first filter capacitor.
     pub i_cap: f64,
     pub i_load: f64,
+    /// The choke's current (a choke-input filter's or a CLC's; 0 without one).
+    pub i_choke: f64,
+    /// Current into the output capacitor (a CRC's or CLC's second; the first otherwise).
+    pub i_out_cap: f64,
     /// By how much each charging path's drive exceeds its diodes' conduction threshold, volts,
     /// where the diode law has a corner there (a fixed drop), and the rail's height above a
     /// current load's knee; NaN where the law is smooth.
@@ -59,6 +64,8 @@ impl Probe {
             i_winding: mix(self.i_winding, other.i_winding),
             i_cap: mix(self.i_cap, other.i_cap),
             i_load: mix(self.i_load, other.i_load),
+            i_choke: mix(self.i_choke, other.i_choke),
+            i_out_cap: mix(self.i_out_cap, other.i_out_cap),
             edges: self.edges,
         }
     }
@@ -151,6 +158,12 @@ pub struct SteadyState {
     pub mean_sq_i_diode: f64,
     pub mean_sq_i_winding: f64,
     pub mean_sq_i_cap: f64,
+    /// The choke's average current, its mean square and its peak (amps, amps squared), and
+    /// the output capacitor's mean square current.
+    pub mean_i_choke: f64,
+    pub mean_sq_i_choke: f64,
+    pub i_choke_peak: f64,
+    pub mean_sq_i_out_cap: f64,
     /// Newton iterations and one-period integrations spent, for the benchmarks' curiosity.
     pub newton_steps: usize,
     pub integrations: usize,

@@ -19,6 +19,9 @@ pub struct WindingModel {
     /// Where the resistance comes from, and the range the worst case and the diagnosis allow
     /// it.
     pub source: WindingSource,
+    /// Leakage inductance referred to the whole secondary, henries (0 when the file gives
+    /// none of `leakage_mh`, `impedance_pct`, `short_test`).
+    pub leakage_h: f64,
 }
 
 /// Where a winding's resistance comes from.
@@ -67,7 +70,84 @@ impl Supply {
     /// Nameplate form: no-load secondary = `secondary_vrms * (1 + regulation_pct/100)`; without
     /// measured ohms the whole series resistance follows from the regulation at rated current,
     /// R = secondary_vrms^2 * regulation / rated_va, all put in the secondary.
+    ///
+    /// The leakage comes from `leakage_mh`, or the reactive part of the nameplate's
+    /// `impedance_pct` (Z = pct x V^2 / VA on the secondary, X = sqrt(Z^2 - R^2)), or a
+    /// `short_test` (X = sqrt((V/I)^2 - (W/I^2)^2) on the primary, over the ratio squared to
+    /// the secondary; the test's R = W/I^2 is then the winding resistance unless ohms are
+    /// measured).
     pub fn winding(&self) -> Result<WindingModel, SupplyError> {
+        let mut model = self.resistive_winding()?;
+        let t = &self.transformer;
+        let given = [
+            t.leakage_mh.is_some(),
+            t.impedance_pct.is_some(),
+            t.short_test.is_some(),
+        ];
+        if given.iter().filter(|g| **g).count() > 1 {
+            return Err(SupplyError::out_of_range(
+                "transformer.leakage_mh",
+                "given with impedance_pct or short_test",
+                "one of leakage_mh, impedance_pct and short_test: each gives the leakage",
+            ));
+        }
+        let omega = std::f64::consts::TAU * self.mains.hz;
+        let ratio = model.ratio;
+        let referred_ohms = model.secondary_ohms + model.primary_ohms / (ratio * ratio);
+        if let Some(mh) = t.leakage_mh {
+            LEAKAGE_MH.check(mh)?;
+            model.leakage_h = mh * 1e-3;
+        } else if let Some(pct) = t.impedance_pct {
+            IMPEDANCE_PCT.check(pct)?;
+            let va = t.rated_va.ok_or(SupplyError::Missing {
+                key: "transformer.rated_va",
+                why: "a percent impedance is a share of the rated VA's impedance",
+                line: None,
+            })?;
+            RATED_VA.check(va)?;
+            let volts = t.secondary_vrms.unwrap_or(self.mains.vrms / ratio);
+            let z = pct / 100.0 * volts * volts / va;
+            if z < referred_ohms {
+                return Err(SupplyError::out_of_range(
+                    "transformer.impedance_pct",
+                    format_number(pct),
+                    format!(
+                        "at least the windings' own resistance, {} % of the rating's \
+                         impedance (the impedance includes the resistance)",
+                        format_number(100.0 * referred_ohms / (volts * volts / va))
+                    ),
+                ));
+            }
+            model.leakage_h = (z * z - referred_ohms * referred_ohms).sqrt() / omega;
+        } else if let Some(test) = t.short_test {
+            SHORT_TEST_VOLTS.check(test.volts)?;
+            SHORT_TEST_AMPS.check(test.amps)?;
+            SHORT_TEST_WATTS.check(test.watts)?;
+            let z = test.volts / test.amps;
+            let r = test.watts / (test.amps * test.amps);
+            if r > z {
+                return Err(SupplyError::out_of_range(
+                    "transformer.short_test.watts",
+                    format_number(test.watts),
+                    format!(
+                        "at most volts x amps = {} W (the real power cannot exceed the \
+                         apparent)",
+                        format_number(test.volts * test.amps)
+                    ),
+                ));
+            }
+            model.leakage_h = (z * z - r * r).sqrt() / (ratio * ratio) / omega;
+            if !matches!(model.source, WindingSource::Measured) {
+                model.secondary_ohms = r / (ratio * ratio);
+                model.primary_ohms = 0.0;
+                model.source = WindingSource::Measured;
+            }
+        }
+        Ok(model)
+    }
+
+    /// The turns ratio and the resistances, before the leakage.
+    fn resistive_winding(&self) -> Result<WindingModel, SupplyError> {
         let t = &self.transformer;
         let secondary_ohms = t.secondary_ohms.unwrap_or(0.0);
         let primary_ohms = t.primary_ohms.unwrap_or(0.0);
@@ -83,6 +163,7 @@ impl Supply {
                     primary_ohms,
                     assumed_regulation_pct: None,
                     source: WindingSource::Measured,
+                    leakage_h: 0.0,
                 }
             } else {
                 self.assumed_winding(ratio, None)
@@ -137,6 +218,7 @@ impl Supply {
                 primary_ohms,
                 assumed_regulation_pct: assumed,
                 source: WindingSource::Measured,
+                leakage_h: 0.0,
             },
             (false, Some(va)) => WindingModel {
                 ratio,
@@ -144,6 +226,7 @@ impl Supply {
                 primary_ohms,
                 assumed_regulation_pct: assumed,
                 source: WindingSource::Nameplate,
+                leakage_h: 0.0,
             },
             (false, None) => self.assumed_winding(ratio, Some(regulation)),
         })
@@ -188,6 +271,7 @@ impl Supply {
                 low_ohms,
                 high_ohms,
             },
+            leakage_h: 0.0,
         }
     }
 }

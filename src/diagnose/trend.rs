@@ -116,6 +116,10 @@ static DUMMY: Figures = Figures {
     inrush_peak_a: None,
     cap_peak_v: 0.0,
     secondary_rms_v: 0.0,
+    choke_rms_a: None,
+    choke_peak_a: None,
+    choke_dc_drop_v: None,
+    out_cap_ripple_rms_a: None,
 };
 
 /// Every visit's implied capacitance from a few tables of solves instead of a fit of its own

@@ -99,6 +99,28 @@ pub struct Transformer {
     /// Spread of the turns ratio, percent either way (worst case only).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub ratio_pct: Option<f64>,
+    /// Leakage inductance referred to the whole secondary, millihenries (each half of a
+    /// center tap gets half of it). Give at most one of this, `impedance_pct` and
+    /// `short_test`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub leakage_mh: Option<f64>,
+    /// The nameplate's percent impedance (short-circuit voltage) at `rated_va`: its reactive
+    /// part, beyond the windings' resistance, is the leakage.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub impedance_pct: Option<f64>,
+    /// A short-circuit test: the secondary shorted, the primary raised until rated current
+    /// flows; the primary's volts, amps and watts there.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub short_test: Option<ShortTest>,
+}
+
+/// What a short-circuit test reads on the primary (volts RMS, amps RMS, watts): Z = V / I,
+/// R = W / I^2, X = sqrt(Z^2 - R^2), all on the primary side.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
+pub struct ShortTest {
+    pub volts: f64,
+    pub amps: f64,
+    pub watts: f64,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
@@ -328,10 +350,21 @@ pub enum FilterKind {
     None,
     Capacitor,
     Crc,
+    /// Choke input: the rectifier feeds a choke, the choke the capacitor (the output).
+    Lc,
+    /// A pi filter: a first capacitor on the rectifier, a choke, a second capacitor (the
+    /// output).
+    Clc,
 }
 
 impl FilterKind {
-    pub const ALL: [FilterKind; 3] = [FilterKind::None, FilterKind::Capacitor, FilterKind::Crc];
+    pub const ALL: [FilterKind; 5] = [
+        FilterKind::None,
+        FilterKind::Capacitor,
+        FilterKind::Crc,
+        FilterKind::Lc,
+        FilterKind::Clc,
+    ];
 
     /// The word used in the supply file.
     pub fn key(self) -> &'static str {
@@ -339,6 +372,8 @@ impl FilterKind {
             FilterKind::None => "none",
             FilterKind::Capacitor => "capacitor",
             FilterKind::Crc => "crc",
+            FilterKind::Lc => "lc",
+            FilterKind::Clc => "clc",
         }
     }
 
@@ -349,6 +384,8 @@ impl FilterKind {
             FilterKind::None => 0,
             FilterKind::Capacitor => 1,
             FilterKind::Crc => 2,
+            FilterKind::Lc => 3,
+            FilterKind::Clc => 4,
         }
     }
 
@@ -356,15 +393,34 @@ impl FilterKind {
     pub fn has_capacitor(self) -> bool {
         match self {
             FilterKind::None => false,
-            FilterKind::Capacitor | FilterKind::Crc => true,
+            FilterKind::Capacitor | FilterKind::Crc | FilterKind::Lc | FilterKind::Clc => true,
         }
     }
 
-    /// Whether a second stage (resistor and capacitor) follows the first capacitor.
+    /// Whether a second stage (a resistor or a choke, and a capacitor) follows the first
+    /// capacitor.
     pub fn has_second_stage(self) -> bool {
         match self {
-            FilterKind::Crc => true,
-            FilterKind::None | FilterKind::Capacitor => false,
+            FilterKind::Crc | FilterKind::Clc => true,
+            FilterKind::None | FilterKind::Capacitor | FilterKind::Lc => false,
+        }
+    }
+
+    /// Whether it has a choke (`choke_h`, `choke_ohms`).
+    pub fn has_choke(self) -> bool {
+        match self {
+            FilterKind::Lc | FilterKind::Clc => true,
+            FilterKind::None | FilterKind::Capacitor | FilterKind::Crc => false,
+        }
+    }
+
+    /// Whether the rectifier feeds a choke rather than a capacitor: its rail is then near
+    /// the rectified average under load and rises towards the peak when the load falls below
+    /// the critical current.
+    pub fn is_choke_input(self) -> bool {
+        match self {
+            FilterKind::Lc => true,
+            FilterKind::None | FilterKind::Capacitor | FilterKind::Crc | FilterKind::Clc => false,
         }
     }
 }
@@ -388,9 +444,22 @@ pub struct Filter {
     /// CRC: the resistor between the two capacitors.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub series_ohms: Option<f64>,
-    /// CRC: the second (output) capacitor, microfarads.
+    /// CRC and CLC: the second (output) capacitor, microfarads.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub second_uf: Option<f64>,
+    /// LC and CLC: the choke's inductance, henries (a swinging choke's at `choke_rated_a`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub choke_h: Option<f64>,
+    /// LC and CLC: the choke's DC resistance, ohms.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub choke_ohms: Option<f64>,
+    /// A swinging choke: its inductance at light current (a tenth of `choke_rated_a` and
+    /// below), henries; between the two currents it falls in a straight line to `choke_h`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub choke_light_h: Option<f64>,
+    /// A swinging choke's rated current, amps, where it has `choke_h`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub choke_rated_a: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub bleeder_ohms: Option<f64>,
     /// Extra capacitance lost to ageing, percent, on top of the low tolerance.

@@ -189,6 +189,41 @@ pub const PRIMARY_OHMS: Range = range(
     "ohms",
     WINDING_OHMS_WHY,
 );
+pub const LEAKAGE_MH: Range = range(
+    "transformer.leakage_mh",
+    ZeroOr(1e-6),
+    1e6,
+    "mH",
+    "0 is no leakage; under a nanohenry is the wiring's own, not the transformer's",
+);
+pub const IMPEDANCE_PCT: Range = range(
+    "transformer.impedance_pct",
+    AtLeast(0.1),
+    50.0,
+    "%",
+    "power transformers are 1-15 % (practice); under 0.1 % is a short, above 50 % no supply",
+);
+pub const SHORT_TEST_VOLTS: Range = range(
+    "transformer.short_test.volts",
+    AtLeast(1e-3),
+    1e5,
+    "V",
+    "a short-circuit test reads at least a millivolt on the primary",
+);
+pub const SHORT_TEST_AMPS: Range = range(
+    "transformer.short_test.amps",
+    AtLeast(1e-6),
+    1e5,
+    "A",
+    "a short-circuit test runs the primary at its rated current, never near zero",
+);
+pub const SHORT_TEST_WATTS: Range = range(
+    "transformer.short_test.watts",
+    AtLeast(0.0),
+    1e7,
+    "W",
+    "0 is a winding of no resistance; the copper loss is never negative",
+);
 pub const TEMP_C: Range = range(
     "rectifier.temp_c",
     AtLeast(-55.0),
@@ -291,6 +326,34 @@ pub const SERIES_OHMS: Range = range(
     "under 1 milliohm the CRC's resistor is the wire between its capacitors",
 );
 pub const SECOND_UF: Range = range("filter.second_uf", AtLeast(1e-6), 1e7, "uF", UF_WHY);
+pub const CHOKE_H: Range = range(
+    "filter.choke_h",
+    AtLeast(1e-6),
+    1000.0,
+    "H",
+    "under a microhenry a choke filters nothing at the mains' harmonics",
+);
+pub const CHOKE_OHMS: Range = range(
+    "filter.choke_ohms",
+    ZeroOr(1e-6),
+    1e5,
+    "ohms",
+    "0 is an ideal choke; every real one has some copper",
+);
+pub const CHOKE_LIGHT_H: Range = range(
+    "filter.choke_light_h",
+    AtLeast(1e-6),
+    1000.0,
+    "H",
+    "under a microhenry a choke filters nothing at the mains' harmonics",
+);
+pub const CHOKE_RATED_A: Range = range(
+    "filter.choke_rated_a",
+    AtLeast(1e-4),
+    1e4,
+    "A",
+    "a choke rated under 0.1 mA carries no supply's current",
+);
 pub const BLEEDER_OHMS: Range = range(
     "filter.bleeder_ohms",
     AtLeast(1.0),
@@ -360,6 +423,11 @@ pub const RANGES: &[Range] = &[
     REGULATION_PCT,
     SECONDARY_OHMS,
     PRIMARY_OHMS,
+    LEAKAGE_MH,
+    IMPEDANCE_PCT,
+    SHORT_TEST_VOLTS,
+    SHORT_TEST_AMPS,
+    SHORT_TEST_WATTS,
     TEMP_C,
     DROP_SPREAD_PCT,
     RATED_PIV_V,
@@ -378,6 +446,10 @@ pub const RANGES: &[Range] = &[
     RATED_RIPPLE_A,
     SERIES_OHMS,
     SECOND_UF,
+    CHOKE_H,
+    CHOKE_OHMS,
+    CHOKE_LIGHT_H,
+    CHOKE_RATED_A,
     BLEEDER_OHMS,
     AGED_PCT,
     LOAD_AMPS,

@@ -61,7 +61,7 @@ impl Supply {
                     ));
                 }
             }
-            FilterKind::Capacitor | FilterKind::Crc => {
+            FilterKind::Capacitor | FilterKind::Crc | FilterKind::Lc | FilterKind::Clc => {
                 let uf = f.uf.ok_or(SupplyError::Missing {
                     key: "filter.uf",
                     why: "a capacitor filter needs its capacitance in microfarads",
@@ -73,6 +73,14 @@ impl Supply {
                 CAP_HIGH_PCT.check(f.high_pct)?;
             }
         }
+        if f.kind.has_second_stage() {
+            let uf = f.second_uf.ok_or(SupplyError::Missing {
+                key: "filter.second_uf",
+                why: "a CRC or CLC filter needs its second capacitor in microfarads",
+                line: None,
+            })?;
+            SECOND_UF.check(uf)?;
+        }
         if f.kind == FilterKind::Crc {
             let ohms = f.series_ohms.ok_or(SupplyError::Missing {
                 key: "filter.series_ohms",
@@ -80,12 +88,60 @@ impl Supply {
                 line: None,
             })?;
             SERIES_OHMS.check(ohms)?;
-            let uf = f.second_uf.ok_or(SupplyError::Missing {
-                key: "filter.second_uf",
-                why: "a CRC filter needs its second capacitor in microfarads",
+        }
+        if f.kind.is_choke_input() && r.topology.needs_capacitor() {
+            return Err(SupplyError::out_of_range(
+                "filter.kind",
+                f.kind.key(),
+                "capacitor, crc or clc for a doubler (its capacitors are part of it)",
+            ));
+        }
+        if f.kind.has_choke() {
+            let h = f.choke_h.ok_or(SupplyError::Missing {
+                key: "filter.choke_h",
+                why: "a choke filter needs the choke's inductance in henries",
                 line: None,
             })?;
-            SECOND_UF.check(uf)?;
+            CHOKE_H.check(h)?;
+            let ohms = f.choke_ohms.ok_or(SupplyError::Missing {
+                key: "filter.choke_ohms",
+                why: "a choke filter needs the choke's resistance (an ohmmeter across it, \
+                      the supply off and discharged)",
+                line: None,
+            })?;
+            CHOKE_OHMS.check(ohms)?;
+            match (f.choke_light_h, f.choke_rated_a) {
+                (None, None) => {}
+                (Some(light), Some(rated)) => {
+                    CHOKE_LIGHT_H.check(light)?;
+                    CHOKE_RATED_A.check(rated)?;
+                    if light < h {
+                        return Err(SupplyError::out_of_range(
+                            "filter.choke_light_h",
+                            format_number(light),
+                            format!(
+                                "at least filter.choke_h = {} H: a swinging choke has more \
+                                 inductance at light current, not less",
+                                format_number(h)
+                            ),
+                        ));
+                    }
+                }
+                (Some(_), None) => {
+                    return Err(SupplyError::Missing {
+                        key: "filter.choke_rated_a",
+                        why: "a swinging choke needs the current at which it has choke_h",
+                        line: None,
+                    });
+                }
+                (None, Some(_)) => {
+                    return Err(SupplyError::Missing {
+                        key: "filter.choke_light_h",
+                        why: "a swinging choke needs its inductance at light current",
+                        line: None,
+                    });
+                }
+            }
         }
         for (range, v) in [
             (&CAP_RATED_V, f.rated_v),

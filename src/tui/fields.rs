@@ -43,6 +43,10 @@ pub enum When {
     NameplateForm,
     Filtered,
     Crc,
+    /// A CRC or a CLC: a second capacitor.
+    SecondStage,
+    /// An LC or a CLC: a choke.
+    Choke,
     FixedDiode,
     JunctionDiode,
     CurrentLoad,
@@ -116,7 +120,7 @@ const fn text(
 use When::*;
 
 /// Every key of the supply file, in the file's order and groups.
-pub const FIELDS: [Field; 51] = [
+pub const FIELDS: [Field; 57] = [
     text("Name", "name", true, "the name the library lists it by"),
     text(
         "Site",
@@ -160,6 +164,8 @@ pub const FIELDS: [Field; 51] = [
     number("Transformer", "Secondary ohm", &s::SECONDARY_OHMS, Always),
     number("Transformer", "Primary ohm", &s::PRIMARY_OHMS, Always),
     number("Transformer", "Ratio spread %", &s::RATIO_PCT, Always),
+    number("Transformer", "Leakage mH", &s::LEAKAGE_MH, Always),
+    number("Transformer", "Impedance %", &s::IMPEDANCE_PCT, Always),
     choice(
         "Rectifier",
         "Topology",
@@ -189,7 +195,8 @@ pub const FIELDS: [Field; 51] = [
         "Kind",
         "filter.kind",
         Choice::FilterKind,
-        "none, a capacitor, or a CRC (capacitor, resistor, capacitor)",
+        "none, a capacitor, a CRC (capacitor, resistor, capacitor), a choke input (lc) or \
+         a CLC pi (capacitor, choke, capacitor)",
     ),
     number("Filter", "Cap uF", &s::FILTER_UF, Filtered),
     number("Filter", "ESR ohm", &s::ESR_OHMS, Filtered),
@@ -200,7 +207,11 @@ pub const FIELDS: [Field; 51] = [
     number("Filter", "Aged %", &s::AGED_PCT, Filtered),
     number("Filter", "Bleeder ohm", &s::BLEEDER_OHMS, Filtered),
     number("Filter", "CRC R ohm", &s::SERIES_OHMS, Crc),
-    number("Filter", "CRC 2nd uF", &s::SECOND_UF, Crc),
+    number("Filter", "2nd cap uF", &s::SECOND_UF, SecondStage),
+    number("Filter", "Choke H", &s::CHOKE_H, Choke),
+    number("Filter", "Choke ohm", &s::CHOKE_OHMS, Choke),
+    number("Filter", "Swing light H", &s::CHOKE_LIGHT_H, Choke),
+    number("Filter", "Swing rated A", &s::CHOKE_RATED_A, Choke),
     choice(
         "Load",
         "Kind",
@@ -272,6 +283,8 @@ impl Field {
             NameplateForm => s.transformer.ratio.is_none(),
             Filtered => filtered,
             Crc => s.filter.kind == FilterKind::Crc,
+            SecondStage => s.filter.kind.has_second_stage(),
+            Choke => s.filter.kind.has_choke(),
             FixedDiode => matches!(s.rectifier.diode, DiodeSpec::Fixed { .. }),
             JunctionDiode => matches!(s.rectifier.diode, DiodeSpec::Junction { .. }),
             CurrentLoad => s.load.amps.is_some(),
@@ -499,15 +512,21 @@ fn choose(
                 out.filter.uf = Some(1000.0);
                 guesses.push("filter.uf");
             }
-            if out.filter.kind == FilterKind::Crc {
-                if out.filter.series_ohms.is_none() {
-                    out.filter.series_ohms = Some(10.0);
-                    guesses.push("filter.series_ohms");
-                }
-                if out.filter.second_uf.is_none() {
-                    out.filter.second_uf = out.filter.uf;
-                    guesses.push("filter.second_uf");
-                }
+            if out.filter.kind == FilterKind::Crc && out.filter.series_ohms.is_none() {
+                out.filter.series_ohms = Some(10.0);
+                guesses.push("filter.series_ohms");
+            }
+            if out.filter.kind.has_second_stage() && out.filter.second_uf.is_none() {
+                out.filter.second_uf = out.filter.uf;
+                guesses.push("filter.second_uf");
+            }
+            if out.filter.kind.has_choke() && out.filter.choke_h.is_none() {
+                // Twice the critical inductance at the stated load, and a choke's copper of
+                // about 2 % of the load's resistance: guesses until read off the part.
+                let (henries, ohms) = crate::analysis::choke_guess(out);
+                out.filter.choke_h = Some(henries);
+                out.filter.choke_ohms = out.filter.choke_ohms.or(Some(ohms));
+                guesses.extend(["filter.choke_h", "filter.choke_ohms"]);
             }
         }
         Choice::TransformerForm => {

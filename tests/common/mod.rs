@@ -20,9 +20,11 @@ pub fn reference_csv(name: &str) -> Vec<(String, BTreeMap<String, f64>)> {
     lines
         .map(|line| {
             let cells: Vec<&str> = line.split(',').collect();
+            // An empty cell is a figure the case does not have (no choke): left out.
             let values = header[1..]
                 .iter()
                 .zip(&cells[1..])
+                .filter(|(_, v)| !v.is_empty())
                 .map(|(k, v)| (k.to_string(), v.parse::<f64>().expect("a number")))
                 .collect();
             (cells[0].to_string(), values)

@@ -25,6 +25,9 @@ fn integrands(p: &Probe, ripple_ref_v: f64) -> [f64; QUADRATURES] {
         p.i_cap * p.i_cap,
         p.i_load,
         p.i_cap,
+        p.i_choke,
+        p.i_choke * p.i_choke,
+        p.i_out_cap * p.i_out_cap,
     ]
 }
 
@@ -105,7 +108,7 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         }
         let charge = 1e-6 * first.i_load.abs().max(1e-9) * period;
         atol[n] = tolerance_v(c) * period;
-        for q in [2, 6, 7] {
+        for q in [2, 6, 7, 8] {
             atol[n + q] = charge;
         }
         loop {
@@ -203,6 +206,10 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         mean_sq_i_diode: mean(3),
         mean_sq_i_winding: mean(4),
         mean_sq_i_cap: mean(5),
+        mean_i_choke: mean(8),
+        mean_sq_i_choke: mean(9),
+        i_choke_peak: best(|p| p.i_choke).max(0.0),
+        mean_sq_i_out_cap: mean(10),
         newton_steps: 0,
         integrations: 0,
         evaluations: 0,
@@ -272,6 +279,9 @@ pub(super) fn refine<Ckt: PeriodicCircuit + ?Sized>(
     state.v_out_min = -dense.largest(extremes, |p| -p.v_out);
     state.v_cap_max = dense.largest(extremes, |p| p.v_cap);
     state.v_reverse_max = dense.largest(extremes, |p| p.v_reverse);
+    if state.i_choke_peak > 0.0 {
+        state.i_choke_peak = dense.largest(extremes, |p| p.i_choke).max(0.0);
+    }
     let level = CONDUCTION_SHARE * state.i_diode_peak;
     state.conduction_fraction = if state.i_diode_peak > 0.0 {
         dense.share_above(extremes, level, |p| p.i_diode)

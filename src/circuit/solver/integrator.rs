@@ -149,7 +149,7 @@ pub(super) struct Lu {
 impl Lu {
     /// Factors `a`; None if it is singular to working precision.
     pub(super) fn factor(n: usize, mut a: [[f64; MAX_STATES]; MAX_STATES]) -> Option<Lu> {
-        let mut perm = [0, 1, 2, 3];
+        let mut perm: [usize; MAX_STATES] = std::array::from_fn(|i| i);
         for col in 0..n {
             let pivot = (col..n).max_by(|&i, &j| a[i][col].abs().total_cmp(&a[j][col].abs()))?;
             if a[pivot][col].abs() <= 1e-300 || a[pivot][col].is_nan() {
