@@ -1,6 +1,6 @@
 //! Speed of the engine: one steady-state solve (capacitor input, unfiltered, across load time
-//! constants, the doubler and CRC with two states, two stiff CRCs) and a 20-file report in one
-//! process.
+//! constants, the doubler and CRC with two states, two stiff CRCs, choke inputs, a CLC and a
+//! capacitor input with leakage) and a 20-file report in one process.
 //! Run: cargo bench --bench solve
 
 use criterion::{BenchmarkId, Criterion, criterion_group, criterion_main};
@@ -41,6 +41,19 @@ fn single_solves(c: &mut Criterion) {
     g.bench_function("stiff_crc_split_rail_500hz", |b| {
         b.iter(|| solve(black_box(&sr), &Conditions::default()).unwrap())
     });
+    // Issue 12's inductors: a choke input above and below its critical inductance, a
+    // valve-era CLC, and a capacitor input with transformer leakage (ngspice reference cases).
+    for case in [
+        "lc_br_50_above",
+        "lc_ct_50_below",
+        "clc_ct_valve_50",
+        "leak_br_50",
+    ] {
+        let s = load(&format!("tests/reference/inductors/{case}.toml"));
+        g.bench_function(case, |b| {
+            b.iter(|| solve(black_box(&s), &Conditions::default()).unwrap())
+        });
+    }
     g.finish();
 }
 

@@ -112,9 +112,9 @@ impl Supply {
                     "transformer.impedance_pct",
                     format_number(pct),
                     format!(
-                        "at least the windings' own resistance, {} % of the rating's \
+                        "at least the windings' own resistance, {:.2} % of the rating's \
                          impedance (the impedance includes the resistance)",
-                        format_number(100.0 * referred_ohms / (volts * volts / va))
+                        100.0 * referred_ohms / (volts * volts / va)
                     ),
                 ));
             }
