@@ -74,6 +74,7 @@ pub fn build_default(supply: Supply, file: &str) -> Result<Report, CircuitError>
 pub fn figure_rows(f: &Figures) -> Vec<(&'static str, &'static str, Option<f64>, &'static str)> {
     Figure::ALL
         .iter()
+        .filter(|fig| fig.applies(f))
         .map(|fig| (fig.label(), fig.key(), fig.of(f), fig.unit()))
         .collect()
 }

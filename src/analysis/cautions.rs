@@ -17,7 +17,7 @@ pub fn rail_farads(supply: &Supply) -> f64 {
     let c = f.uf.unwrap_or(0.0) * 1e-6 * high;
     // Stacked reservoirs (a doubler's two) are in series across the rail.
     let c = c / supply.rectifier.topology.reservoirs() as f64;
-    let second = if f.kind == FilterKind::Crc {
+    let second = if f.kind.has_second_stage() {
         f.second_uf.unwrap_or(0.0) * 1e-6 * high
     } else {
         0.0
@@ -63,6 +63,32 @@ pub fn cautions(supply: &Supply, peak_v: f64, touch_v: f64) -> Vec<String> {
         if peak_v > touch_v {
             out.push(discharge_line(supply, farads, peak_v, touch_v));
         }
+    }
+    let f = &supply.filter;
+    if f.kind.is_choke_input() {
+        out.push(
+            "Choke input: below the choke's critical current the rail climbs from the \
+             rectified average towards the winding's peak, to the peak at no load; the \
+             capacitor voltage check is made there. A bleeder keeps the rail down."
+                .into(),
+        );
+    }
+    if f.kind.has_choke() {
+        out.push(
+            "Choke: a choke carrying current kicks back at a broken connection (an arc, \
+             hundreds of volts); switch off before unplugging or lifting a lead."
+                .into(),
+        );
+    }
+    let leaky = supply.winding().is_ok_and(|w| w.leakage_h > 0.0);
+    if leaky || f.kind.is_choke_input() {
+        out.push(
+            "Diode turn-off: with leakage inductance or a choke input, each diode's turn-off \
+             rings through the circuit's small capacitances, and the reverse peak can run \
+             above the figure shown (up to 15 % in simulations with no snubbing); keep the \
+             usual reverse-voltage margin or fit a snubber."
+                .into(),
+        );
     }
     out.push(
         "Verify with a meter before touching; follow local codes and licensed practice.".into(),

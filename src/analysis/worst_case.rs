@@ -695,21 +695,35 @@ pub fn spread(
 
 /// The winding's axis: a measured winding may run warm, a nameplate's figure lumps copper and
 /// leakage, an unstated one spans the regulation of small transformers sized for the load;
-/// leakage inductance, not modelled yet, is allowed for as extra resistance.
+/// leakage inductance the file does not state is allowed for as extra resistance.
 fn winding_axis(w: &WindingModel) -> Axis {
     let whole = w.secondary_ohms + w.primary_ohms / (w.ratio * w.ratio);
-    let leak = 1.0 + LEAKAGE_ALLOWANCE;
+    // A stated leakage is solved as an inductance; an unstated one is allowed for as extra
+    // resistance, which moves the rail about as much (see LEAKAGE_ALLOWANCE).
+    let stated_leakage = w.leakage_h > 0.0;
+    let leak = if stated_leakage {
+        1.0
+    } else {
+        1.0 + LEAKAGE_ALLOWANCE
+    };
+    let leak_words = if stated_leakage {
+        "; the stated leakage inductance is solved as one".to_string()
+    } else {
+        format!(
+            " and {:.0} % standing in for leakage inductance the file does not state \
+             (leakage_mh, impedance_pct or short_test would model it)",
+            LEAKAGE_ALLOWANCE * 100.0
+        )
+    };
     let (low, high, why) = match w.source {
         WindingSource::Measured => (
             1.0,
             WARM_WINDING_FACTOR * leak,
             format!(
                 "winding measured cold ({} ohm): up to {:.0} % more assumed for a warm winding \
-                 (copper +0.39 %/degC, 40 degC) and {:.0} % for leakage inductance, which is \
-                 not modelled",
+                 (copper +0.39 %/degC, 40 degC){leak_words}",
                 format_number(round3(whole)),
                 (WARM_WINDING_FACTOR - 1.0) * 100.0,
-                LEAKAGE_ALLOWANCE * 100.0
             ),
         ),
         WindingSource::Nameplate => (
@@ -731,13 +745,11 @@ fn winding_axis(w: &WindingModel) -> Axis {
             high_ohms / w.secondary_ohms * leak,
             format!(
                 "winding resistance not stated: {}-{} ohm assumed for a transformer sized for \
-                 the load ({} VA, or up to {:.0} times that; regulation 5-25 %), and up to \
-                 {:.0} % more for leakage inductance, which is not modelled",
+                 the load ({} VA, or up to {:.0} times that; regulation 5-25 %){leak_words}",
                 format_number(round3(low_ohms)),
                 format_number(round3(high_ohms)),
                 format_number(round3(rated_va)),
                 ASSUMED_OVERSIZE,
-                LEAKAGE_ALLOWANCE * 100.0
             ),
         ),
     };

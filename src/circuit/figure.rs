@@ -100,7 +100,7 @@ impl Figure {
             Figure::ChokeDcDropV => ("choke_dc_drop_v", "Choke DC drop", "Choke drop", "V"),
             Figure::OutCapRippleRmsA => (
                 "out_cap_ripple_rms_a",
-                "Output capacitor ripple RMS",
+                "Output cap ripple RMS",
                 "Out cap rip.",
                 "A",
             ),
@@ -125,6 +125,36 @@ impl Figure {
     /// The unit (V, A, Hz, VA, deg).
     pub fn unit(self) -> &'static str {
         self.row().3
+    }
+
+    /// Whether the supply of `f` has this figure at all: a choke's figures need a choke, the
+    /// output capacitor's a second stage. (A switch-on surge nothing limits is still a row,
+    /// shown as unlimited.)
+    pub fn applies(self, f: &Figures) -> bool {
+        match self {
+            Figure::ChokeRmsA
+            | Figure::ChokePeakA
+            | Figure::ChokeDcDropV
+            | Figure::OutCapRippleRmsA => self.of(f).is_some(),
+            Figure::DcV
+            | Figure::MaxV
+            | Figure::MinV
+            | Figure::RipplePpV
+            | Figure::RippleRmsV
+            | Figure::RippleHz
+            | Figure::LoadA
+            | Figure::DiodePeakA
+            | Figure::DiodeAvgA
+            | Figure::DiodeRmsA
+            | Figure::DiodePivV
+            | Figure::WindingRmsA
+            | Figure::WindingVa
+            | Figure::CapRippleRmsA
+            | Figure::ConductionDeg
+            | Figure::InrushPeakA
+            | Figure::CapPeakV
+            | Figure::SecondaryRmsV => true,
+        }
     }
 
     /// The figure of `key`, if there is one.

@@ -71,7 +71,28 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
     };
     let f = &supply.filter;
     let (dc, ripple, load) = match (f.kind, f.uf) {
-        (FilterKind::Capacitor | FilterKind::Crc, Some(uf)) => {
+        // A choke input: the choke passes the rectified wave's average (2/pi or 1/pi of the
+        // working peak) less its copper's drop; the L section passes the strongest ripple
+        // term (2w: 4 Vm / 3 pi; w: Vm / 2 on half wave) divided by (n w)^2 L C - 1.
+        (FilterKind::Lc, Some(uf)) => {
+            let c = uf * 1e-6;
+            let henries = f.choke_h.unwrap_or(0.0);
+            let (average, term) = if pulses == 2.0 {
+                (2.0 / PI, 4.0 / (3.0 * PI))
+            } else {
+                (1.0 / PI, 0.5)
+            };
+            let mut dc = working * average;
+            let mut i = load_at(dc);
+            for _ in 0..20 {
+                i = load_at(dc);
+                dc = working * average - i * f.choke_ohms.unwrap_or(0.0);
+            }
+            let omega = 2.0 * PI * ripple_hz;
+            let ripple = 2.0 * working * term / (omega * omega * henries * c - 1.0).abs();
+            (dc, ripple, i)
+        }
+        (FilterKind::Capacitor | FilterKind::Crc | FilterKind::Clc, Some(uf)) => {
             let c = uf * 1e-6;
             // The paper habit: the load current at the working peak.
             let i = load_at(working);
@@ -88,6 +109,13 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
                     // The RC stage divides the ripple by its reactance ratio.
                     let xc = 1.0 / (2.0 * PI * ripple_hz * uf2 * 1e-6);
                     (dc - i * r, ripple * xc / (r * r + xc * xc).sqrt(), i)
+                }
+                (FilterKind::Clc, _, Some(uf2)) => {
+                    // The pi section divides the ripple by X_L / X_C2 - 1.
+                    let omega = 2.0 * PI * ripple_hz;
+                    let ratio = omega * omega * f.choke_h.unwrap_or(0.0) * uf2 * 1e-6;
+                    let r = f.choke_ohms.unwrap_or(0.0);
+                    (dc - i * r, ripple / (ratio - 1.0).abs().max(1.0), i)
                 }
                 _ => (dc, ripple, i),
             }

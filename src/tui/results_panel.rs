@@ -28,7 +28,7 @@ fn show(v: Option<f64>, unit: &str) -> String {
 
 /// The figures the panel lists, most asked-for first; the secondary AC is what a meter
 /// across the winding reads (RMS, whole winding).
-const ROWS: [Figure; 13] = [
+const ROWS: [Figure; 17] = [
     Figure::DcV,
     Figure::RipplePpV,
     Figure::MinV,
@@ -42,6 +42,10 @@ const ROWS: [Figure; 13] = [
     Figure::WindingVa,
     Figure::CapRippleRmsA,
     Figure::InrushPeakA,
+    Figure::ChokeRmsA,
+    Figure::ChokePeakA,
+    Figure::ChokeDcDropV,
+    Figure::OutCapRippleRmsA,
 ];
 
 /// A reading's words and unit on screen, by its visit key.
@@ -227,7 +231,11 @@ impl Widget for &ResultsPanel<'_> {
             ),
             look.heading(),
         ));
-        for figure in ROWS {
+        // A figure the supply does not have (a choke's, without one) is left out.
+        for figure in ROWS
+            .into_iter()
+            .filter(|f| f.applies(&solved.nominal.figures))
+        {
             let (label, name, unit) = (figure.short(), figure.key(), figure.unit());
             let e = solved.worst.extent(figure);
             let last = match before {
