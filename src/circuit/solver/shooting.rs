@@ -180,6 +180,8 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
         let tol = tolerance_v(c);
         // Whether `g` came from an error-controlled pass at the present `x`.
         let mut fresh = true;
+        // The mismatch of the step before, to tell a replay that has stalled.
+        let mut previous_g = f64::INFINITY;
         loop {
             newton_steps += 1;
             if newton_steps > limit {
@@ -210,9 +212,15 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
             // within 300 tolerances of where it started: 3e-4 of the ripple, a charge balance
             // good to 0.03 %.
             let worst_g = scaled_norm(&g, &scales);
-            if (fresh && worst_g <= 300.0 * tol) || (!fresh && longest <= 1e-2 * tol) {
+            // A replay that no longer gains (a path's knee or a diode's turn crossing inside a
+            // replayed step leaves the map a kink at this scale) and is already inside what
+            // the final pass accepts ends here: that pass, with steps chosen for itself, and
+            // its own closure finish the job for less than halving on towards rounding.
+            let stalled = !fresh && worst_g <= 300.0 * tol && worst_g > 0.5 * previous_g;
+            if (fresh && worst_g <= 300.0 * tol) || (!fresh && longest <= 1e-2 * tol) || stalled {
                 break;
             }
+            previous_g = worst_g;
             let mut x_new: Vec<f64> = x.iter().zip(&step).map(|(a, b)| a + b).collect();
             // A long step moves the conduction pulses: let the integrator find its steps anew.
             fresh = longest > 1e-4 * scale;
