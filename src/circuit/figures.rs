@@ -1,7 +1,7 @@
 //! The figures a technician reads off a solved supply: the rail's DC, ripple and peaks, the
 //! diodes', winding's and capacitor's currents, the conduction angle and the switch-on surge.
 
-use super::network::{LoadLaw, Network};
+use super::network::{Integral, LoadLaw, Network};
 use super::solver::{self, SteadyState};
 use crate::supply::Supply;
 use serde::Serialize;
@@ -117,12 +117,16 @@ impl Figures {
 }
 
 pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figures {
-    let dc = s.mean_v_out;
-    let offset = dc - s.ripple_ref_v;
-    let ripple_rms = (s.mean_sq_ripple - offset * offset).max(0.0).sqrt();
+    let mean = |i: Integral| i.mean(s);
+    let dc = mean(Integral::Rail);
+    // The ripple was integrated about the rail at the period's start.
+    let offset = dc - s.start_probe.v_out;
+    let ripple_rms = (mean(Integral::RippleSquare) - offset * offset)
+        .max(0.0)
+        .sqrt();
     let topology = supply.rectifier.topology;
     let halves = topology.has_half_windings();
-    let winding_rms = s.mean_sq_i_winding.max(0.0).sqrt();
+    let winding_rms = mean(Integral::WindingSquare).max(0.0).sqrt();
     // The choke's resistance, where there is a choke (a shorted one still carries the
     // current through its copper).
     let choke = supply
@@ -144,14 +148,14 @@ pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figure
         ripple_pp_v: (s.v_out_max - s.v_out_min).max(0.0),
         ripple_rms_v: ripple_rms,
         ripple_hz: ripple_frequency(net.line_hz, &s.probes),
-        load_a: s.mean_i_load,
+        load_a: mean(Integral::Load),
         diode_peak_a: s.i_diode_peak,
-        diode_avg_a: s.mean_i_diode,
-        diode_rms_a: s.mean_sq_i_diode.max(0.0).sqrt(),
+        diode_avg_a: mean(Integral::Diode),
+        diode_rms_a: mean(Integral::DiodeSquare).max(0.0).sqrt(),
         diode_piv_v: s.v_reverse_max.max(0.0),
         winding_rms_a: winding_rms,
         winding_va,
-        cap_ripple_rms_a: s.mean_sq_i_cap.max(0.0).sqrt(),
+        cap_ripple_rms_a: mean(Integral::CapSquare).max(0.0).sqrt(),
         conduction_deg: 360.0 * s.conduction_fraction,
         inrush_peak_a: inrush(net),
         cap_peak_v: s.v_cap_max,
@@ -162,10 +166,12 @@ pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figure
             .sum::<f64>()
             / s.probes.len().max(1) as f64)
             .sqrt(),
-        choke_rms_a: choke.map(|_| s.mean_sq_i_choke.max(0.0).sqrt()),
+        choke_rms_a: choke.map(|_| mean(Integral::ChokeSquare).max(0.0).sqrt()),
         choke_peak_a: choke.map(|_| s.i_choke_peak),
-        choke_dc_drop_v: choke.map(|ohms| ohms * s.mean_i_choke),
-        out_cap_ripple_rms_a: net.second.map(|_| s.mean_sq_i_out_cap.max(0.0).sqrt()),
+        choke_dc_drop_v: choke.map(|ohms| ohms * mean(Integral::Choke)),
+        out_cap_ripple_rms_a: net
+            .second
+            .map(|_| mean(Integral::OutCapSquare).max(0.0).sqrt()),
     }
 }
 

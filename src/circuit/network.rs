@@ -14,7 +14,7 @@
 //! backwards). A CLC's choke between its capacitors is a state too, free to reverse.
 
 use super::diode::DiodeLaw;
-use super::solver::{EDGES, PeriodicCircuit, Probe};
+use super::solver::{EDGES, PeriodicCircuit, Probe, QUADRATURES};
 use super::waveform::MainsWave;
 use std::f64::consts::PI;
 
@@ -584,7 +584,106 @@ struct Flow {
     i_out_cap: f64,
 }
 
+/// The running integrals the network asks of the solver's final pass, each an average over
+/// the mains period in [`SteadyState::means`](super::solver::SteadyState::means).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Integral {
+    /// The rail, volts.
+    Rail,
+    /// The rail's square about its value at the period's start (the ripple), volts squared.
+    RippleSquare,
+    /// One diode's current and its square.
+    Diode,
+    DiodeSquare,
+    /// The winding current's square (the whole secondary, or a center tap's half).
+    WindingSquare,
+    /// The first capacitor's current squared, and its average (zero in a steady state).
+    CapSquare,
+    Load,
+    Cap,
+    /// The choke's current and its square.
+    Choke,
+    ChokeSquare,
+    /// The output capacitor's current squared.
+    OutCapSquare,
+}
+
+// The solver holds as many running integrals as the network asks for.
+const _: () = assert!(Integral::ALL.len() <= QUADRATURES);
+
+impl Integral {
+    /// Every integral, in the slots' order (a test checks it against the declaration's).
+    pub const ALL: [Integral; 11] = [
+        Integral::Rail,
+        Integral::RippleSquare,
+        Integral::Diode,
+        Integral::DiodeSquare,
+        Integral::WindingSquare,
+        Integral::CapSquare,
+        Integral::Load,
+        Integral::Cap,
+        Integral::Choke,
+        Integral::ChokeSquare,
+        Integral::OutCapSquare,
+    ];
+
+    /// Its average over the period in `s` (volts, amps, or their squares).
+    pub fn mean(self, s: &super::solver::SteadyState) -> f64 {
+        s.means[self as usize]
+    }
+
+    /// Its integrand at one instant, given the probe at the period's start.
+    fn integrand(self, p: &Probe, start: &Probe) -> f64 {
+        match self {
+            Integral::Rail => p.v_out,
+            Integral::RippleSquare => (p.v_out - start.v_out).powi(2),
+            Integral::Diode => p.i_diode,
+            Integral::DiodeSquare => p.i_diode * p.i_diode,
+            Integral::WindingSquare => p.i_winding * p.i_winding,
+            Integral::CapSquare => p.i_cap * p.i_cap,
+            Integral::Load => p.i_load,
+            Integral::Cap => p.i_cap,
+            Integral::Choke => p.i_choke,
+            Integral::ChokeSquare => p.i_choke * p.i_choke,
+            Integral::OutCapSquare => p.i_out_cap * p.i_out_cap,
+        }
+    }
+
+    /// How closely the final pass holds its average: the rail to the voltage tolerance, the
+    /// charges (diode, load, capacitor, choke) to a millionth of the load current; the
+    /// squares follow their states.
+    fn tolerance(self, start: &Probe, volts: f64) -> Option<f64> {
+        let charge = 1e-6 * start.i_load.abs().max(1e-9);
+        match self {
+            Integral::Rail => Some(volts),
+            Integral::Diode | Integral::Load | Integral::Cap | Integral::Choke => Some(charge),
+            Integral::RippleSquare
+            | Integral::DiodeSquare
+            | Integral::WindingSquare
+            | Integral::CapSquare
+            | Integral::ChokeSquare
+            | Integral::OutCapSquare => None,
+        }
+    }
+}
+
 impl PeriodicCircuit for Network {
+    fn integrands(&self, p: &Probe, start: &Probe) -> [f64; QUADRATURES] {
+        let mut out = [0.0; QUADRATURES];
+        for (slot, integral) in out.iter_mut().zip(Integral::ALL) {
+            *slot = integral.integrand(p, start);
+        }
+        out
+    }
+
+    fn integral_tolerances(&self, start: &Probe, volts: f64) -> [Option<f64>; QUADRATURES] {
+        let mut out = [None; QUADRATURES];
+        for (slot, integral) in out.iter_mut().zip(Integral::ALL) {
+            *slot = integral.tolerance(start, volts);
+        }
+        out
+    }
+
     fn states(&self) -> usize {
         self.stage_state() + usize::from(self.second.is_some_and(|s| s.choke.is_some()))
     }
@@ -738,6 +837,18 @@ impl PeriodicCircuit for Network {
             }
             x[0] = v;
             x[self.path_state(0)] = self.load.current_at(v);
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn each_integral_reads_its_own_slot() {
+        for (slot, integral) in Integral::ALL.into_iter().enumerate() {
+            assert_eq!(integral as usize, slot, "{integral:?}");
         }
     }
 }

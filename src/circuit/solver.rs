@@ -13,7 +13,8 @@
 /// Most states a circuit may have (capacitor voltages and inductor currents: a doubler with
 /// leakage and a CLC filter has six), plus the running integrals of the final pass.
 pub const MAX_STATES: usize = 6;
-const QUADRATURES: usize = 11;
+/// Running integrals a circuit may ask of the final pass ([`PeriodicCircuit::integrands`]).
+pub const QUADRATURES: usize = 11;
 /// Switching functions a circuit may report: two charging paths and the load's knee.
 pub const EDGES: usize = 3;
 const WIDTH: usize = MAX_STATES + QUADRATURES;
@@ -106,6 +107,19 @@ pub trait PeriodicCircuit {
     }
     /// A start for Newton, volts; a hand estimate is close enough.
     fn initial_guess(&self, x: &mut [f64]);
+    /// What the final pass integrates over the mains period, for the figures' averages and
+    /// mean squares: the circuit's own choice, in its own order (unused slots 0). `start` is
+    /// the probe at the period's start, a reference that keeps a mean square of a small
+    /// ripple on a large level well conditioned. [`SteadyState::means`] holds the averages.
+    fn integrands(&self, p: &Probe, start: &Probe) -> [f64; QUADRATURES];
+    /// How closely each average must be held, in its own unit (volts for a voltage, amps for
+    /// a current), given the probe at the period's start and the solve's voltage tolerance;
+    /// None for one that needs no control of its own (a mean square follows its states).
+    /// A charge integral held as tightly as the voltages resolves a narrow pulse for its
+    /// charge and not only for the jump it leaves.
+    fn integral_tolerances(&self, _start: &Probe, _volts: f64) -> [Option<f64>; QUADRATURES] {
+        [None; QUADRATURES]
+    }
 }
 
 /// Why no steady state was found.
@@ -146,24 +160,13 @@ pub struct SteadyState {
     /// Share of the mains period in which one diode's current exceeds
     /// a thousandth of its peak, with the edges found on the dense output.
     pub conduction_fraction: f64,
-    /// Period averages: rail, diode current, load current; mean squares: ripple (about
-    /// `ripple_ref_v`), diode, winding and capacitor currents.
-    pub mean_v_out: f64,
-    pub mean_i_diode: f64,
-    pub mean_i_load: f64,
-    /// Average current into the first capacitor: zero in a true steady state.
-    pub mean_i_cap: f64,
-    pub mean_sq_ripple: f64,
-    pub ripple_ref_v: f64,
-    pub mean_sq_i_diode: f64,
-    pub mean_sq_i_winding: f64,
-    pub mean_sq_i_cap: f64,
-    /// The choke's average current, its mean square and its peak (amps, amps squared), and
-    /// the output capacitor's mean square current.
-    pub mean_i_choke: f64,
-    pub mean_sq_i_choke: f64,
+    /// The period averages of the circuit's own integrands ([`PeriodicCircuit::integrands`]),
+    /// in its order and units.
+    pub means: [f64; QUADRATURES],
+    /// The probe at the period's start (the reference the integrands were taken about).
+    pub start_probe: Probe,
+    /// The choke's peak current (amps; 0 without one), sought like the other crests.
     pub i_choke_peak: f64,
-    pub mean_sq_i_out_cap: f64,
     /// Newton iterations and one-period integrations spent, for the benchmarks' curiosity.
     pub newton_steps: usize,
     pub integrations: usize,
@@ -230,6 +233,20 @@ mod tests {
         fn initial_guess(&self, x: &mut [f64]) {
             x[0] = 0.0;
         }
+        fn integrands(&self, p: &Probe, _start: &Probe) -> [f64; QUADRATURES] {
+            let mut out = [0.0; QUADRATURES];
+            out[0] = p.v_out;
+            out[1] = p.v_out * p.v_out;
+            out
+        }
+        fn integral_tolerances(&self, _start: &Probe, volts: f64) -> [Option<f64>; QUADRATURES] {
+            // The average to the voltage tolerance; the mean square, of a 1 V sine, to as
+            // much in volts squared.
+            let mut out = [None; QUADRATURES];
+            out[0] = Some(volts);
+            out[1] = Some(volts);
+            out
+        }
     }
 
     /// The exact periodic solution's mean square, (1 / 2) / (1 + (w tau)^2): the first-order
@@ -254,9 +271,8 @@ mod tests {
             s.newton_steps,
             s.integrations
         );
-        // The ripple integrand is (v - v(0))^2; with v(0) known the mean square follows.
-        let v0 = s.ripple_ref_v;
-        let mean_sq = s.mean_sq_ripple + 2.0 * v0 * s.mean_v_out - v0 * v0;
+        // The circuit's own integrals: v and v^2.
+        let mean_sq = s.means[1];
         let want = exact_mean_square(c.tau_s);
         // The filtered error estimate lets a quasi-static state drift from its exact path by
         // more than the tolerance (measured 6e-5 of the mean square here, 3e-5 of the
@@ -265,7 +281,7 @@ mod tests {
             (mean_sq - want).abs() < 2e-4 * want,
             "mean square {mean_sq}, exact {want}"
         );
-        assert!(s.mean_v_out.abs() < 1e-5, "mean {}", s.mean_v_out);
+        assert!(s.means[0].abs() < 1e-5, "mean {}", s.means[0]);
     }
 
     #[test]
@@ -273,8 +289,7 @@ mod tests {
         let c = LowPass { tau_s: 2e-3 };
         let s = steady_state(&c).unwrap();
         assert!(!s.stiff);
-        let v0 = s.ripple_ref_v;
-        let mean_sq = s.mean_sq_ripple + 2.0 * v0 * s.mean_v_out - v0 * v0;
+        let mean_sq = s.means[1];
         let want = exact_mean_square(c.tau_s);
         assert!(
             (mean_sq - want).abs() < 1e-6 * want,
@@ -314,6 +329,12 @@ mod tests {
         }
         fn initial_guess(&self, x: &mut [f64]) {
             x[0] = 0.0;
+        }
+        fn integrands(&self, p: &Probe, start: &Probe) -> [f64; QUADRATURES] {
+            self.0.integrands(p, start)
+        }
+        fn integral_tolerances(&self, start: &Probe, volts: f64) -> [Option<f64>; QUADRATURES] {
+            self.0.integral_tolerances(start, volts)
         }
     }
 

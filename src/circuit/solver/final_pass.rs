@@ -11,26 +11,6 @@ use super::{
     WIDTH,
 };
 
-/// What the final pass integrates over the period: the rail, its ripple about `ripple_ref_v`
-/// squared, the diode current and its square, the winding's and capacitor's squares, the
-/// load current and the capacitor current.
-fn integrands(p: &Probe, ripple_ref_v: f64) -> [f64; QUADRATURES] {
-    let r = p.v_out - ripple_ref_v;
-    [
-        p.v_out,
-        r * r,
-        p.i_diode,
-        p.i_diode * p.i_diode,
-        p.i_winding * p.i_winding,
-        p.i_cap * p.i_cap,
-        p.i_load,
-        p.i_cap,
-        p.i_choke,
-        p.i_choke * p.i_choke,
-        p.i_out_cap * p.i_out_cap,
-    ]
-}
-
 /// Integrates one mains period from the steady start, with the running integrals appended to
 /// the state so the averages are as accurate as the integration itself.
 pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
@@ -43,12 +23,11 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     let period = c.line_period_s();
     let mut scratch = [0.0; MAX_STATES];
     let first = c.evaluate(0.0, x, &mut scratch[..n]);
-    let ripple_ref_v = first.v_out;
     let mut y = [0.0; WIDTH];
     y[..n].copy_from_slice(x);
     let mut f = |t: f64, y: &Vector, dy: &mut Vector| {
         let p = c.evaluate(t, &y[..n], &mut dy[..n]);
-        dy[n..n + QUADRATURES].copy_from_slice(&integrands(&p, ripple_ref_v));
+        dy[n..n + QUADRATURES].copy_from_slice(&c.integrands(&p, &first));
         p
     };
     let mut t_s = Vec::with_capacity(SAMPLES);
@@ -80,7 +59,7 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
             } else {
                 2.0
             };
-            for (a, v) in acc.iter_mut().zip(integrands(&p, ripple_ref_v)) {
+            for (a, v) in acc.iter_mut().zip(c.integrands(&p, &first)) {
                 *a += w * v * h / 3.0;
             }
             extremes.push((t, p));
@@ -92,9 +71,8 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         y[..QUADRATURES].copy_from_slice(&acc);
         run.evaluations += fine + 1;
     } else {
-        // The charge integrals are held to the same relative accuracy as the voltages, so that
-        // a narrow pulse is resolved for its charge and not only for the jump it leaves; the
-        // mean squares need no control of their own.
+        // The integrals the circuit asks to be held are, per second of the period; the mean
+        // squares need no control of their own.
         // A circuit that repeats every half cycle gets a step end at the half, so that the two
         // halves can be integrated alike (see the closure in `steady_state`).
         let mut breaks = c.breakpoints_s();
@@ -106,10 +84,14 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         for i in 0..n {
             atol[i] = tolerance_v(c) * c.state_scale(i);
         }
-        let charge = 1e-6 * first.i_load.abs().max(1e-9) * period;
-        atol[n] = tolerance_v(c) * period;
-        for q in [2, 6, 7, 8] {
-            atol[n + q] = charge;
+        for (q, held) in c
+            .integral_tolerances(&first, tolerance_v(c))
+            .into_iter()
+            .enumerate()
+        {
+            if let Some(mean) = held {
+                atol[n + q] = mean * period;
+            }
         }
         loop {
             let mut next = 0usize;
@@ -184,8 +166,10 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     let v_cap_max = best(|p| p.v_cap);
     let vr_max = best(|p| p.v_reverse);
     let conduction_fraction = 0.0;
-    let mean = |i: usize| y[i] / period;
-    let mean_v_out = mean(0);
+    let mut means = [0.0; QUADRATURES];
+    for (q, m) in means.iter_mut().enumerate() {
+        *m = y[q] / period;
+    }
     let state = SteadyState {
         start: x.to_vec(),
         end,
@@ -197,34 +181,19 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         i_diode_peak: i_peak,
         v_reverse_max: vr_max,
         conduction_fraction,
-        mean_v_out,
-        mean_i_diode: mean(2),
-        mean_i_load: mean(6),
-        mean_i_cap: mean(7),
-        mean_sq_ripple: mean(1),
-        ripple_ref_v,
-        mean_sq_i_diode: mean(3),
-        mean_sq_i_winding: mean(4),
-        mean_sq_i_cap: mean(5),
-        mean_i_choke: mean(8),
-        mean_sq_i_choke: mean(9),
+        means,
+        start_probe: first,
         i_choke_peak: best(|p| p.i_choke).max(0.0),
-        mean_sq_i_out_cap: mean(10),
         newton_steps: 0,
         integrations: 0,
         evaluations: 0,
         steps: 0,
         stiff: false,
     };
-    let finite = [
-        state.mean_v_out,
-        state.mean_sq_ripple,
-        state.v_out_max,
-        state.v_out_min,
-        state.i_diode_peak,
-    ]
-    .iter()
-    .all(|v| v.is_finite());
+    let finite = [state.v_out_max, state.v_out_min, state.i_diode_peak]
+        .iter()
+        .chain(&state.means)
+        .all(|v| v.is_finite());
     if finite {
         Ok((
             state,
