@@ -258,3 +258,62 @@ fn leakage_from_the_impedance_and_from_a_short_circuit_test() {
     let e = Supply::from_toml_str(&both).unwrap_err().to_string();
     assert!(e.contains("one of leakage_mh"), "{e}");
 }
+
+/// A swinging choke (its inductance falling from `choke_light_h` at light current to `choke_h`
+/// at `choke_rated_a`) against ngspice's behavioural inductor of the same law
+/// (tests/reference/swinging.py, ngspice-39, tests/reference/ngspice_swinging.csv): the same
+/// tolerances as the fixed chokes. At the light load the swing holds the choke above its
+/// critical inductance (the current never stops: ngspice's least choke current is 3.5 mA),
+/// where the rated inductance alone would not; the check says so both ways.
+#[test]
+fn a_swinging_choke_matches_ngspice_and_stays_above_critical_at_light_load() {
+    let cases = common::reference_csv("ngspice_swinging.csv");
+    assert_eq!(cases.len(), 3);
+    let load = |case: &str| {
+        let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("tests/reference/swinging")
+            .join(format!("{case}.toml"));
+        Supply::from_toml_str(&std::fs::read_to_string(&path).unwrap()).unwrap()
+    };
+    for (case, want) in &cases {
+        let s = load(case);
+        assert!(s.filter.choke_light_h.is_some(), "{case} swings");
+        let got = serde_json::to_value(
+            solve(&s, &Conditions::default())
+                .unwrap_or_else(|e| panic!("{case}: {e}"))
+                .figures,
+        )
+        .unwrap();
+        for (key, tol) in [
+            ("dc_v", 0.005),
+            ("min_v", 0.005),
+            ("max_v", 0.005),
+            ("ripple_pp_v", 0.02),
+            ("choke_rms_a", 0.02),
+            ("choke_peak_a", 0.02),
+            ("diode_rms_a", 0.02),
+        ] {
+            let (g, w) = (got[key].as_f64().unwrap(), want[key]);
+            println!("{case} {key}: engine {g:.5}, ngspice {w:.5}");
+            assert!(
+                (g - w).abs() / w < tol,
+                "{case} {key}: engine {g}, ngspice {w}"
+            );
+        }
+    }
+    let light = load("swing_ct_50_light");
+    let status = |s: Supply| {
+        let r = railcheck::report::build_default(s, "swing").unwrap();
+        r.checks
+            .iter()
+            .find(|c| c.id == "choke-critical")
+            .map(|c| c.status)
+            .unwrap()
+    };
+    use railcheck::analysis::checks::Status;
+    assert_eq!(status(light.clone()), Status::Ok);
+    let mut fixed = light;
+    fixed.filter.choke_light_h = None;
+    fixed.filter.choke_rated_a = None;
+    assert_eq!(status(fixed), Status::Warn);
+}
