@@ -317,3 +317,46 @@ fn a_swinging_choke_matches_ngspice_and_stays_above_critical_at_light_load() {
     fixed.filter.choke_rated_a = None;
     assert_eq!(status(fixed), Status::Warn);
 }
+
+/// Every fault condition the diagnosis tries, on every choke and leakage reference case,
+/// solves or is refused with a reason: never a panic (a choke input with its capacitor open
+/// once indexed a state it no longer had).
+#[test]
+fn every_fault_condition_on_a_choke_or_leaky_supply_solves() {
+    let cases = common::reference_csv("ngspice_inductors.csv");
+    for (case, _) in &cases {
+        let s = supply(case);
+        let conditions = [
+            Conditions {
+                capacitor_open: true,
+                ..Conditions::default()
+            },
+            Conditions {
+                leg_open: true,
+                ..Conditions::default()
+            },
+            Conditions {
+                reservoir_factor: 0.3,
+                ..Conditions::default()
+            },
+            Conditions {
+                esr_ohms: Some(5.0),
+                ..Conditions::default()
+            },
+            Conditions {
+                choke_shorted: true,
+                ..Conditions::default()
+            },
+            Conditions {
+                load: Some(railcheck::circuit::LoadOverride::Amps(0.0)),
+                ..Conditions::default()
+            },
+        ];
+        for c in conditions {
+            match solve(&s, &c) {
+                Ok(op) => assert!(op.figures.dc_v.is_finite(), "{case} {c:?}"),
+                Err(e) => assert!(!e.to_string().is_empty(), "{case} {c:?}"),
+            }
+        }
+    }
+}

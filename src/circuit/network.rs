@@ -820,7 +820,7 @@ impl PeriodicCircuit for Network {
                 x[self.stage_state()] = i;
             }
         }
-        if self.paths[0].choke.is_some() {
+        if self.paths[0].choke.is_some() && self.has_inductive_paths() {
             // A choke input above its critical inductance: the rail is the rectified wave's
             // average less the resistive and diode drops, the choke carrying the load.
             let p = &self.paths[0];
