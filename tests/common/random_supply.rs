@@ -52,9 +52,9 @@ pub fn supply_text(u: &mut dyn FnMut() -> f64, p_wild: f64) -> String {
         &["half-wave", "center-tap", "bridge", "doubler", "split-rail"],
     );
     let kind = if topology == "doubler" {
-        pick(u, &["capacitor", "crc"])
+        pick(u, &["capacitor", "crc", "clc"])
     } else {
-        pick(u, &["none", "capacitor", "crc"])
+        pick(u, &["none", "capacitor", "crc", "lc", "clc"])
     };
     let vrms = value(u, (100.0, 250.0), (1.0, 1000.0), p_wild);
     let hz = if u() < 0.7 {
@@ -104,6 +104,12 @@ pub fn supply_text(u: &mut dyn FnMut() -> f64, p_wild: f64) -> String {
     if u() < 0.3 {
         t += &format!("ratio_pct = {}\n", u() * 20.0);
     }
+    if u() < 0.3 {
+        t += &format!(
+            "leakage_mh = {:e}\n",
+            maybe_zero(u, 0.1, (0.1, 50.0), (1e-6, 1e6), p_wild)
+        );
+    }
     t += &format!("[rectifier]\ntopology = \"{topology}\"\n");
     let d = u();
     if d < 0.6 {
@@ -149,6 +155,27 @@ pub fn supply_text(u: &mut dyn FnMut() -> f64, p_wild: f64) -> String {
             value(u, (10.0, 1000.0), (1e-3, 1e6), p_wild),
             value(u, (10.0, 20000.0), (1e-6, 1e7), p_wild)
         );
+    }
+    if kind == "clc" {
+        t += &format!(
+            "second_uf = {:e}\n",
+            value(u, (10.0, 20000.0), (1e-6, 1e7), p_wild)
+        );
+    }
+    if kind == "lc" || kind == "clc" {
+        let henries = value(u, (0.005, 20.0), (1e-6, 1000.0), p_wild);
+        t += &format!(
+            "choke_h = {henries:e}\nchoke_ohms = {:e}\n",
+            maybe_zero(u, 0.1, (0.1, 300.0), (1e-6, 1e5), p_wild)
+        );
+        if u() < 0.2 {
+            // A swinging choke: more inductance at light current.
+            t += &format!(
+                "choke_light_h = {:e}\nchoke_rated_a = {:e}\n",
+                (henries * (1.0 + 4.0 * u())).min(1000.0),
+                value(u, (0.05, 5.0), (1e-4, 1e4), p_wild)
+            );
+        }
     }
     t += "[load]\n";
     if u() < 0.5 {
