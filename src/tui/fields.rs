@@ -333,10 +333,7 @@ impl Field {
                         };
                         s.winding()
                             .map(|w| {
-                                format!(
-                                    "{} ({from})",
-                                    crate::units::format_si(w.leakage_h, "H")
-                                )
+                                format!("{} ({from})", crate::units::format_si(w.leakage_h, "H"))
                             })
                             .unwrap_or_else(|_| "-".into())
                     }
