@@ -735,3 +735,31 @@ fn the_report_names_values_not_yet_confirmed() {
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(v["unconfirmed"][0], "filter.esr_ohms");
 }
+
+/// Each example that states in its comments what `railcheck report` gives ("gives DC 329 V")
+/// still gives it: the comment sits beside a hand estimate (the demo's check that its figures
+/// make physical sense), and would otherwise rot as the engine changes. To the comment's
+/// three figures.
+#[test]
+fn the_examples_report_what_their_comments_say() {
+    let mut checked = 0;
+    for file in examples() {
+        let text = std::fs::read_to_string(&file).unwrap();
+        let Some(at) = text.find("`railcheck report` gives DC ") else {
+            continue;
+        };
+        let rest = &text[at + "`railcheck report` gives DC ".len()..];
+        let said: f64 = rest.split_whitespace().next().unwrap().parse().unwrap();
+        let out = railcheck(&["report", "--json", file.to_str().unwrap()]);
+        let json: serde_json::Value =
+            serde_json::from_slice(out.stdout.split(|b| *b == b'\n').next().unwrap()).unwrap();
+        let dc = json["nominal"]["dc_v"].as_f64().unwrap();
+        assert!(
+            (dc / said - 1.0).abs() < 0.002,
+            "{}: the comment says DC {said} V, the report gives {dc} V",
+            file.display()
+        );
+        checked += 1;
+    }
+    assert!(checked >= 3, "{checked} examples state their DC");
+}
