@@ -201,7 +201,7 @@ mod tests {
         assert!(with_history >= 4);
         // Issue 12's keys are in the demo: a pi filter and a transformer's leakage given by
         // its label or a short-circuit test. (The choke-input example,
-        // examples/sluice-solenoid-rail.toml, waits outside it: the diagnosis of a choke
+        // examples/waiting/sluice-solenoid-rail.toml, waits outside it: the diagnosis of a choke
         // input's readings panics, and the capacitance trend's tables miss on it.)
         let parsed: Vec<Supply> = all
             .iter()
