@@ -135,6 +135,17 @@ fn main() {
     shot(&app, "nameplate-question-100x30", 100, 30);
     app.update(Msg::Char('n'));
     shot(&app, "too-small-60x20", 60, 20);
+    // A pi filter: the hall amplifier's HT rail, its choke's rows in the form and the results.
+    app.panel = railcheck::tui::app::Panel::List;
+    for _ in 0..app.entries.len() {
+        app.update(Msg::Up);
+    }
+    while app.open.as_ref().expect("open").supply.name != "Members' hall PA amplifier, HT rail" {
+        app.update(Msg::Down);
+    }
+    app.update(Msg::NextPanel);
+    go_to(&mut app, "filter.choke_h");
+    shot(&app, "choke-100x30", 100, 30);
 }
 
 /// Moves the form's cursor to the row of the file key `path`.

@@ -735,3 +735,41 @@ fn the_report_names_values_not_yet_confirmed() {
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     assert_eq!(v["unconfirmed"][0], "filter.esr_ohms");
 }
+
+/// Each example that states in its comments what `railcheck report` gives ("gives DC 329 V")
+/// still gives it: the comment sits beside a hand estimate (the demo's check that its figures
+/// make physical sense), and would otherwise rot as the engine changes. To the comment's
+/// three figures.
+#[test]
+fn the_examples_report_what_their_comments_say() {
+    let mut checked = 0;
+    // With the choke input waiting for its diagnosis (examples/waiting/README.md): its report
+    // answers.
+    let waiting = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/waiting");
+    let mut files = examples();
+    files.extend(
+        std::fs::read_dir(waiting)
+            .unwrap()
+            .map(|e| e.unwrap().path())
+            .filter(|p| p.extension().is_some_and(|e| e == "toml")),
+    );
+    for file in files {
+        let text = std::fs::read_to_string(&file).unwrap();
+        let Some(at) = text.find("`railcheck report` gives DC ") else {
+            continue;
+        };
+        let rest = &text[at + "`railcheck report` gives DC ".len()..];
+        let said: f64 = rest.split_whitespace().next().unwrap().parse().unwrap();
+        let out = railcheck(&["report", "--json", file.to_str().unwrap()]);
+        let json: serde_json::Value =
+            serde_json::from_slice(out.stdout.split(|b| *b == b'\n').next().unwrap()).unwrap();
+        let dc = json["nominal"]["dc_v"].as_f64().unwrap();
+        assert!(
+            (dc / said - 1.0).abs() < 0.002,
+            "{}: the comment says DC {said} V, the report gives {dc} V",
+            file.display()
+        );
+        checked += 1;
+    }
+    assert!(checked >= 3, "{checked} examples state their DC");
+}

@@ -158,7 +158,9 @@ pub fn checks(
             message: if below {
                 format!(
                     "choke {} at {load} is below the critical {} ({formula}): its current \
-                     stops each cycle and the rail rises towards the peak",
+                     stops each cycle and the rail rises towards the peak; a larger \
+                     filter.choke_h (a swinging choke's choke_light_h) or a smaller \
+                     filter.bleeder_ohms holds it",
                     crate::units::format_si(c.henries, "H"),
                     crate::units::format_si(c.critical_henries, "H"),
                 )

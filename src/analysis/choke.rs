@@ -89,9 +89,11 @@ pub fn critical(supply: &Supply, rail_v: f64) -> Option<Critical> {
 }
 
 /// A first guess at a choke for `supply`'s filter (henries, ohms): for a choke input, twice
-/// the critical inductance at the stated load; for a CLC, a reactance at twice the line
-/// frequency of ten times the load's resistance; its copper about 2 % of the load's
-/// resistance. Rounded to two figures; the form marks both as guesses.
+/// the critical inductance at the lightest load with the bleeder (what `choke-critical`
+/// compares against, so a guess never starts with a warning; the stated load when nothing
+/// lighter is stated); for a CLC, a reactance at twice the line frequency of ten times the
+/// load's resistance; its copper about 2 % of the load's resistance. Rounded to two figures;
+/// the form marks both as guesses.
 pub fn choke_guess(supply: &Supply) -> (f64, f64) {
     let secondary = supply
         .winding()
@@ -109,6 +111,8 @@ pub fn choke_guess(supply: &Supply) -> (f64, f64) {
     let henries = match supply.filter.kind {
         FilterKind::Clc => 10.0 * ohms / (2.0 * TAU * supply.mains.hz),
         FilterKind::Lc | FilterKind::None | FilterKind::Capacitor | FilterKind::Crc => {
+            let lightest = lightest_load_ohms(supply, rail);
+            let ohms = if lightest.is_finite() { lightest } else { ohms };
             2.0 * critical_henries(ohms, supply.mains.hz, t.pulses_per_cycle())
         }
     };
@@ -136,6 +140,31 @@ mod tests {
         assert!((full - 0.04987).abs() < 1e-5, "{full}");
         let half = critical_henries(47.0, 50.0, 1);
         assert!((half / full - 1.5 * PI).abs() < 1e-12);
+    }
+
+    /// The form's guess for a choke input clears the critical inductance the check compares
+    /// it with (the lightest load and the bleeder), so a switch to `lc` does not greet the
+    /// technician with a warning of its own making: the pump-house relay rail (0.35 A, down
+    /// to 0.05 A, a 4.7 kohm bleeder) needs about 0.54 H at its lightest, not the 0.07 H of
+    /// its stated load.
+    #[test]
+    fn the_guess_for_a_choke_input_clears_the_critical_at_the_lightest_load() {
+        let mut s =
+            Supply::from_toml_str(include_str!("../../examples/pump-house-relay-rail.toml"))
+                .unwrap();
+        s.filter.kind = FilterKind::Lc;
+        let (henries, ohms) = choke_guess(&s);
+        s.filter.choke_h = Some(henries);
+        s.filter.choke_ohms = Some(ohms);
+        s.validate().unwrap();
+        let (op, _) = crate::circuit::solve_nominal(&s).unwrap();
+        let c = critical(&s, op.figures.dc_v).unwrap();
+        assert!(
+            c.henries > 1.5 * c.critical_henries,
+            "guess {henries} H against the critical {} H at {} ohm",
+            c.critical_henries,
+            c.lightest_ohms
+        );
     }
 
     #[test]

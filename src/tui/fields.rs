@@ -321,6 +321,22 @@ impl Field {
                         .winding()
                         .map(|w| format!("{} (nameplate)", format_number(w.ratio)))
                         .unwrap_or_else(|_| "-".into()),
+                    // The leakage a short-circuit test or the percent impedance gives, so a
+                    // file with one does not read as having none.
+                    "transformer.leakage_mh" => {
+                        let from = if s.transformer.short_test.is_some() {
+                            "short_test"
+                        } else if s.transformer.impedance_pct.is_some() {
+                            "impedance %"
+                        } else {
+                            return "-".into();
+                        };
+                        s.winding()
+                            .map(|w| {
+                                format!("{} ({from})", crate::units::format_si(w.leakage_h, "H"))
+                            })
+                            .unwrap_or_else(|_| "-".into())
+                    }
                     _ => "-".into(),
                 },
             },
@@ -409,9 +425,15 @@ impl Field {
         }
         out.unconfirmed.retain(|p| p != self.path);
         // A guess whose key the change dropped (the ratio, once the nameplate is chosen) is
-        // no longer there to confirm.
+        // no longer there to confirm. One the file keeps while its row does not apply (a
+        // guessed choke while the filter is switched to a capacitor and back) stays a guess.
         let mut unconfirmed = std::mem::take(&mut out.unconfirmed);
-        unconfirmed.retain(|p| row(p).is_none_or(|f| f.applies(&out) && f.show(&out) != "-"));
+        unconfirmed.retain(|p| {
+            row(p).is_none_or(|f| match f.edit {
+                Edit::Number(_) => value_at(&out, f.path).is_some(),
+                Edit::Text { .. } | Edit::Choice(_) => f.applies(&out) && f.show(&out) != "-",
+            })
+        });
         out.unconfirmed = unconfirmed;
         for g in guesses {
             if !out.unconfirmed.iter().any(|p| p == g) {

@@ -100,8 +100,9 @@ pub fn draw(app: &App, area: Rect, buf: &mut ratatui::buffer::Buffer) {
         Mode::Editing { .. } => match app.open.as_ref() {
             Some(o) => match &o.field_error {
                 Some((_, why)) => format!("refused: {why}"),
+                // The key and its range first: a narrow screen cuts the line's end.
                 None => format!(
-                    "Enter applies, Esc cancels (4k7, 47u, 2m2); {}",
+                    "{}  |  Enter applies, Esc cancels (4k7, 47u, 2m2)",
                     super::fields::FIELDS[o.field].help_line()
                 ),
             },
