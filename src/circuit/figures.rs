@@ -198,6 +198,10 @@ fn inrush(net: &Network) -> Option<f64> {
     let esr = net.reservoirs.first().map_or(0.0, |r| r.esr_ohms);
     let ohms = p.ohms + p.series_ohms + esr;
     let peak = p.emf_share * net.emf_rms_v * net.wave.crest();
+    if !ohms.is_finite() {
+        // A path open at its end (an open choke): nothing flows at switch-on either.
+        return Some(0.0);
+    }
     if net.reservoirs.is_empty() {
         // No capacitor: the first pulse is an ordinary one.
         let load_ohms = match net.load {
