@@ -341,7 +341,8 @@ impl Network {
                 i_cap: 0.0,
                 i_load: i,
                 v_source: s,
-                i_choke: 0.0,
+                // A choke input's choke carries the path's current (an open one nothing).
+                i_choke: i,
                 i_out_cap: 0.0,
             },
         )
@@ -524,12 +525,12 @@ impl Network {
                 ..Probe::default()
             };
         }
-        let i_choke = if self.paths[0].choke.is_some() {
-            path_i[0] + path_i[1]
-        } else if self.second.is_some_and(|s| s.choke.is_some()) {
+        // The current where the choke sits, its inductance there or shorted out (its copper
+        // still carries the current); the figures show it only for a filter with a choke.
+        let i_choke = if self.second.is_some() {
             nodes.i_out
         } else {
-            0.0
+            path_i[0] + path_i[1]
         };
         let i_cap = charge[0] - nodes.i_out;
         let i_out_cap = if self.second.is_some() {
