@@ -116,20 +116,25 @@ impl Figures {
     }
 }
 
-pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figures {
+pub(super) fn figures(
+    supply: &Supply,
+    net: &Network,
+    s: &SteadyState,
+    cond: &super::Conditions,
+) -> Figures {
     let dc = s.mean_v_out;
     let offset = dc - s.ripple_ref_v;
     let ripple_rms = (s.mean_sq_ripple - offset * offset).max(0.0).sqrt();
     let topology = supply.rectifier.topology;
     let halves = topology.has_half_windings();
     let winding_rms = s.mean_sq_i_winding.max(0.0).sqrt();
-    // The choke's resistance, where there is a choke (a shorted one still carries the
-    // current through its copper).
+    // The choke's resistance as solved (warmed by the conditions' factor), where there is a
+    // choke (a shorted one still carries the current through its copper).
     let choke = supply
         .filter
         .kind
         .has_choke()
-        .then(|| supply.filter.choke_ohms.unwrap_or(0.0));
+        .then(|| supply.filter.choke_ohms.unwrap_or(0.0) * cond.choke_factor);
     // Volt-amperes as the transformer's rating counts them: its RMS EMF times RMS current,
     // each half of a center-tapped winding counted.
     let winding_va = if halves {
