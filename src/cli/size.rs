@@ -217,6 +217,34 @@ mod tests {
     }
 
     #[test]
+    fn a_choke_input_says_which_capacitor_and_gives_its_choke() {
+        let s = Supply::from_toml_str(
+            "format = 1\nname = \"choke\"\n[mains]\nvrms = 230.0\nhz = 50.0\n[transformer]\n\
+             ratio = 7.667\nsecondary_ohms = 0.5\n[rectifier]\ntopology = \"bridge\"\n\
+             [filter]\nkind = \"lc\"\nuf = 2200.0\nchoke_h = 0.2\nchoke_ohms = 2.0\n\
+             [load]\nohms = 47.0\n",
+        )
+        .unwrap();
+        let chokes = sizing::size_choke(&s).unwrap().unwrap();
+        let mut out = Vec::new();
+        render_text(
+            &mut out,
+            &s,
+            Target::RipplePp(0.1),
+            &[sized(6800.0, Some(63.0))],
+            &chokes,
+        )
+        .unwrap();
+        let text = String::from_utf8(out).unwrap();
+        assert!(text.contains("the capacitor after the choke"), "{text}");
+        assert!(text.contains("critical inductance 49.9 mH"), "{text}");
+        assert!(
+            text.contains("E12  56.0 mH") && text.contains("E6   68.0 mH"),
+            "{text}"
+        );
+    }
+
+    #[test]
     fn headroom_needs_a_regulator_and_says_which_option_fits() {
         let err = target(&supply(false), None, Some(2.0), None)
             .unwrap_err()
