@@ -394,3 +394,83 @@ fn the_seeded_spread_lies_inside_the_hard_limits_and_repeats() {
         .unwrap();
     assert!(dc.p99 - dc.p1 < e.max - e.min);
 }
+
+fn inductor_supply(case: &str) -> Supply {
+    let p = root()
+        .join("tests/reference/inductors")
+        .join(format!("{case}.toml"));
+    Supply::from_toml_str(&std::fs::read_to_string(p).unwrap()).unwrap()
+}
+
+/// A choke's resistance warms like a winding's (copper +0.39 %/degC over 40 degC, the figure
+/// WARM_WINDING_FACTOR uses: memory, common practice), upward only; a stated leakage spreads
+/// +-20 % (a judgement, see ASSUMED_LEAKAGE_SPREAD_PCT). Both show under `assumed` only where
+/// the supply has them, and the choke's figures span the box.
+#[test]
+fn a_choke_supply_worst_case_has_the_choke_figures_and_its_axes() {
+    use railcheck::circuit::Figure;
+    let s = inductor_supply("lc_br_50_above");
+    let wc = worst_case(&s).unwrap();
+    let choke = wc
+        .assumed
+        .iter()
+        .find(|a| a.what == "choke_ohms_factor")
+        .expect("the choke's copper assumed");
+    assert_eq!((choke.low, choke.nominal), (1.0, 1.0));
+    assert!((choke.high - (1.0 + 0.0039 * 40.0)).abs() < 1e-12);
+    assert!(
+        choke.why.contains("2 ohm") && choke.why.contains("16 %"),
+        "{}",
+        choke.why
+    );
+    assert!(
+        wc.tolerances
+            .iter()
+            .any(|t| t == "choke resistance +0 % / +16 %"),
+        "{:?}",
+        wc.tolerances
+    );
+    // No leakage stated: no leakage axis.
+    assert!(wc.assumed.iter().all(|a| a.what != "leakage_factor"));
+    // The choke's DC drop, R x I: its highest where the copper is warm, by at least the warm
+    // copper's share over the nominal (the current barely moves with the copper).
+    let drop = wc.extent(Figure::ChokeDcDropV).expect("the choke's drop");
+    let nominal = railcheck::solve(&s, &Conditions::default())
+        .unwrap()
+        .figures
+        .choke_dc_drop_v
+        .unwrap();
+    assert!(
+        drop.max_at.contains("choke copper +16 %"),
+        "{}",
+        drop.max_at
+    );
+    assert!(
+        drop.max > 1.1 * nominal && drop.min < nominal,
+        "{drop:?} {nominal}"
+    );
+    for figure in [Figure::ChokeRmsA, Figure::ChokePeakA] {
+        let e = wc.extent(figure).expect("a choke figure");
+        assert!(e.min > 0.0 && e.max > e.min, "{figure:?} {e:?}");
+    }
+    // A CLC has the axis too; a capacitor input with stated leakage has the leakage's and not
+    // the choke's.
+    let clc = worst_case(&inductor_supply("clc_br_lv_50")).unwrap();
+    assert!(clc.assumed.iter().any(|a| a.what == "choke_ohms_factor"));
+    let leaky = ToleranceBox::of(&inductor_supply("leak_br_50"));
+    let assumed = leaky.assumed();
+    assert!(assumed.iter().all(|a| a.what != "choke_ohms_factor"));
+    let leak = assumed
+        .iter()
+        .find(|a| a.what == "leakage_factor")
+        .expect("the stated leakage's spread");
+    assert_eq!((leak.low, leak.nominal, leak.high), (0.8, 1.0, 1.2));
+    assert!(leak.why.contains("2.3 mH"), "{}", leak.why);
+    let plain = ToleranceBox::of(&reference_supply("br_cc_50"));
+    assert!(
+        plain
+            .assumed()
+            .iter()
+            .all(|a| a.what != "leakage_factor" && a.what != "choke_ohms_factor")
+    );
+}

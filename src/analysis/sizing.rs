@@ -1,8 +1,10 @@
 //! Sizing a replacement filter capacitor: the smallest preferred value that meets a ripple or
-//! headroom target at the worst case, with the voltage rating and ripple current it needs.
+//! headroom target at the worst case, with the voltage rating and ripple current it needs; and
+//! for a choke input, the smallest preferred choke above the critical inductance.
 
+use super::choke;
 use super::worst_case::{voltage_stress, worst_case};
-use crate::circuit::{CircuitError, Figure};
+use crate::circuit::{self, CircuitError, Conditions, Figure};
 use crate::supply::{FilterKind, Supply};
 use serde::Serialize;
 
@@ -66,6 +68,114 @@ pub enum SizingError {
          and the worst valley {valley:.2} V; the winding, not the capacitor, limits this rail"
     )]
     Unreachable { ripple: f64, valley: f64 },
+    /// Behind a choke a very large capacitor rings slower than a solve's budget allows: the
+    /// largest decade that could be solved did not meet the target.
+    #[error(
+        "no capacitance up to {largest_uf} uF meets the target (larger ones could not be solved \
+         behind the filter's choke or resistor within the solver's budget): at {largest_uf} uF \
+         the worst ripple is {ripple:.3} V and the worst valley {valley:.2} V"
+    )]
+    UnreachableSolvable {
+        largest_uf: f64,
+        ripple: f64,
+        valley: f64,
+    },
+    #[error(
+        "no capacitance from 1 uF to 1 F could be solved for this supply within the solver's \
+         budget; check the filter's values"
+    )]
+    Unsolvable,
+}
+
+/// Which capacitor `size` sizes for a filter of `kind`, in words (the others keep their stated
+/// values).
+pub fn sized_capacitor_words(kind: FilterKind) -> &'static str {
+    match kind {
+        FilterKind::None => "the capacitor to add across the rail",
+        FilterKind::Capacitor => "the filter capacitor (uf; a doubler's two each)",
+        FilterKind::Crc => {
+            "the first capacitor (uf), at the rectifier; the resistor and the second capacitor \
+             as stated"
+        }
+        FilterKind::Lc => "the capacitor after the choke (uf), the filter's only one",
+        FilterKind::Clc => {
+            "the first capacitor (uf), at the rectifier; the choke and the output capacitor \
+             (second_uf) as stated"
+        }
+    }
+}
+
+/// A choke input's smallest preferred choke: the critical inductance at the lightest load
+/// (henries, ohms) and the smallest value of `series` at or above it, henries.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct SizedChoke {
+    pub series: &'static str,
+    pub henries: f64,
+    pub critical_henries: f64,
+    /// The lightest load the choke must stay above critical for, with the bleeder, ohms.
+    pub lightest_ohms: f64,
+}
+
+/// Why no choke was sized.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum ChokeSizingError {
+    #[error("{0}")]
+    Circuit(#[from] CircuitError),
+    #[error(
+        "no choke is above the critical inductance of a rail that may draw nothing: state the \
+         lightest load (load.min_amps or load.max_ohms) or a bleeder (filter.bleeder_ohms)"
+    )]
+    NoLightestLoad,
+    #[error(
+        "the critical inductance at the lightest load is {henries:.3e} H, above the 1000 H the \
+         preferred values go to: a bleeder (filter.bleeder_ohms) lowers it"
+    )]
+    TooLarge { henries: f64 },
+}
+
+/// Preferred values of `series` from 1 mH to 1000 H, henries, ascending.
+pub fn preferred_henries(series: &[f64]) -> Vec<f64> {
+    // The capacitor's list is 1 .. 1e6 in units: a millihenry each.
+    preferred_uf(series)
+        .into_iter()
+        .map(|v| v / 1000.0)
+        .collect()
+}
+
+/// The smallest E12 and E6 chokes above the critical inductance of `supply`'s choke input at its
+/// lightest load (the textbook L_crit = R / (3 w) for full wave, pi R / (2 w) for half wave:
+/// `choke::critical_henries`), henries; None when the filter is not a choke input. The rail's
+/// voltage for a load stated in amps is the nominal solve's.
+pub fn size_choke(supply: &Supply) -> Option<Result<Vec<SizedChoke>, ChokeSizingError>> {
+    if !supply.filter.kind.is_choke_input() {
+        return None;
+    }
+    Some((|| {
+        let rail_v = circuit::solve(supply, &Conditions::default())?.figures.dc_v;
+        let ohms = choke::lightest_load_ohms(supply, rail_v);
+        if !ohms.is_finite() {
+            return Err(ChokeSizingError::NoLightestLoad);
+        }
+        let critical = choke::critical_henries(
+            ohms,
+            supply.mains.hz,
+            supply.rectifier.topology.pulses_per_cycle(),
+        );
+        let mut out = Vec::new();
+        for (name, series) in [("E12", &E12[..]), ("E6", &E6[..])] {
+            let henries = preferred_henries(series)
+                .into_iter()
+                .find(|&h| h >= critical)
+                .ok_or(ChokeSizingError::TooLarge { henries: critical })?;
+            out.push(SizedChoke {
+                series: name,
+                henries,
+                critical_henries: critical,
+                lightest_ohms: ohms,
+            });
+        }
+        Ok(out)
+    })())
 }
 
 /// Preferred values of `series` from 1 uF to 1 F, microfarads, ascending.
@@ -159,16 +269,39 @@ pub fn size(supply: &Supply, target: Target) -> Result<Vec<Sized>, SizingError> 
             },
         ))
     };
-    let mut out = Vec::new();
-    for (name, series) in [("E12", &E12[..]), ("E6", &E6[..])] {
-        let values = preferred_uf(series);
-        let (top_meets, top) = evaluate(*values.last().expect("values"))?;
-        if !top_meets {
-            return Err(SizingError::Unreachable {
+    // The largest capacitance the solver settles: 1 F, or the largest decade below it that
+    // solves (behind a choke a huge capacitor rings for seconds, beyond a solve's budget).
+    let mut largest = None;
+    for decade in (0..=6).rev() {
+        let uf = 10f64.powi(decade);
+        let (meets, sized) = evaluate(uf)?;
+        if sized.worst_ripple_pp_v.is_finite() {
+            largest = Some((uf, meets, sized));
+            break;
+        }
+    }
+    let Some((largest_uf, top_meets, top)) = largest else {
+        return Err(SizingError::Unsolvable);
+    };
+    if !top_meets {
+        return Err(if largest_uf >= 1e6 {
+            SizingError::Unreachable {
                 ripple: top.worst_ripple_pp_v,
                 valley: top.worst_valley_v,
-            });
-        }
+            }
+        } else {
+            SizingError::UnreachableSolvable {
+                largest_uf,
+                ripple: top.worst_ripple_pp_v,
+                valley: top.worst_valley_v,
+            }
+        });
+    }
+    let mut out = Vec::new();
+    for (name, series) in [("E12", &E12[..]), ("E6", &E6[..])] {
+        let mut values = preferred_uf(series);
+        values.retain(|&v| v <= largest_uf);
+        let top = top.clone();
         // More capacitance never raises the ripple nor lowers the valley: bisect the list.
         let (mut lo, mut hi) = (0usize, values.len() - 1);
         let mut best = top;
@@ -242,6 +375,44 @@ mod tests {
             size(&s, Target::MinValley(-1.0)),
             Err(SizingError::BadTarget(-1.0))
         );
+    }
+
+    /// The textbook critical inductance of a full-wave choke input, L_crit = R / (3 w) (derived
+    /// from the rectified sine's Fourier series; Millman and Halkias's chapter on filters, from
+    /// memory): 12 ohm at 50 Hz is 12 / (3 x 314.16) = 12.73 mH by hand, so the smallest E12
+    /// choke above it is 15 mH and the smallest E6 15 mH too; 47 ohm at 50 Hz is 49.87 mH:
+    /// E12 56 mH, E6 68 mH. A bleeder of 120 ohm across the 47 ohm makes 33.77 ohm, 35.83 mH:
+    /// E12 39 mH, E6 47 mH.
+    #[test]
+    fn a_choke_input_gets_the_smallest_preferred_choke_above_critical() {
+        let text = |ohms: f64, bleeder: &str| {
+            format!(
+                "format = 1\nname = \"choke\"\n[mains]\nvrms = 230.0\nhz = 50.0\n[transformer]\n\
+                 ratio = 7.667\nsecondary_ohms = 0.5\n[rectifier]\ntopology = \"bridge\"\n\
+                 [filter]\nkind = \"lc\"\nuf = 2200.0\nchoke_h = 0.2\nchoke_ohms = 2.0\n\
+                 {bleeder}[load]\nohms = {ohms:?}\n"
+            )
+        };
+        let sized = |t: String| {
+            size_choke(&Supply::from_toml_str(&t).unwrap())
+                .unwrap()
+                .unwrap()
+        };
+        let c = sized(text(12.0, ""));
+        assert!((c[0].critical_henries - 0.012_732).abs() < 1e-6, "{c:?}");
+        assert_eq!((c[0].series, c[0].henries), ("E12", 0.015));
+        assert_eq!((c[1].series, c[1].henries), ("E6", 0.015));
+        let c = sized(text(47.0, ""));
+        assert!((c[0].critical_henries - 0.049_868).abs() < 1e-6, "{c:?}");
+        assert!((c[0].henries - 0.056).abs() < 1e-12 && (c[1].henries - 0.068).abs() < 1e-12);
+        let c = sized(text(47.0, "bleeder_ohms = 120.0\n"));
+        assert!((c[0].lightest_ohms - 33.772).abs() < 1e-3, "{c:?}");
+        assert!((c[0].critical_henries - 0.035_833).abs() < 1e-6, "{c:?}");
+        assert!((c[0].henries - 0.039).abs() < 1e-12 && (c[1].henries - 0.047).abs() < 1e-12);
+        // A capacitor input has no choke to size.
+        let cap = text(47.0, "").replace("\"lc\"", "\"capacitor\"");
+        let cap = cap.replace("choke_h = 0.2\nchoke_ohms = 2.0\n", "");
+        assert!(size_choke(&Supply::from_toml_str(&cap).unwrap()).is_none());
     }
 
     #[test]

@@ -37,6 +37,10 @@ pub enum AxisKind {
     Winding,
     /// The mains crest factor itself (peak over RMS).
     Crest,
+    /// A factor on a choke's resistance (its copper warming).
+    ChokeOhms,
+    /// A factor on the transformer's stated leakage inductance.
+    Leakage,
 }
 
 /// Circuit evaluations a whole worst case may spend (every point of its box): about 0.7 s at
@@ -70,6 +74,8 @@ impl AxisKind {
             AxisKind::Ratio => "ratio_factor",
             AxisKind::Winding => "winding_factor",
             AxisKind::Crest => "crest",
+            AxisKind::ChokeOhms => "choke_ohms_factor",
+            AxisKind::Leakage => "leakage_factor",
         }
     }
 }
@@ -105,6 +111,13 @@ pub const CALIBRATED_CREST_SPREAD: f64 = 0.03;
 /// fault's beginning (an electrolytic's end of life is usually put at -20 %, practice).
 pub const CALIBRATED_CAP_LOW_PCT: f64 = 10.0;
 pub const CALIBRATED_CAP_HIGH_PCT: f64 = 5.0;
+
+/// A stated leakage inductance's spread assumed, percent either way. From memory, not looked
+/// up: a nameplate's impedance voltage is guaranteed to about +-10 % (power transformer
+/// standards give +-7.5 to +-10 %), and the leakage, the reactive part left after the copper
+/// is taken out, moves by more than the whole; a short-circuit test at a few percent of the
+/// rated voltage reads it no better. 20 % is a judgement, not a published figure.
+pub const ASSUMED_LEAKAGE_SPREAD_PCT: f64 = 20.0;
 
 /// The tolerances a worst case spans, exactly as the supply file states them.
 #[derive(Debug, Clone, PartialEq)]
@@ -212,6 +225,37 @@ impl ToleranceBox {
                 axes.push(winding_axis(&w));
             }
         }
+        // A choke's copper warms as a winding's does (copper +0.39 %/degC, up to 40 degC):
+        // upward only, the stated value being the cold one an ohmmeter reads.
+        if f.kind.has_choke()
+            && let Some(r) = f.choke_ohms.filter(|r| *r > 0.0)
+        {
+            axes.push(Axis {
+                kind: AxisKind::ChokeOhms,
+                low: 1.0,
+                high: WARM_WINDING_FACTOR,
+                nominal: 1.0,
+                assumed: Some(format!(
+                    "choke resistance {} ohm as measured cold: up to {:.0} % more assumed for a \
+                     warm choke (copper +0.39 %/degC, 40 degC)",
+                    format_number(round3(r)),
+                    (WARM_WINDING_FACTOR - 1.0) * 100.0
+                )),
+            });
+        }
+        if let Ok(w) = supply.winding()
+            && w.leakage_h > 0.0
+        {
+            let p = ASSUMED_LEAKAGE_SPREAD_PCT;
+            let mut a = Axis::percent(AxisKind::Leakage, p, p);
+            a.assumed = Some(format!(
+                "stated leakage inductance {} mH: +-{p:.0} % assumed (a nameplate impedance's \
+                 tolerance is about +-10 %, the leakage's share of it spreads further; from \
+                 memory)",
+                format_number(round3(w.leakage_h * 1e3))
+            ));
+            axes.push(a);
+        }
         if let (None, Some(c)) = (supply.mains.crest, cal.crest) {
             axes.push(Axis {
                 kind: AxisKind::Crest,
@@ -282,6 +326,8 @@ impl ToleranceBox {
                 ),
                 AxisKind::Winding => format!("winding resistance {}", pct_span(a)),
                 AxisKind::Crest => format!("mains crest {:.3} to {:.3}", a.low, a.high),
+                AxisKind::ChokeOhms => format!("choke resistance {}", pct_span(a)),
+                AxisKind::Leakage => format!("leakage inductance {}", pct_span(a)),
             })
             .collect()
     }
@@ -328,6 +374,8 @@ impl Corner {
                 AxisKind::Ratio => format!("turns ratio {pct:+.0} %"),
                 AxisKind::Winding => format!("winding {pct:+.0} %"),
                 AxisKind::Crest => format!("crest {v:.2}"),
+                AxisKind::ChokeOhms => format!("choke copper {pct:+.0} %"),
+                AxisKind::Leakage => format!("leakage {pct:+.0} %"),
                 AxisKind::LoadAmps => match s {
                     s if s >= 1.0 => "load heaviest".to_string(),
                     s if s <= 0.0 => "load lightest".to_string(),
@@ -361,6 +409,8 @@ impl Axis {
             AxisKind::Ratio => c.ratio_factor = v,
             AxisKind::Winding => c.winding_factor = v,
             AxisKind::Crest => c.crest = Some(v),
+            AxisKind::ChokeOhms => c.choke_factor = v,
+            AxisKind::Leakage => c.leakage_factor = v,
         }
     }
 
@@ -582,6 +632,9 @@ pub fn voltage_stress(supply: &Supply) -> Result<(Figures, bool), CircuitError> 
             // A cold winding and a full sine give the highest rail.
             AxisKind::Winding => cond.winding_factor = axis.low.min(1.0),
             AxisKind::Crest => cond.crest = Some(axis.high),
+            // A cold choke and the least leakage drop the least.
+            AxisKind::ChokeOhms => cond.choke_factor = axis.low,
+            AxisKind::Leakage => cond.leakage_factor = axis.low,
             AxisKind::Capacitance => {}
         }
     }

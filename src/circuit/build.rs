@@ -48,6 +48,10 @@ pub struct Conditions {
     /// The choke shorted (turns shorted together or bridged): its inductance gone, its
     /// resistance left.
     pub choke_shorted: bool,
+    /// The choke open (a broken winding or lead): nothing reaches the capacitor after it, so
+    /// the rail falls to zero and the rectifier idles, its winding reading its open-circuit
+    /// EMF. Only for a filter with a choke.
+    pub choke_open: bool,
 }
 
 impl Default for Conditions {
@@ -68,6 +72,7 @@ impl Default for Conditions {
             leakage_factor: 1.0,
             choke_factor: 1.0,
             choke_shorted: false,
+            choke_open: false,
         }
     }
 }
@@ -238,6 +243,27 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
             (reservoirs, stage)
         }
     };
+    // An open choke: the rectifier's side and the rail part. The rail's capacitor discharges
+    // into the load and stays at zero; the rectifier charges nothing (a CLC's first capacitor
+    // sits at the peak drawing no current, left out: it moves none of the readings), so one
+    // path stays, open at its end, for the winding's terminal voltage.
+    let (mut paths, reservoirs, second) = if cond.choke_open && f.kind.has_choke() {
+        for p in &mut paths {
+            p.choke = None;
+            p.series_ohms = f64::INFINITY;
+        }
+        (paths, Vec::new(), None)
+    } else {
+        (paths, reservoirs, second)
+    };
+    // A choke input whose capacitor is open is solved as an unfiltered rectifier (its choke
+    // in series with the load is not modelled: the path keeps the choke's resistance only);
+    // an unfiltered path carries no current state for an inductance.
+    if reservoirs.is_empty() {
+        for p in &mut paths {
+            p.choke = None;
+        }
+    }
     let filtered = !reservoirs.is_empty();
     let farads = reservoirs.first().map_or(0.0, |r| r.farads);
     let load = load_law(supply, cond);

@@ -116,7 +116,12 @@ impl Figures {
     }
 }
 
-pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figures {
+pub(super) fn figures(
+    supply: &Supply,
+    net: &Network,
+    s: &SteadyState,
+    cond: &super::Conditions,
+) -> Figures {
     let mean = |i: Integral| i.mean(s);
     let dc = mean(Integral::Rail);
     // The ripple was integrated about the rail at the period's start.
@@ -127,13 +132,13 @@ pub(super) fn figures(supply: &Supply, net: &Network, s: &SteadyState) -> Figure
     let topology = supply.rectifier.topology;
     let halves = topology.has_half_windings();
     let winding_rms = mean(Integral::WindingSquare).max(0.0).sqrt();
-    // The choke's resistance, where there is a choke (a shorted one still carries the
-    // current through its copper).
+    // The choke's resistance as solved (warmed by the conditions' factor), where there is a
+    // choke (a shorted one still carries the current through its copper).
     let choke = supply
         .filter
         .kind
         .has_choke()
-        .then(|| supply.filter.choke_ohms.unwrap_or(0.0));
+        .then(|| supply.filter.choke_ohms.unwrap_or(0.0) * cond.choke_factor);
     // Volt-amperes as the transformer's rating counts them: its RMS EMF times RMS current,
     // each half of a center-tapped winding counted.
     let winding_va = if halves {
@@ -204,6 +209,10 @@ fn inrush(net: &Network) -> Option<f64> {
     let esr = net.reservoirs.first().map_or(0.0, |r| r.esr_ohms);
     let ohms = p.ohms + p.series_ohms + esr;
     let peak = p.emf_share * net.emf_rms_v * net.wave.crest();
+    if !ohms.is_finite() {
+        // A path open at its end (an open choke): nothing flows at switch-on either.
+        return Some(0.0);
+    }
     if net.reservoirs.is_empty() {
         // No capacitor: the first pulse is an ordinary one.
         let load_ohms = match net.load {

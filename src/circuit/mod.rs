@@ -79,7 +79,7 @@ pub fn solve(supply: &Supply, cond: &Conditions) -> Result<Operating, CircuitErr
         }
         Err(e) => return Err(e.into()),
     };
-    let figures = figures(supply, &net, &steady);
+    let figures = figures(supply, &net, &steady, cond);
     let waveform = Waveform {
         t_ms: steady.t_s.iter().map(|t| t * 1e3).collect(),
         v_out: steady.probes.iter().map(|p| p.v_out).collect(),

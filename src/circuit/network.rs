@@ -57,7 +57,8 @@ pub struct Path {
     /// A choke-input filter's choke, between the diodes and the reservoir.
     pub choke: Option<Inductance>,
     /// Resistance between the diodes and the reservoir, ohms: a choke's, or a CRC's resistor
-    /// when its first capacitor is open (outside the winding, so not in its drop).
+    /// when its first capacitor is open (outside the winding, so not in its drop). Infinite
+    /// for a path open at its end (a choke open): nothing flows.
     pub series_ohms: f64,
 }
 
@@ -303,8 +304,8 @@ impl Network {
     fn unfiltered(&self, e: f64) -> Probe {
         let p = &self.paths[0];
         let s = self.path_source(p, e);
-        let ohms = p.ohms;
-        let (i, v_out) = if s <= 0.0 {
+        let ohms = p.ohms + p.series_ohms;
+        let (i, v_out) = if s <= 0.0 || p.series_ohms.is_infinite() {
             (0.0, 0.0)
         } else {
             match self.load {
@@ -333,14 +334,15 @@ impl Network {
             e,
             &Flow {
                 path_i: [i, 0.0],
-                drops: [ohms * i, 0.0],
+                drops: [p.ohms * i, 0.0],
                 cathode: v_out,
                 v_out,
                 v_cap: v_out,
                 i_cap: 0.0,
                 i_load: i,
                 v_source: s,
-                i_choke: 0.0,
+                // A choke input's choke carries the path's current (an open one nothing).
+                i_choke: i,
                 i_out_cap: 0.0,
             },
         )
@@ -523,12 +525,12 @@ impl Network {
                 ..Probe::default()
             };
         }
-        let i_choke = if self.paths[0].choke.is_some() {
-            path_i[0] + path_i[1]
-        } else if self.second.is_some_and(|s| s.choke.is_some()) {
+        // The current where the choke sits, its inductance there or shorted out (its copper
+        // still carries the current); the figures show it only for a filter with a choke.
+        let i_choke = if self.second.is_some() {
             nodes.i_out
         } else {
-            0.0
+            path_i[0] + path_i[1]
         };
         let i_cap = charge[0] - nodes.i_out;
         let i_out_cap = if self.second.is_some() {

@@ -32,6 +32,8 @@ pub fn fault_words(fault: Fault) -> &'static str {
         Fault::LoadLight => "load lighter than the file states",
         Fault::RegulatorDropout => "regulator out of regulation (valley under its dropout)",
         Fault::NoOutput => "no output",
+        Fault::ChokeShorted => "choke shorted (its inductance gone)",
+        Fault::ChokeOpen => "choke open",
     }
 }
 
@@ -86,6 +88,8 @@ pub fn estimate_words(h: &Hypothesis, supply: &Supply) -> Option<String> {
             "ripple at the line frequency: half the charging pulses missing".into()
         }
         (Fault::NoOutput, _) => "the rail is dead".into(),
+        (Fault::ChokeShorted, _) => crate::diagnose::choke_shorted_words(supply).into(),
+        (Fault::ChokeOpen, _) => crate::diagnose::CHOKE_OPEN_WORDS.into(),
         (_, Some((key, v))) if !key.is_empty() => format!("{key} about {}", format_number(v)),
         _ => return None,
     };

@@ -1,11 +1,12 @@
 //! `railcheck size`: the smallest E12 and E6 filter capacitor for a target, in microfarads with
-//! the voltage rating it needs.
+//! the voltage rating it needs; for a choke input, the smallest E12 and E6 choke above its
+//! critical inductance.
 
 use super::written;
-use crate::analysis::sizing::{self, Sized, Target};
+use crate::analysis::sizing::{self, Sized, SizedChoke, Target};
 use crate::escape::printable;
 use crate::supply::{FilterKind, Supply};
-use crate::units::{format_si, format_uf};
+use crate::units::{format_number, format_si, format_uf};
 use anyhow::{Result, bail};
 use std::io::Write;
 use std::process::ExitCode;
@@ -33,18 +34,25 @@ pub fn target(
 }
 
 /// The sizing as text: the target in words, then each series' capacitor in microfarads with
-/// the voltage rating and ripple current it needs.
+/// the voltage rating and ripple current it needs; then a choke input's choke.
 pub fn render_text(
     out: &mut impl Write,
     supply: &Supply,
     target: Target,
     sized: &[Sized],
+    chokes: &[SizedChoke],
 ) -> std::io::Result<()> {
     writeln!(out, "{}", printable(&supply.name))?;
     if supply.filter.kind == FilterKind::None {
         writeln!(
             out,
             "  no filter capacitor now: sizing the capacitor to add across the rail"
+        )?;
+    } else {
+        writeln!(
+            out,
+            "  sizing {}",
+            sizing::sized_capacitor_words(supply.filter.kind)
         )?;
     }
     match (target, &supply.regulator) {
@@ -97,7 +105,25 @@ pub fn render_text(
         out,
         "  voltage rating keeps the worst peak within {:.0} % of it (usual derating)",
         sizing::DERATING * 100.0
-    )
+    )?;
+    if let Some(c) = chokes.first() {
+        writeln!(
+            out,
+            "  choke input: critical inductance {} at the lightest load, {} ohm with any \
+             bleeder (R / 3w full wave, pi R / 2w half wave); the smallest choke above it:",
+            format_si(c.critical_henries, "H"),
+            format_number(c.lightest_ohms)
+        )?;
+    }
+    for c in chokes {
+        writeln!(
+            out,
+            "  {:<4} {} (its inductance at the lightest load's current)",
+            c.series,
+            format_si(c.henries, "H")
+        )?;
+    }
+    Ok(())
 }
 
 /// The sizing as one JSON line (keys unchanged: name, file, target, derating, capacitors).
@@ -107,6 +133,7 @@ pub fn render_json(
     file: &str,
     target: Target,
     sized: &[Sized],
+    chokes: &[SizedChoke],
 ) -> std::io::Result<()> {
     writeln!(
         out,
@@ -117,6 +144,7 @@ pub fn render_json(
             "target": target,
             "derating": sizing::DERATING,
             "capacitors": sized,
+            "chokes": chokes,
         })
     )
 }
@@ -130,10 +158,14 @@ pub fn run(
     json: bool,
 ) -> Result<ExitCode> {
     let sized = sizing::size(supply, target).map_err(|e| anyhow::anyhow!("{file}: {e}"))?;
+    let chokes = sizing::size_choke(supply)
+        .transpose()
+        .map_err(|e| anyhow::anyhow!("{file}: {e}"))?
+        .unwrap_or_default();
     written(if json {
-        render_json(out, supply, file, target, &sized)
+        render_json(out, supply, file, target, &sized, &chokes)
     } else {
-        render_text(out, supply, target, &sized)
+        render_text(out, supply, target, &sized, &chokes)
     })?;
     Ok(ExitCode::SUCCESS)
 }
@@ -175,12 +207,41 @@ mod tests {
             &s,
             Target::RipplePp(1.0),
             &[sized(3900.0, Some(50.0)), sized(4.7, None)],
+            &[],
         )
         .unwrap();
         let text = String::from_utf8(out).unwrap();
         assert!(text.contains("3900 uF 50 V"), "{text}");
         assert!(text.contains("4.7 uF, above 450 V"), "{text}");
         assert!(!text.contains("mF"), "{text}");
+    }
+
+    #[test]
+    fn a_choke_input_says_which_capacitor_and_gives_its_choke() {
+        let s = Supply::from_toml_str(
+            "format = 1\nname = \"choke\"\n[mains]\nvrms = 230.0\nhz = 50.0\n[transformer]\n\
+             ratio = 7.667\nsecondary_ohms = 0.5\n[rectifier]\ntopology = \"bridge\"\n\
+             [filter]\nkind = \"lc\"\nuf = 2200.0\nchoke_h = 0.2\nchoke_ohms = 2.0\n\
+             [load]\nohms = 47.0\n",
+        )
+        .unwrap();
+        let chokes = sizing::size_choke(&s).unwrap().unwrap();
+        let mut out = Vec::new();
+        render_text(
+            &mut out,
+            &s,
+            Target::RipplePp(0.1),
+            &[sized(6800.0, Some(63.0))],
+            &chokes,
+        )
+        .unwrap();
+        let text = String::from_utf8(out).unwrap();
+        assert!(text.contains("the capacitor after the choke"), "{text}");
+        assert!(text.contains("critical inductance 49.9 mH"), "{text}");
+        assert!(
+            text.contains("E12  56.0 mH") && text.contains("E6   68.0 mH"),
+            "{text}"
+        );
     }
 
     #[test]
@@ -209,6 +270,7 @@ mod tests {
             &supply(true),
             Target::Headroom(2.0),
             &[sized(2200.0, Some(50.0))],
+            &[],
         )
         .unwrap();
         let text = String::from_utf8(out).unwrap();

@@ -140,7 +140,9 @@ pub fn calibrate(
             | AxisKind::LoadAmps
             | AxisKind::LoadOhms
             | AxisKind::DiodeDrop
-            | AxisKind::Ratio => false,
+            | AxisKind::Ratio
+            | AxisKind::ChokeOhms
+            | AxisKind::Leakage => false,
         })
         .map(|a| Free {
             kind: a.kind,
@@ -172,7 +174,9 @@ pub fn calibrate(
                 | AxisKind::LoadAmps
                 | AxisKind::LoadOhms
                 | AxisKind::DiodeDrop
-                | AxisKind::Ratio => {}
+                | AxisKind::Ratio
+                | AxisKind::ChokeOhms
+                | AxisKind::Leakage => {}
             }
         }
         c
@@ -279,7 +283,9 @@ pub fn calibrate(
                 | AxisKind::LoadAmps
                 | AxisKind::LoadOhms
                 | AxisKind::DiodeDrop
-                | AxisKind::Ratio => "the capacitance",
+                | AxisKind::Ratio
+                | AxisKind::ChokeOhms
+                | AxisKind::Leakage => "the capacitance",
             };
             let end = if v > f.nominal { "top" } else { "bottom" };
             format!(

@@ -144,10 +144,12 @@ pub enum Fault {
     LoadLight,
     RegulatorDropout,
     NoOutput,
+    ChokeShorted,
+    ChokeOpen,
 }
 
 impl Fault {
-    pub const ALL: [Fault; 12] = [
+    pub const ALL: [Fault; 14] = [
         Fault::Healthy,
         Fault::CapacitanceLow,
         Fault::EsrHigh,
@@ -160,6 +162,8 @@ impl Fault {
         Fault::LoadLight,
         Fault::RegulatorDropout,
         Fault::NoOutput,
+        Fault::ChokeShorted,
+        Fault::ChokeOpen,
     ];
 
     /// The name used in JSON and on screen.
@@ -177,6 +181,8 @@ impl Fault {
             Fault::LoadLight => "load-light",
             Fault::RegulatorDropout => "regulator-dropout",
             Fault::NoOutput => "no-output",
+            Fault::ChokeShorted => "choke-shorted",
+            Fault::ChokeOpen => "choke-open",
         }
     }
 
@@ -192,7 +198,9 @@ impl Fault {
             | Fault::EsrHigh
             | Fault::RectifierLegOpen
             | Fault::RegulatorDropout
-            | Fault::NoOutput => &[],
+            | Fault::NoOutput
+            | Fault::ChokeShorted
+            | Fault::ChokeOpen => &[],
         }
     }
 
@@ -223,6 +231,15 @@ impl Fault {
                 "scope the regulator's input: its valley against output plus dropout"
             }
             Fault::NoOutput => "check the fuse, then the diodes and capacitor for a short",
+            Fault::ChokeShorted => {
+                "power off and discharge; measure the choke's inductance out of circuit (an LCR \
+                 meter reads a swinging choke at its light-load value) and look for a bridge \
+                 across its terminals"
+            }
+            Fault::ChokeOpen => {
+                "power off and discharge; measure the choke's resistance (an open reads no \
+                 continuity) and its leads and joints"
+            }
         }
     }
 }
@@ -337,6 +354,8 @@ fn conditions(fault: Fault, x: f64, base: &Conditions, supply: &Supply) -> Condi
                 },
             )
         }
+        Fault::ChokeShorted => c.choke_shorted = true,
+        Fault::ChokeOpen => c.choke_open = true,
         Fault::Healthy | Fault::RegulatorDropout | Fault::NoOutput => {}
     }
     c
@@ -373,7 +392,9 @@ fn search_range(fault: Fault, supply: &Supply, mains_known: bool) -> Option<(f64
         | Fault::CapacitorOpen
         | Fault::RectifierLegOpen
         | Fault::RegulatorDropout
-        | Fault::NoOutput => None,
+        | Fault::NoOutput
+        | Fault::ChokeShorted
+        | Fault::ChokeOpen => None,
     }
 }
 
@@ -532,6 +553,7 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
     let mains_known = readings.mains_vrms.is_some();
     let full_wave = supply.rectifier.topology.is_full_wave();
     let filtered = supply.filter.kind != FilterKind::None;
+    let choke = supply.filter.kind.has_choke();
     let mut hyps: Vec<Hypothesis> = Vec::new();
     for fault in Fault::ALL {
         let applicable = match fault {
@@ -539,6 +561,7 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             Fault::RectifierLegOpen => full_wave,
             Fault::MainsLow | Fault::MainsHigh => true,
             Fault::RegulatorDropout => supply.regulator.is_some(),
+            Fault::ChokeShorted | Fault::ChokeOpen => choke,
             Fault::Healthy
             | Fault::SecondaryLow
             | Fault::LoadHeavy
@@ -558,6 +581,15 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
                     }
                     if k == "ripple_hz" {
                         chi2 += 50.0;
+                    }
+                    // A blown fuse leaves the winding dead, and a shorted rail blows it or
+                    // drags the winding far down: a secondary reading near its working value
+                    // argues against both (an open between the rectifier and the rail, a
+                    // choke open, leaves it up).
+                    if k == "secondary_vac" {
+                        let healthy = nominal.secondary_rms_v;
+                        let down = (v - 0.5 * healthy).max(0.0);
+                        chi2 += (down / sigma(k, v, healthy, false)).powi(2);
                     }
                 }
                 (None, chi2)
@@ -593,7 +625,9 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             | Fault::MainsHigh
             | Fault::SecondaryLow
             | Fault::LoadHeavy
-            | Fault::LoadLight => match search_range(fault, supply, mains_known) {
+            | Fault::LoadLight
+            | Fault::ChokeShorted
+            | Fault::ChokeOpen => match search_range(fault, supply, mains_known) {
                 Some((lo, hi)) if lo < hi => {
                     let (x, chi2) = fit(lo, hi, |x| {
                         judged(fault, conditions(fault, x, &base, supply))
@@ -642,7 +676,9 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
                             | Fault::LoadHeavy
                             | Fault::LoadLight
                             | Fault::RegulatorDropout
-                            | Fault::NoOutput => false,
+                            | Fault::NoOutput
+                            | Fault::ChokeShorted
+                            | Fault::ChokeOpen => false,
                         };
                         if !outside {
                             continue;
@@ -672,7 +708,9 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             | Fault::LoadHeavy
             | Fault::LoadLight
             | Fault::RegulatorDropout
-            | Fault::NoOutput => FAULT_PRIOR,
+            | Fault::NoOutput
+            | Fault::ChokeShorted
+            | Fault::ChokeOpen => FAULT_PRIOR,
         };
         let penalty = implausibility(fault, estimate, supply);
         hyps.push(Hypothesis {
@@ -761,7 +799,9 @@ fn estimate_of(fault: Fault, x: f64, supply: &Supply, base: &Conditions) -> (&'s
         | Fault::CapacitorOpen
         | Fault::RectifierLegOpen
         | Fault::RegulatorDropout
-        | Fault::NoOutput => ("", x),
+        | Fault::NoOutput
+        | Fault::ChokeShorted
+        | Fault::ChokeOpen => ("", x),
     }
 }
 
@@ -785,9 +825,30 @@ fn implausibility(fault: Fault, estimate: Option<(&'static str, f64)>, supply: &
         | Fault::LoadHeavy
         | Fault::LoadLight
         | Fault::RegulatorDropout
-        | Fault::NoOutput => 0.0,
+        | Fault::NoOutput
+        | Fault::ChokeShorted
+        | Fault::ChokeOpen => 0.0,
     }
 }
+
+/// What a shorted choke does to the rail, for the filter it sits in.
+pub fn choke_shorted_words(supply: &Supply) -> &'static str {
+    match supply.filter.kind {
+        FilterKind::Lc => {
+            "the choke's inductance gone (turns shorted or bridged): the rail rises towards the \
+             peak with a capacitor input's ripple"
+        }
+        FilterKind::Clc => {
+            "the choke's inductance gone (turns shorted or bridged): the pi filter works as a \
+             CRC with the choke's resistance, the output's ripple much larger"
+        }
+        FilterKind::None | FilterKind::Capacitor | FilterKind::Crc => "this supply has no choke",
+    }
+}
+
+/// What an open choke does to the rail.
+pub const CHOKE_OPEN_WORDS: &str = "the choke open: nothing reaches the output capacitor, the rail is dead while the mains and \
+     the secondary read normal";
 
 fn reason(h: &Hypothesis, supply: &Supply, ex: &[Expectation]) -> String {
     let off: Vec<String> = ex
@@ -853,6 +914,8 @@ fn reason(h: &Hypothesis, supply: &Supply, ex: &[Expectation]) -> String {
             format!("the rail's valley {v:.2} V is under the {need:.2} V the regulator needs")
         }
         (Fault::NoOutput, _) => format!("the rail is dead ({off})"),
+        (Fault::ChokeShorted, _) => format!("{} ({off})", choke_shorted_words(supply)),
+        (Fault::ChokeOpen, _) => format!("{} ({off})", CHOKE_OPEN_WORDS),
         _ => off,
     }
 }

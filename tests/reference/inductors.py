@@ -85,6 +85,17 @@ of the full-wave rectified sine so it can be checked without the book):
 For each LC case above critical the script prints (stderr) the textbook DC and ripple RMS beside
 ngspice's; for each CLC case, the pi relation's ripple beside ngspice's.
 
+Choke faults (--faults). `python3 tests/reference/inductors.py --faults` simulates five of the
+cases above (three LC, two CLC, all with resistive loads: a current source would drag an
+isolated rail below zero, which no real load does) healthy, with the choke shorted and with it
+open, into tests/reference/ngspice_choke_faults.csv (the ngspice version in its first line),
+leaving the other CSV alone. Shorted: the inductor replaced by a 0 V source, its series
+resistor (the choke's copper) kept. Open: the inductor removed, so nothing reaches the output
+capacitor; the rectifier's output node gets 1 Gohm to ground (tens of nanoamps) so that
+ngspice has a DC path there with every diode off. The rows carry the figures above plus
+secondary_vac, the RMS of the whole secondary's terminal voltage (v(a) - v(b), as an AC meter
+across the winding reads it), for the diagnosis test.
+
 Run from the repository root:  python3 tests/reference/inductors.py
 Needs: ngspice (Debian package `ngspice`; ngspice-39 made the stored data) and python3.
 `cargo test` reads only the CSV and the TOML files, never ngspice.
@@ -226,7 +237,9 @@ def start_voltage(c):
     """A guess at the output, for the transient's initial conditions (the settling check, not
     the guess, decides the stored figures)."""
     vm = winding_peak(c)
-    if c["kind"] == "lc":
+    if c.get("fault") == "choke-open":
+        return 0.0
+    if c["kind"] == "lc" and c.get("fault") != "choke-shorted":
         lc = critical_h(c)
         frac = 0.9 * 2 / math.pi if lc and c["choke_h"] >= lc else 0.8
         return frac * vm
@@ -295,8 +308,7 @@ def netlist(c, tstop, tstart, tmax, out_file, options):
         # The rectifier feeds the choke (with its resistance), the choke the capacitor; the
         # choke starts carrying the load's current.
         out = "out"
-        lines += ["VL rect l1 0", f"RCH l1 l2 {c['choke_ohms']}",
-                  f"LCH l2 out {c['choke_h']} IC={load_a}",
+        lines += ["VL rect l1 0", f"RCH l1 l2 {c['choke_ohms']}", inductor(c, load_a),
                   "VCS out cs 0", f"R1 cs cs_c {max(c['esr'], 1e-6)}", f"C1 cs_c 0 {c['uf']}u"]
         ic = [f"v(out)={v0}", f"v(cs)={v0}", f"v(cs_c)={v0}"]
         choke = True
@@ -304,12 +316,17 @@ def netlist(c, tstop, tstart, tmax, out_file, options):
         # First capacitor (with the file's ESR) at the rectifier, the choke, the output one.
         out = "out"
         v1 = v0 + load_a * c["choke_ohms"]
+        if c.get("fault") == "choke-open":
+            # Nothing draws on the first capacitor: it sits near the peak.
+            v1 = winding_peak(c) - (2 if top == "bridge" else 1) * 0.7
         lines += [f"R1 rect c1 {max(c['esr'], 1e-6)}", f"C1 c1 0 {c['uf']}u",
-                  "VL rect l1 0", f"RCH l1 l2 {c['choke_ohms']}",
-                  f"LCH l2 out {c['choke_h']} IC={load_a}",
+                  "VL rect l1 0", f"RCH l1 l2 {c['choke_ohms']}", inductor(c, load_a),
                   "VCS out cs 0", f"C2 cs 0 {c['second_uf']}u"]
         ic = [f"v(rect)={v1}", f"v(c1)={v1}", f"v(out)={v0}", f"v(cs)={v0}"]
         choke = True
+    if c.get("fault") == "choke-open":
+        # With the choke open every diode may be off: a DC path for the rectifier's node.
+        lines.append("RLEAK rect 0 1e9")
     if c["amps"] is not None:
         lines.append(f"ILOAD {out} 0 DC {c['amps']}")
     else:
@@ -320,9 +337,23 @@ def netlist(c, tstop, tstart, tmax, out_file, options):
     vectors = f"v({out}) i(VD1) i(VSA) v(rect)-v(a) i(VCS)"
     if choke:
         vectors += " i(VL) v(rect)-v(out)"
+    if c.get("fault"):
+        # The whole secondary's terminal voltage, for the diagnosis's secondary reading.
+        vectors += " v(a)-v(b)"
     lines += [options, f".tran {tmax} {tstop} {tstart} {tmax} uic",
               ".control", "run", f"wrdata {out_file} {vectors}", "quit", ".endc", ".end"]
     return "\n".join(lines) + "\n"
+
+
+def inductor(c, load_a):
+    """The choke's inductor line: as drawn, shorted (a 0 V source: the inductance gone, the
+    copper kept in RCH before it) or open (a comment: nothing after RCH)."""
+    fault = c.get("fault")
+    if fault == "choke-shorted":
+        return "VLSHORT l2 out 0"
+    if fault == "choke-open":
+        return "* LCH open"
+    return f"LCH l2 out {c['choke_h']} IC={load_a}"
 
 
 def conduction_deg(seg, T):
@@ -386,6 +417,8 @@ def figures(rows, t0, t1, c):
         ripple_hz=c["hz"] * (1 if dominant_ripple(seg, 1.0 / T) < 1.5 / T else 2),
         load_a=c["amps"] if c["amps"] is not None else dc / c["ohms"],
     )
+    if len(seg[0]) > 8:
+        fig["secondary_vac"] = math.sqrt(integ(lambda r: r[8] ** 2))
     if len(seg[0]) > 6:
         fig.update(choke_rms_a=math.sqrt(integ(lambda r: r[6] ** 2)),
                    choke_peak_a=max(r[6] for r in seg),
@@ -508,11 +541,51 @@ COLUMNS = ["dc_v", "max_v", "min_v", "ripple_pp_v", "ripple_rms_v", "diode_peak_
            "load_a"]
 
 
+# Choke faults (--faults): (case, fault); "healthy" is the case as drawn, for the same readings.
+FAULT_CASES = ["lc_br_50_above", "lc_ct_50_above", "lc_br_60_below", "clc_ct_valve_60_r",
+               "clc_br_lv_50"]
+CHOKE_FAULTS = ["healthy", "choke-shorted", "choke-open"]
+FAULT_CSV = os.path.join(HERE, "ngspice_choke_faults.csv")
+FAULT_COLUMNS = ["secondary_vac"] + COLUMNS
+
+
+def fault_main(version, started):
+    by_name = {c["name"]: c for c in CASES}
+    rows = []
+    with tempfile.TemporaryDirectory() as work:
+        for name in FAULT_CASES:
+            for fault in CHOKE_FAULTS:
+                c = dict(by_name[name])
+                c["fault"] = fault
+                c["name"] = f"{name}_{fault}"
+                t = time.monotonic()
+                fig, drift, periods, options = run_case(c, work)
+                print(f"{c['name']}: dc {fig['dc_v']:.5g} V, pp {fig['ripple_pp_v']:.4g} V, "
+                      f"{fig['ripple_hz']} Hz, secondary {fig['secondary_vac']:.4f} V; drift "
+                      f"{drift:.1e}/period after {periods} periods ({options}), "
+                      f"{time.monotonic() - t:.0f} s", file=sys.stderr)
+                rows.append((name, fault, fig))
+    fmt = lambda v: "" if v is None else f"{v:.6g}"
+    with open(FAULT_CSV, "w") as fh:
+        fh.write(f"# {version}; written by tests/reference/inductors.py --faults; choke supplies "
+                 "(files under tests/reference/inductors/) healthy, with the choke shorted (a 0 V "
+                 "source for the inductor, its resistance kept) and open (the inductor removed); "
+                 "figures over the last mains period, secondary_vac the whole winding's terminal "
+                 "RMS\n")
+        fh.write("case,fault," + ",".join(FAULT_COLUMNS) + "\n")
+        for name, fault, fig in rows:
+            fh.write(f"{name},{fault}," + ",".join(fmt(fig[k]) for k in FAULT_COLUMNS) + "\n")
+    print(f"{len(rows)} faulted runs in {time.monotonic() - started:.0f} s", file=sys.stderr)
+
+
 def main():
     started = time.monotonic()
     version = subprocess.run(["ngspice", "-v"], capture_output=True, text=True).stdout
     version = next((l.strip("* ").strip() for l in version.splitlines() if "ngspice-" in l),
                    "ngspice (unknown version)")
+    if "--faults" in sys.argv[1:]:
+        fault_main(version, started)
+        return
     only = [a for a in sys.argv[1:] if not a.startswith("-")]
     os.makedirs(OUT_DIR, exist_ok=True)
     rows = []
