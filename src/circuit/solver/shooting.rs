@@ -234,7 +234,9 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
             // Where no diode conducts the map is flat and Newton overshoots: halve the step
             // until the mismatch shrinks, and fall back on one plain period (x -> Phi(x)),
             // which a capacitor that only discharges between pulses always gets closer by.
-            let norm = |v: &[f64]| v.iter().fold(0.0f64, |m, a| m.max(a.abs()));
+            // Measured on the states' scales, as the steps are: an inductor current in amps
+            // would otherwise count for nothing beside a capacitor voltage.
+            let norm = |v: &[f64]| scaled_norm(v, &scales);
             let mut halvings = 0;
             while fresh && norm(&g_new) > norm(&g) && halvings < 8 {
                 halvings += 1;
