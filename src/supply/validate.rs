@@ -96,6 +96,18 @@ impl Supply {
                 "capacitor, crc or clc for a doubler (its capacitors are part of it)",
             ));
         }
+        // A half-wave rectifier into a choke keeps its diode on through the negative half
+        // cycle while the choke drives its current on, so the rail collapses towards zero
+        // (such supplies add a freewheeling diode, which railcheck does not model).
+        if f.kind.is_choke_input() && !r.topology.is_full_wave() {
+            return Err(SupplyError::out_of_range(
+                "filter.kind",
+                f.kind.key(),
+                "capacitor, crc or clc for a half-wave rectifier (a choke input needs a \
+                 full-wave rectifier: on half wave the choke holds the diode on through the \
+                 negative half cycle and the rail collapses)",
+            ));
+        }
         if f.kind.has_choke() {
             let h = f.choke_h.ok_or(SupplyError::Missing {
                 key: "filter.choke_h",
