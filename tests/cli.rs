@@ -743,16 +743,7 @@ fn the_report_names_values_not_yet_confirmed() {
 #[test]
 fn the_examples_report_what_their_comments_say() {
     let mut checked = 0;
-    // With the choke input waiting for its diagnosis (examples/waiting/README.md): its report
-    // answers.
-    let waiting = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/waiting");
-    let mut files = examples();
-    files.extend(
-        std::fs::read_dir(waiting)
-            .unwrap()
-            .map(|e| e.unwrap().path())
-            .filter(|p| p.extension().is_some_and(|e| e == "toml")),
-    );
+    let files = examples();
     for file in files {
         let text = std::fs::read_to_string(&file).unwrap();
         let Some(at) = text.find("`railcheck report` gives DC ") else {

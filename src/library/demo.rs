@@ -58,6 +58,14 @@ pub fn supplies() -> Vec<(&'static str, String)> {
             ),
         ),
         (
+            "intake-weir-sluice-solenoid-rail",
+            format!(
+                "{}{}",
+                include_str!("../../examples/sluice-solenoid-rail.toml"),
+                SLUICE_VISITS
+            ),
+        ),
+        (
             "pump-house-3-backwash-actuator-rail",
             include_str!("../../examples/backwash-actuator-rail.toml").to_string(),
         ),
@@ -178,6 +186,27 @@ ripple_hz = 100.0
 notes = "Hum in the hall speakers at the winter concert (demo)."
 "#;
 
+// Invented readings: a healthy choke input; the slow gate was its solenoid, not the rail.
+const SLUICE_VISITS: &str = r#"
+[[visit]]
+date = 2024-04-15
+technician = "J. Brandt"
+mains_vrms = 231.0
+dc_v = 25.0
+ripple_rms_v = 0.047
+load_a = 1.55
+notes = "Commissioning check after the gate refit (demo)."
+
+[[visit]]
+date = 2026-02-09
+technician = "J. Brandt"
+mains_vrms = 219.0
+dc_v = 23.7
+ripple_rms_v = 0.045
+load_a = 1.49
+notes = "Gate 3 slow to pull at low line; its solenoid's plunger was sticking (demo)."
+"#;
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -199,15 +228,15 @@ mod tests {
             .filter(|(_, t)| Supply::from_toml_str(t).unwrap().visits.len() >= 2)
             .count();
         assert!(with_history >= 4);
-        // Issue 12's keys are in the demo: a pi filter and a transformer's leakage given by
-        // its label or a short-circuit test. (The choke-input example,
-        // examples/waiting/sluice-solenoid-rail.toml, waits outside it: the diagnosis of a choke
-        // input's readings panics, and the capacitance trend's tables miss on it.)
+        // Issue 12's keys are in the demo: a choke input, a pi filter and a transformer's
+        // leakage given by its label or a short-circuit test.
         let parsed: Vec<Supply> = all
             .iter()
             .map(|(_, t)| Supply::from_toml_str(t).unwrap())
             .collect();
+        assert!(parsed.iter().any(|s| s.filter.kind == FilterKind::Lc));
         assert!(parsed.iter().any(|s| s.filter.kind == FilterKind::Clc));
+        assert!(parsed.iter().any(|s| s.filter.choke_light_h.is_some()));
         assert!(parsed.iter().any(|s| s.transformer.impedance_pct.is_some()));
         assert!(parsed.iter().any(|s| s.transformer.short_test.is_some()));
     }
