@@ -8,9 +8,9 @@
 //! (a) The engine's faulted solve against ngspice's, with tests/inductors.rs's tolerances: DC,
 //! min and max within 0.5 %, ripple within 2 %, the choke's RMS current within 2 % and its DC
 //! drop within 0.5 %; an open choke's rail within a microvolt of zero. The secondary's RMS at
-//! its terminals is held to 3 % (the engine reads a center tap's whole winding with both
-//! halves' drops, ngspice's v(a) - v(b) has the conducting half's only: 2.2 % apart on the
-//! valve-era CLC); it is printed.
+//! its terminals within 1 % (a center tap's whole winding drops the conducting half's own
+//! resistance and the primary's reflected share, as ngspice's v(a) - v(b): 0.55 % at most,
+//! where counting both halves' drops had read 2.2 % low).
 //! (b) `diagnose` given the readings a technician would take of each (mains, secondary AC, DC,
 //! ripple peak to peak, and the ripple's frequency where a scope shows any ripple), each to
 //! three digits as a meter shows it: the fault ranked first, the healthy unit called healthy.
@@ -159,7 +159,7 @@ fn faulted_chokes_match_ngspice() {
         if err > e.0 {
             *e = (err, format!("{case} {fault}"));
         }
-        if err > 0.03 {
+        if err > 0.01 {
             failures.push(format!(
                 "{case} {fault} secondary: engine {g:.4}, ngspice {w:.4}"
             ));

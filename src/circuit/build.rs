@@ -105,16 +105,19 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         ..winding
     };
     let cap_factor = cond.cap_factor * cal.cap_factor;
-    let whole = winding.secondary_ohms + winding.primary_ohms / (ratio * ratio);
+    // Each path's resistance and the reflected primary's part of it (ohms).
+    let reflected = winding.primary_ohms / (ratio * ratio);
+    let whole = (winding.secondary_ohms + reflected, reflected);
     let half = 0.5 * winding.secondary_ohms;
     let topology = supply.rectifier.topology;
     // The leakage in each path's share of the winding: a center tap's half has half of it
     // (as its resistance is half), the whole winding the rest.
     let leakage_h = winding.leakage_h * cond.leakage_factor;
-    let path = |emf_share: f64, polarity, ohms, diodes, reservoir| Path {
+    let path = |emf_share: f64, polarity, (ohms, reflected_ohms), diodes, reservoir| Path {
         emf_share,
         polarity,
         ohms,
+        reflected_ohms,
         diodes,
         reservoir,
         leakage_h: leakage_h * emf_share.min(1.0),
@@ -136,7 +139,7 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
             vec![path(
                 0.5,
                 full_wave,
-                half + winding.primary_ohms / (4.0 * ratio * ratio),
+                (half + reflected / 4.0, reflected / 4.0),
                 1,
                 0,
             )],
@@ -166,7 +169,7 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
             vec![path(
                 0.5,
                 full_wave,
-                half + winding.primary_ohms / (2.0 * ratio * ratio),
+                (half + reflected / 2.0, reflected / 2.0),
                 1,
                 0,
             )],

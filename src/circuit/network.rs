@@ -48,6 +48,9 @@ pub struct Path {
     pub polarity: Polarity,
     /// Series resistance of the path: winding plus reflected primary, ohms.
     pub ohms: f64,
+    /// The reflected primary's part of `ohms` (ohms): it lowers the whole secondary's EMF, not
+    /// only the path's own share of the winding.
+    pub reflected_ohms: f64,
     /// Diodes in series while it conducts (2 in a bridge).
     pub diodes: u32,
     /// Which reservoir it charges.
@@ -373,7 +376,21 @@ impl Network {
             Polarity::Rectified | Polarity::OneLegOpen => flow.drops[0] * e.signum(),
             Polarity::Forward | Polarity::Inverted => flow.drops[0] - flow.drops[1],
         };
-        let v_secondary = e - signed_drop / share;
+        // A center tap's conducting half drops its own share; the other half carries nothing,
+        // but the primary's drop lowers both halves' EMF alike (a split rail's halves both
+        // conduct, so there the drop is twice one half's).
+        let v_secondary = match self.arrangement {
+            Arrangement::CenterTap => {
+                let signed_i = match first.polarity {
+                    Polarity::Rectified | Polarity::OneLegOpen => path_i[0] * e.signum(),
+                    Polarity::Forward | Polarity::Inverted => path_i[0] - path_i[1],
+                };
+                e - signed_drop - first.reflected_ohms * signed_i * (1.0 / share - 1.0)
+            }
+            Arrangement::Direct | Arrangement::Bridge | Arrangement::SplitRail => {
+                e - signed_drop / share
+            }
+        };
         // Where the diodes' cathodes meet: the reservoir's top, or a choke's input.
         let cathode = flow.cathode;
         let v_reverse = match self.arrangement {
