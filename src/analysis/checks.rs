@@ -173,6 +173,19 @@ pub fn checks(
             },
         });
     }
+    if f.kind.has_choke() {
+        match (f.choke_rated_a, max_of(Figure::ChokeRmsA)) {
+            (Some(rated), Some((v, at))) => out.push(at_most(
+                "choke-current",
+                v,
+                rated,
+                "choke current",
+                "A RMS",
+                &at,
+            )),
+            _ => not_rated.push("choke-current"),
+        }
+    }
     let r = &supply.rectifier;
     match r.rated_piv_v {
         Some(rated) => {

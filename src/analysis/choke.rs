@@ -1,7 +1,7 @@
 //! A choke-input filter's critical inductance: below it the choke's current stops in each
 //! cycle and the rail climbs from the rectified average towards the peak.
 
-use crate::circuit::network::{Inductance, Swing};
+use crate::circuit::network::Inductance;
 use crate::supply::{FilterKind, Supply};
 use std::f64::consts::{PI, TAU};
 
@@ -46,18 +46,7 @@ pub fn critical_henries(ohms: f64, hz: f64, pulses: u32) -> f64 {
 
 /// The choke as the circuit takes it, if the filter has one.
 pub fn inductance(supply: &Supply) -> Option<Inductance> {
-    let f = &supply.filter;
-    let henries = f.choke_h?;
-    Some(Inductance {
-        henries,
-        swing: match (f.choke_light_h, f.choke_rated_a) {
-            (Some(light_henries), Some(rated_a)) => Some(Swing {
-                light_henries,
-                rated_a,
-            }),
-            _ => None,
-        },
-    })
+    crate::circuit::choke_of(&supply.filter)
 }
 
 /// What the critical-inductance check compares: the choke's inductance at the lightest

@@ -186,16 +186,7 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         farads: stated.farads * cond.reservoir_factor,
         esr_ohms: cond.esr_ohms.unwrap_or(f.esr_ohms),
     };
-    let choke = f.choke_h.map(|henries| Inductance {
-        henries,
-        swing: match (f.choke_light_h, f.choke_rated_a) {
-            (Some(light_henries), Some(rated_a)) => Some(Swing {
-                light_henries,
-                rated_a,
-            }),
-            _ => None,
-        },
-    });
+    let choke = choke_of(f);
     let choke_ohms = f.choke_ohms.unwrap_or(0.0) * cond.choke_factor;
     // A shorted choke is a piece of wire: its resistance stays, its inductance goes.
     let choke = choke.filter(|_| !cond.choke_shorted);
@@ -327,4 +318,19 @@ fn load_law(supply: &Supply, cond: &Conditions) -> LoadLaw {
             knee_v: CURRENT_LOAD_KNEE_V,
         },
     }
+}
+
+/// The filter's choke as the circuit takes it (henries, and a swing where both swing keys are
+/// given), if it states one.
+pub fn choke_of(f: &crate::supply::Filter) -> Option<Inductance> {
+    f.choke_h.map(|henries| Inductance {
+        henries,
+        swing: match (f.choke_light_h, f.choke_rated_a) {
+            (Some(light_henries), Some(rated_a)) => Some(Swing {
+                light_henries,
+                rated_a,
+            }),
+            _ => None,
+        },
+    })
 }

@@ -13,7 +13,7 @@ pub mod solver;
 pub mod waveform;
 pub mod winding;
 
-pub use build::{Conditions, LoadOverride, network};
+pub use build::{Conditions, LoadOverride, choke_of, network};
 pub use figure::Figure;
 pub use figures::Figures;
 pub use paper::{

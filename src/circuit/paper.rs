@@ -11,6 +11,10 @@ use std::f64::consts::PI;
 pub struct HandEstimate {
     /// Winding peak less the textbook diode drops.
     pub working_peak_v: f64,
+    /// The rail's crest on paper: the working peak behind a capacitor input (it charges to
+    /// it), the DC plus half the ripple behind a choke (a choke input's rail never sees the
+    /// peak while its current flows, a pi filter's output sits behind the choke).
+    pub crest_v: f64,
     pub dc_v: f64,
     pub ripple_pp_v: f64,
     pub load_a: f64,
@@ -76,7 +80,7 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
         // term (2w: 4 Vm / 3 pi; w: Vm / 2 on half wave) divided by (n w)^2 L C - 1.
         (FilterKind::Lc, Some(uf)) => {
             let c = uf * 1e-6;
-            let henries = f.choke_h.unwrap_or(0.0);
+            let choke = super::choke_of(f);
             let (average, term) = if pulses == 2.0 {
                 (2.0 / PI, 4.0 / (3.0 * PI))
             } else {
@@ -88,6 +92,8 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
                 i = load_at(dc);
                 dc = working * average - i * f.choke_ohms.unwrap_or(0.0);
             }
+            // A swinging choke at the load's current.
+            let henries = choke.map_or(0.0, |ch| ch.at(i));
             let omega = 2.0 * PI * ripple_hz;
             let ripple = 2.0 * working * term / (omega * omega * henries * c - 1.0).abs();
             (dc, ripple, i)
@@ -113,7 +119,8 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
                 (FilterKind::Clc, _, Some(uf2)) => {
                     // The pi section divides the ripple by X_L / X_C2 - 1.
                     let omega = 2.0 * PI * ripple_hz;
-                    let ratio = omega * omega * f.choke_h.unwrap_or(0.0) * uf2 * 1e-6;
+                    let henries = super::choke_of(f).map_or(0.0, |ch| ch.at(i));
+                    let ratio = omega * omega * henries * uf2 * 1e-6;
                     let r = f.choke_ohms.unwrap_or(0.0);
                     (dc - i * r, ripple / (ratio - 1.0).abs().max(1.0), i)
                 }
@@ -134,6 +141,10 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
     };
     Ok(HandEstimate {
         working_peak_v: working,
+        crest_v: match f.kind {
+            FilterKind::Lc | FilterKind::Clc => (dc + ripple / 2.0).clamp(0.0, working),
+            FilterKind::None | FilterKind::Capacitor | FilterKind::Crc => working,
+        },
         // Clamped so that no figure of the estimate is ever negative or above the peak.
         dc_v: dc.clamp(0.0, working),
         ripple_pp_v: ripple.clamp(0.0, working),

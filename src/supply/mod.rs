@@ -457,7 +457,8 @@ pub struct Filter {
     /// below), henries; between the two currents it falls in a straight line to `choke_h`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub choke_light_h: Option<f64>,
-    /// A swinging choke's rated current, amps, where it has `choke_h`.
+    /// The choke's rated current, amps (the check `choke-current`); for a swinging choke also
+    /// where it has `choke_h`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub choke_rated_a: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]

@@ -146,13 +146,8 @@ impl Supply {
                         line: None,
                     });
                 }
-                (None, Some(_)) => {
-                    return Err(SupplyError::Missing {
-                        key: "filter.choke_light_h",
-                        why: "a swinging choke needs its inductance at light current",
-                        line: None,
-                    });
-                }
+                // A fixed choke's current rating, for the check.
+                (None, Some(rated)) => CHOKE_RATED_A.check(rated)?,
             }
         }
         for (range, v) in [

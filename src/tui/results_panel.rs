@@ -218,7 +218,7 @@ impl Widget for &ResultsPanel<'_> {
             "dc_v" if solved.hand.applies() => Some(solved.hand.dc_v),
             "ripple_pp_v" if solved.hand.applies() => Some(solved.hand.ripple_pp_v),
             "load_a" => Some(solved.hand.load_a),
-            "max_v" => Some(solved.hand.working_peak_v),
+            "max_v" => Some(solved.hand.crest_v),
             _ => None,
         };
         let inner = area.inner(ratatui::layout::Margin::new(1, 1));
