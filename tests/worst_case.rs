@@ -256,6 +256,31 @@ fn every_rated_check_turns_on_its_limit() {
             );
         }
     }
+    // A choke's rated current against its worst RMS current (a choke input's filter).
+    let choke = |rated: f64| {
+        let mut s = bridge(12.0, "", "");
+        s.filter.kind = railcheck::supply::FilterKind::Lc;
+        s.filter.choke_h = Some(0.2);
+        s.filter.choke_ohms = Some(0.5);
+        s.filter.choke_rated_a = Some(rated);
+        s.validate().unwrap();
+        build(s)
+    };
+    let worst = choke(1e3)
+        .checks
+        .iter()
+        .find(|c| c.id == "choke-current")
+        .unwrap()
+        .value;
+    // The load's 0.5 A with its tolerance, little ripple on top.
+    assert!(worst > 0.5 && worst < 0.7, "{worst}");
+    for (rating, want) in [(0.9, Status::Fail), (1.02, Status::Warn), (1.3, Status::Ok)] {
+        assert_eq!(
+            status(&choke(worst * rating), "choke-current"),
+            Some(want),
+            "choke-current x{rating}"
+        );
+    }
     // Regulator dissipation: (highest DC - output) x load.
     let reg = |w: f64| {
         build(bridge(
