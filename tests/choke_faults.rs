@@ -107,8 +107,7 @@ fn faulted_chokes_match_ngspice() {
         ("choke_rms_a", 0.02),
         ("choke_dc_drop_v", 0.005),
     ];
-    let mut worst: BTreeMap<&str, (f64, String)> = BTreeMap::new();
-    let mut failures = Vec::new();
+    let mut compared = common::Comparison::default();
     for (case, fault, want) in rows() {
         let f = engine(&case, &fault);
         let got = serde_json::to_value(&f).unwrap();
@@ -118,61 +117,40 @@ fn faulted_chokes_match_ngspice() {
                 assert!(v.is_finite(), "{case} {fault}: {name} = {v}");
             }
         }
+        let at = format!("{case} {fault}");
         if fault == "choke-open" {
             // Nothing reaches the output capacitor: both rails sit at zero.
             for key in ["dc_v", "max_v", "min_v", "ripple_pp_v", "load_a"] {
                 let g = got[key].as_f64().unwrap();
                 assert!(
                     g.abs() < 1e-6 && want[key].abs() < 1e-6,
-                    "{case} {fault} {key}: engine {g}, ngspice {}",
+                    "{at} {key}: engine {g}, ngspice {}",
                     want[key]
                 );
             }
         } else {
             for (key, tol) in checks {
-                let w = want[key];
                 let g = got[key]
                     .as_f64()
-                    .unwrap_or_else(|| panic!("{case} {fault}: {key} missing"));
-                let err = (g - w).abs() / w.abs().max(1e-12);
-                let e = worst.entry(key).or_insert((0.0, String::new()));
-                if err > e.0 {
-                    *e = (err, format!("{case} {fault}"));
-                }
-                if err > tol {
-                    failures.push(format!(
-                        "{case} {fault} {key}: engine {g:.5}, ngspice {w:.5} ({:+.2} %)",
-                        100.0 * (g - w) / w
-                    ));
-                }
+                    .unwrap_or_else(|| panic!("{at}: {key} missing"));
+                compared.figure(&at, key, g, want[key], tol);
             }
             if (f.ripple_hz - want["ripple_hz"]).abs() > 0.5 {
-                failures.push(format!(
-                    "{case} {fault} ripple_hz: engine {}, ngspice {}",
+                compared.fail(format!(
+                    "{at} ripple_hz: engine {}, ngspice {}",
                     f.ripple_hz, want["ripple_hz"]
                 ));
             }
         }
-        let (g, w) = (f.secondary_rms_v, want["secondary_vac"]);
-        let err = (g - w).abs() / w;
-        let e = worst.entry("secondary_vac").or_insert((0.0, String::new()));
-        if err > e.0 {
-            *e = (err, format!("{case} {fault}"));
-        }
-        if err > 0.01 {
-            failures.push(format!(
-                "{case} {fault} secondary: engine {g:.4}, ngspice {w:.4}"
-            ));
-        }
+        compared.figure(
+            &at,
+            "secondary_vac",
+            f.secondary_rms_v,
+            want["secondary_vac"],
+            0.01,
+        );
     }
-    for (key, (err, at)) in &worst {
-        println!("largest {key} difference: {:.3} % ({at})", 100.0 * err);
-    }
-    assert!(
-        failures.is_empty(),
-        "outside tolerance:\n{}",
-        failures.join("\n")
-    );
+    compared.finish();
 }
 
 #[test]

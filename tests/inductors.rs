@@ -17,7 +17,6 @@
 
 mod common;
 use railcheck::{Conditions, Figures, Supply, solve};
-use std::collections::BTreeMap;
 use std::path::Path;
 
 fn supply(case: &str) -> Supply {
@@ -61,8 +60,7 @@ fn inductor_supplies_match_ngspice() {
         "leak_hw_50",
         "leak_ct_50_light",
     ];
-    let mut worst: BTreeMap<&str, (f64, String)> = BTreeMap::new();
-    let mut failures = Vec::new();
+    let mut compared = common::Comparison::default();
     for (case, want) in &cases {
         let got = serde_json::to_value(engine(case)).unwrap();
         for (key, tol) in checks {
@@ -82,34 +80,17 @@ fn inductor_supplies_match_ngspice() {
             let g = got[engine_key]
                 .as_f64()
                 .unwrap_or_else(|| panic!("{case}: {key} missing from the engine's figures"));
-            let err = (g - w).abs() / w.abs().max(1e-12);
-            let entry = worst.entry(key).or_insert((0.0, String::new()));
-            if err > entry.0 {
-                *entry = (err, case.clone());
-            }
-            if err > tol {
-                failures.push(format!(
-                    "{case} {key}: engine {g:.5}, ngspice {w:.5} ({:+.2} %)",
-                    100.0 * (g - w) / w
-                ));
-            }
+            compared.figure(case, key, g, w, tol);
         }
         let hz = got["ripple_hz"].as_f64().unwrap();
         if (hz - want["ripple_hz"]).abs() > 0.5 {
-            failures.push(format!(
+            compared.fail(format!(
                 "{case} ripple_hz: engine {hz}, ngspice {}",
                 want["ripple_hz"]
             ));
         }
     }
-    for (key, (err, case)) in &worst {
-        println!("largest {key} difference: {:.3} % ({case})", 100.0 * err);
-    }
-    assert!(
-        failures.is_empty(),
-        "outside tolerance:\n{}",
-        failures.join("\n")
-    );
+    compared.finish();
 }
 
 /// The textbook choke-input relations (derived from the Fourier series of the full-wave

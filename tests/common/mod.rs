@@ -31,3 +31,50 @@ pub fn reference_csv(name: &str) -> Vec<(String, BTreeMap<String, f64>)> {
         })
         .collect()
 }
+
+/// A comparison of the engine's figures against a stored reference: each figure's relative
+/// error, the largest per figure with where it came, and the figures beyond their tolerance.
+#[derive(Default)]
+pub struct Comparison {
+    worst: BTreeMap<String, (f64, String)>,
+    failures: Vec<String>,
+}
+
+impl Comparison {
+    /// Compares `got` with `want` for figure `key` of the case named `at`, against `tol`
+    /// (a fraction of `want`).
+    pub fn figure(&mut self, at: &str, key: &str, got: f64, want: f64, tol: f64) {
+        let err = (got - want).abs() / want.abs().max(1e-12);
+        let entry = self
+            .worst
+            .entry(key.to_string())
+            .or_insert((0.0, String::new()));
+        if err > entry.0 {
+            *entry = (err, at.to_string());
+        }
+        if err > tol {
+            self.failures.push(format!(
+                "{at} {key}: engine {got:.5}, reference {want:.5} ({:+.2} %)",
+                100.0 * (got - want) / want
+            ));
+        }
+    }
+
+    /// Notes a failure of some other kind (a harmonic, a missing figure).
+    pub fn fail(&mut self, what: String) {
+        self.failures.push(what);
+    }
+
+    /// Prints the largest difference of each figure, then fails with every one beyond its
+    /// tolerance.
+    pub fn finish(self) {
+        for (key, (err, at)) in &self.worst {
+            println!("largest {key} difference: {:.3} % ({at})", 100.0 * err);
+        }
+        assert!(
+            self.failures.is_empty(),
+            "outside tolerance:\n{}",
+            self.failures.join("\n")
+        );
+    }
+}
