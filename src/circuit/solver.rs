@@ -196,7 +196,9 @@ mod tests {
     use super::*;
     use std::f64::consts::TAU;
 
-    /// An RC low-pass driven by a sine of 1 V at 50 Hz: dv/dt = (sin wt - v) / tau.
+    /// An RC low-pass driven by a sine of 1 V at 50 Hz: dv/dt = (sin wt - v) / tau. Its output
+    /// is reported as a "diode" current and (negated) a reverse voltage too, so that the
+    /// crests and the conduction edges the final pass seeks have exact answers.
     struct LowPass {
         tau_s: f64,
     }
@@ -226,6 +228,8 @@ mod tests {
             Probe {
                 v_out: x[0],
                 i_load: x[0],
+                i_diode: x[0],
+                v_reverse: -x[0],
                 edges: [f64::NAN; EDGES],
                 ..Probe::default()
             }
@@ -297,54 +301,13 @@ mod tests {
         );
     }
 
-    /// The same low-pass, its output reported as a "diode" current too, so that the crest and
-    /// the conduction edges have exact answers.
-    struct Follower(LowPass);
-
-    impl PeriodicCircuit for Follower {
-        fn states(&self) -> usize {
-            1
-        }
-        fn period_s(&self) -> f64 {
-            0.02
-        }
-        fn line_period_s(&self) -> f64 {
-            0.02
-        }
-        fn volts_scale(&self) -> f64 {
-            1.0
-        }
-        fn volts_resolution(&self) -> f64 {
-            1.0
-        }
-        fn breakpoints_s(&self) -> Vec<f64> {
-            Vec::new()
-        }
-        fn evaluate(&self, t: f64, x: &[f64], dx: &mut [f64]) -> Probe {
-            Probe {
-                i_diode: x[0],
-                v_reverse: -x[0],
-                ..self.0.evaluate(t, x, dx)
-            }
-        }
-        fn initial_guess(&self, x: &mut [f64]) {
-            x[0] = 0.0;
-        }
-        fn integrands(&self, p: &Probe, start: &Probe) -> [f64; QUADRATURES] {
-            self.0.integrands(p, start)
-        }
-        fn integral_tolerances(&self, start: &Probe, volts: f64) -> [Option<f64>; QUADRATURES] {
-            self.0.integral_tolerances(start, volts)
-        }
-    }
-
     #[test]
     fn crests_and_edges_come_from_the_solution_between_step_ends() {
         // The periodic solution is A sin(w t - phi), A = 1 / sqrt(1 + (w tau)^2) (the
         // first-order low-pass). Its crest is A and its trough -A; it exceeds a thousandth of
         // its crest for (pi - 2 asin(1e-3)) / (2 pi) of the period.
         let tau = 2e-3;
-        let s = steady_state(&Follower(LowPass { tau_s: tau })).unwrap();
+        let s = steady_state(&LowPass { tau_s: tau }).unwrap();
         let wt = TAU * 50.0 * tau;
         let a = 1.0 / (1.0 + wt * wt).sqrt();
         // The period's steps are at most 1/24 of it: a crest read off step ends and middles
