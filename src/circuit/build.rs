@@ -289,7 +289,10 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         diode,
         arrangement,
         min_path_ohms,
-    })
+        path_scales: [1.0; 2],
+        path_knees_a: [0.0; 2],
+    }
+    .with_path_figures())
 }
 
 /// The load the rail sees: a regulator turns whatever it feeds into a constant current drawn

@@ -162,6 +162,11 @@ pub struct Network {
     pub arrangement: Arrangement,
     /// Stand-in for zero source resistance: a constrained circuit becomes a very fast RC.
     pub min_path_ohms: f64,
+    /// Each inductive path's scale (amps per volt, [`Network::path_scale`]) and knee current
+    /// (amps, `KNEE_SHARE` of what the winding's peak drives through the path), worked out
+    /// once by [`Network::with_path_figures`] rather than at every evaluation.
+    pub path_scales: [f64; 2],
+    pub path_knees_a: [f64; 2],
 }
 
 /// Node values of the network for given path currents (volts, amps).
@@ -458,7 +463,7 @@ impl Network {
                 // Below a small knee current the diodes' voltage is held at its value there:
                 // the exponential law's tail (microamps over tenths of a volt) carries no
                 // charge that matters, and following it would make every turn-on stiff.
-                let knee = KNEE_SHARE * self.volts_scale() * self.path_scale(p);
+                let knee = self.path_knees_a[j];
                 let drive = s
                     - top
                     - (p.ohms + p.series_ohms) * i
@@ -485,7 +490,7 @@ impl Network {
                 edges[j] = if raw <= knee && drive > 0.0 {
                     drive
                 } else {
-                    (raw - knee) / self.path_scale(p)
+                    (raw - knee) / self.path_scales[j]
                 };
             }
             nodes
@@ -576,6 +581,20 @@ impl Network {
         );
         probe.edges = edges;
         probe
+    }
+
+    /// The network with each path's scale and knee worked out (see `path_scales`).
+    pub fn with_path_figures(mut self) -> Network {
+        if self.reservoirs.is_empty() {
+            return self;
+        }
+        let volts = self.volts_scale();
+        for (j, p) in self.paths.iter().enumerate().take(2) {
+            let scale = self.path_scale(p);
+            self.path_scales[j] = scale;
+            self.path_knees_a[j] = KNEE_SHARE * volts * scale;
+        }
+        self
     }
 
     /// A path current's size against a capacitor voltage, amps per volt: what a volt drives
@@ -713,7 +732,7 @@ impl PeriodicCircuit for Network {
             return 1.0;
         }
         if self.has_inductive_paths() && i < caps + self.paths.len() {
-            return self.path_scale(&self.paths[i - caps]);
+            return self.path_scales[i - caps];
         }
         // A CLC's choke: a volt across its resistance and reactance at the ripple.
         let s = self
