@@ -54,7 +54,31 @@ fn single_solves(c: &mut Criterion) {
             b.iter(|| solve(black_box(&s), &Conditions::default()).unwrap())
         });
     }
+    // Issue 13's: six-pulse drive buses without and with a line reactor (the phases' own
+    // currents), a three-pulse star, a 400 Hz transformer-rectifier unit, an off-line bridge
+    // into a constant-power converter (ngspice reference cases).
+    for case in [
+        "vfd_400_bus",
+        "vfd_400_bus_reactor",
+        "star_400_to_50",
+        "tru_400hz_28v",
+        "offline_230_cp150",
+    ] {
+        let s = load(&format!("tests/reference/three_phase/{case}.toml"));
+        g.bench_function(case, |b| {
+            b.iter(|| solve(black_box(&s), &Conditions::default()).unwrap())
+        });
+    }
     g.finish();
+}
+
+/// A full report (nominal, worst case over the tolerance box, checks) of a six-pulse drive
+/// bus with a line reactor: issue 13's 30 ms target.
+fn three_phase_report(c: &mut Criterion) {
+    let s = load("examples/pump-drive-bus.toml");
+    c.bench_function("report_six_pulse_drive_bus", |b| {
+        b.iter(|| report::build_default(black_box(s.clone()), "bench").unwrap())
+    });
 }
 
 fn time_constants(c: &mut Criterion) {
@@ -158,6 +182,7 @@ criterion_group!(
     time_constants,
     twenty_reports,
     worst_case_and_sizing,
-    diagnosis
+    diagnosis,
+    three_phase_report
 );
 criterion_main!(benches);

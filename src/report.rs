@@ -71,11 +71,22 @@ pub fn build_default(supply: Supply, file: &str) -> Result<Report, CircuitError>
 }
 
 /// Each figure's label, JSON name, value and unit, in the report's order.
-pub fn figure_rows(f: &Figures) -> Vec<(&'static str, &'static str, Option<f64>, &'static str)> {
+/// A supply with no transformer names its winding's figures the line's.
+pub fn figure_rows(
+    f: &Figures,
+    straight_off_line: bool,
+) -> Vec<(&'static str, &'static str, Option<f64>, &'static str)> {
     Figure::ALL
         .iter()
         .filter(|fig| fig.applies(f))
-        .map(|fig| (fig.label(), fig.key(), fig.of(f), fig.unit()))
+        .map(|fig| {
+            (
+                fig.words(straight_off_line).0,
+                fig.key(),
+                fig.of(f),
+                fig.unit(),
+            )
+        })
         .collect()
 }
 
@@ -204,7 +215,9 @@ impl Report {
             "  {:<22}{:>10}{:>12}{:>4}{:>12}{:>4}\n",
             "Figure", "Nominal", "Worst min", "", "Worst max", ""
         ));
-        for (label, name, value, unit) in figure_rows(&self.nominal.figures) {
+        for (label, name, value, unit) in
+            figure_rows(&self.nominal.figures, self.supply.transformer.is_absent())
+        {
             let figure = Figure::from_key(name).expect("a figure of the table");
             let (lo, lo_at, hi, hi_at) = match self.worst.extent(figure) {
                 Some(e) => (
@@ -236,7 +249,9 @@ impl Report {
             out.push_str(&format!(
                 "\n  Typical spread, 1st to 99th percentile ({SPREAD_SAMPLES} seeded samples, uniform in the box)\n"
             ));
-            for (label, name, _, unit) in figure_rows(&self.nominal.figures) {
+            for (label, name, _, unit) in
+                figure_rows(&self.nominal.figures, self.supply.transformer.is_absent())
+            {
                 if let Some((_, p)) = spread.iter().find(|(n, _)| *n == name) {
                     out.push_str(&format!(
                         "  {:<22}{:>12} to {:>10}\n",

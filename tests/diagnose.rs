@@ -249,7 +249,7 @@ fn impossible_readings_are_refused_with_a_reason() {
                 ripple_hz: Some(73.0),
                 ..Readings::default()
             },
-            "neither the line",
+            "none of the line's multiples",
         ),
         (
             Readings {

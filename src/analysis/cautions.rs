@@ -6,6 +6,11 @@ use crate::supply::{FilterKind, Supply};
 /// (60 V, from memory of the usual limit); below it a charged capacitor is taken as safe.
 pub const SAFE_TOUCH_V: f64 = 60.0;
 
+/// Stored energy above which the rail is treated as a power bus (a drive's, a converter's):
+/// the usual "wait and measure" caution follows (tens of joules already give a dangerous
+/// shock; from memory of the usual guidance).
+pub const BUS_ENERGY_J: f64 = 20.0;
+
 /// The filter capacitance seen across the rail at its highest tolerance, farads: a doubler's
 /// two capacitors in series, a CRC's two counted together.
 pub fn rail_farads(supply: &Supply) -> f64 {
@@ -42,11 +47,25 @@ pub fn discharge_s(farads: f64, ohms: f64, from_v: f64, to_v: f64) -> f64 {
 /// The cautions for `supply` whose rail reaches `peak_v` volts at high line, with `touch_v`
 /// the voltage taken as safe to touch (volts).
 pub fn cautions(supply: &Supply, peak_v: f64, touch_v: f64) -> Vec<String> {
+    let phases = if supply.mains.phases == 3 {
+        " three-phase (line to line)"
+    } else {
+        ""
+    };
     let mut out = vec![format!(
-        "Mains hazard: the primary side runs at {:.0} V and can kill; work on it only isolated \
-         and locked out.",
+        "Mains hazard: the primary side runs at {:.0} V{phases} and can kill; work on it only \
+         isolated and locked out.",
         supply.mains.vrms
     )];
+    if supply.transformer.is_absent() {
+        out.push(
+            "Straight off the line: with no transformer the whole DC side sits at mains \
+             potential, its negative rail included; a scope's ground clip on it shorts the \
+             mains. Use a differential probe or an isolating transformer on the unit, never \
+             on the scope's earth."
+                .into(),
+        );
+    }
     let farads = rail_farads(supply);
     if farads > 0.0 {
         let energy = stored_energy_j(farads, peak_v);
@@ -62,6 +81,15 @@ pub fn cautions(supply: &Supply, peak_v: f64, touch_v: f64) -> Vec<String> {
         out.push(line);
         if peak_v > touch_v {
             out.push(discharge_line(supply, farads, peak_v, touch_v));
+        }
+        // A drive's or converter's bus: hundreds of joules at hundreds of volts.
+        if energy >= BUS_ENERGY_J {
+            out.push(format!(
+                "DC bus: {energy:.0} J at {peak_v:.0} V is enough to kill. After isolating, \
+                 wait the time on the unit's label (often 5-15 min for drives) and then measure \
+                 across the bus with a meter rated for it before touching anything; a bus \
+                 that does not fall points at failed bleeders or a live input."
+            ));
         }
     }
     let f = &supply.filter;
@@ -102,6 +130,13 @@ fn discharge_line(supply: &Supply, farads: f64, peak_v: f64, touch_v: f64) -> St
         return format!(
             "Discharge: the {r:.0} ohm bleeder brings the rail below {touch_v:.0} V in about \
              {t:.1} s after switch-off."
+        );
+    }
+    if let Some(w) = supply.load.watts {
+        return format!(
+            "Discharge: no bleeder; a {w:.0} W converter stops drawing at its undervoltage \
+             cutoff and leaves the capacitor charged there ({:.0} V), for minutes or longer.",
+            crate::circuit::power_cutoff_v(supply)
         );
     }
     match (supply.load.ohms, supply.load.amps, &supply.regulator) {

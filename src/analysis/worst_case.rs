@@ -267,7 +267,11 @@ impl ToleranceBox {
                      (the building's other loads change through the day)"
                 )),
             });
-        } else if supply.mains.crest.is_none() {
+        } else if supply.mains.crest.is_none() && supply.mains.phases == 1 {
+            // Three phases are left a sine unless stated: the model flattens each phase's
+            // tops, which raises the line-to-line peak a six-pulse bridge charges to, while
+            // on a real three-phase line the rectifiers flatten the line-to-line peaks
+            // themselves (a stated crest is taken as given, per phase).
             axes.push(Axis {
                 kind: AxisKind::Crest,
                 low: ASSUMED_CREST_LOW,
@@ -787,6 +791,32 @@ fn winding_axis(w: &WindingModel) -> Axis {
                  regulation figure lumps copper and leakage)",
                 format_number(round3(whole)),
                 (1.3 * leak - 1.0) * 100.0
+            ),
+        ),
+        WindingSource::Line { assumed: None } => (
+            0.8,
+            1.25 * leak,
+            format!(
+                "line resistance as stated ({} ohm): -20 % to +25 % assumed (a line's \
+                 resistance is seldom measured, and it warms){}",
+                format_number(round3(whole)),
+                if stated_leakage {
+                    ""
+                } else {
+                    " with an allowance for the line's inductance ([line] mh would model it)"
+                }
+            ),
+        ),
+        WindingSource::Line {
+            assumed: Some((low_ohms, high_ohms)),
+        } => (
+            low_ohms / w.secondary_ohms,
+            high_ohms / w.secondary_ohms * leak,
+            format!(
+                "line resistance not stated: {}-{} ohm assumed (wiring dropping 0.5-5 % of the \
+                 phase voltage at the load's current), with an allowance for its inductance",
+                format_number(round3(low_ohms)),
+                format_number(round3(high_ohms)),
             ),
         ),
         WindingSource::Assumed {

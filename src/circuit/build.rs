@@ -3,7 +3,8 @@
 
 use super::diode::DiodeLaw;
 use super::network::{
-    Arrangement, Inductance, LoadLaw, Network, Path, Polarity, Reservoir, SecondStage, Swing,
+    Arrangement, Inductance, LoadLaw, MAX_PATHS, Network, Path, Polarity, Reservoir, SecondStage,
+    Swing,
 };
 use super::waveform::MainsWave;
 use crate::supply::{FilterKind, Supply, SupplyError, Topology};
@@ -52,6 +53,15 @@ pub struct Conditions {
     /// the rail falls to zero and the rectifier idles, its winding reading its open-circuit
     /// EMF. Only for a filter with a choke.
     pub choke_open: bool,
+    /// Phase c of a three-phase supply lost (a blown fuse, an open line or leg): the other
+    /// two feed the rectifier as one phase.
+    pub phase_lost: bool,
+    /// The line reactor shorted: the line's inductance (`[line]`) gone, the rest kept.
+    pub reactor_shorted: bool,
+    /// A six-pulse bridge's phase inductance lumped into one path (twice a phase's) instead
+    /// of each phase's current a state: the fallback where the phases' own solve does not
+    /// settle (the commutation overlap is then not modelled).
+    pub lumped_phases: bool,
 }
 
 impl Default for Conditions {
@@ -73,15 +83,20 @@ impl Default for Conditions {
             choke_factor: 1.0,
             choke_shorted: false,
             choke_open: false,
+            phase_lost: false,
+            reactor_shorted: false,
+            lumped_phases: false,
         }
     }
 }
 
-/// A load in place of the supply's own (amps or ohms).
+/// A load in place of the supply's own (amps, ohms or watts).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum LoadOverride {
     Amps(f64),
     Ohms(f64),
+    /// A constant-power load's watts.
+    Watts(f64),
 }
 
 /// A rectifier's input knee for a constant-current load with no regulator: an electronic
@@ -112,7 +127,12 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
     let topology = supply.rectifier.topology;
     // The leakage in each path's share of the winding: a center tap's half has half of it
     // (as its resistance is half), the whole winding the rest.
-    let leakage_h = winding.leakage_h * cond.leakage_factor;
+    let line_h = supply.line_henries() / (ratio * ratio);
+    let leakage_h = if cond.reactor_shorted {
+        (winding.leakage_h - line_h).max(0.0) * cond.leakage_factor
+    } else {
+        winding.leakage_h * cond.leakage_factor
+    };
     let path = |emf_share: f64, polarity, (ohms, reflected_ohms), diodes, reservoir| Path {
         emf_share,
         polarity,
@@ -175,6 +195,51 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
             )],
             Arrangement::SplitRail,
         ),
+        // Three phases: the winding's figures are per phase of a star. Phases with
+        // inductance carry their own currents (a bridge's share the current as it moves from
+        // one to the next); without, the widest phase or pair takes it at once. A choke
+        // input on a star sums its phases' currents, so there the phases' inductance is
+        // lumped with the choke's on the one path.
+        Topology::ThreePhaseBridge | Topology::ThreePhaseStar => {
+            let bridge = topology == Topology::ThreePhaseBridge;
+            let own_currents = leakage_h > 0.0
+                && supply.filter.kind.has_capacitor()
+                && !(bridge && cond.lumped_phases)
+                && (bridge || !supply.filter.kind.is_choke_input());
+            let live: &[usize] = if cond.phase_lost { &[0, 1] } else { &[0, 1, 2] };
+            let arrangement = if bridge {
+                Arrangement::ThreePhaseBridge
+            } else {
+                Arrangement::ThreePhaseStar
+            };
+            if own_currents {
+                let paths = live
+                    .iter()
+                    .map(|&k| Path {
+                        leakage_h,
+                        ..path(1.0, Polarity::Phase(k), whole, 1, 0)
+                    })
+                    .collect();
+                (paths, arrangement)
+            } else {
+                let (polarity, series, diodes) = if bridge {
+                    (Polarity::SixPulse, 2.0, 2)
+                } else {
+                    (Polarity::ThreePulse, 1.0, 1)
+                };
+                let p = Path {
+                    leakage_h: series * leakage_h,
+                    ..path(
+                        1.0,
+                        polarity,
+                        (series * whole.0, series * whole.1),
+                        diodes,
+                        0,
+                    )
+                };
+                (vec![p], arrangement)
+            }
+        }
     };
     let f = &supply.filter;
     let stated = Reservoir {
@@ -281,6 +346,8 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
                 .unwrap_or(supply.mains.crest()),
         ),
         emf_rms_v,
+        phases: topology.phases(),
+        lost_phase: cond.phase_lost && topology.phases() == 3,
         line_hz: supply.mains.hz,
         paths,
         reservoirs,
@@ -289,8 +356,8 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         diode,
         arrangement,
         min_path_ohms,
-        path_scales: [1.0; 2],
-        path_knees_a: [0.0; 2],
+        path_scales: [1.0; MAX_PATHS],
+        path_knees_a: [0.0; MAX_PATHS],
     }
     .with_path_figures())
 }
@@ -298,29 +365,43 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
 /// The load the rail sees: a regulator turns whatever it feeds into a constant current drawn
 /// from the rail while it has headroom.
 fn load_law(supply: &Supply, cond: &Conditions) -> LoadLaw {
-    let (amps, ohms) = match cond.load {
-        Some(LoadOverride::Amps(a)) => (Some(a), None),
-        Some(LoadOverride::Ohms(r)) => (None, Some(r)),
-        None => (supply.load.amps, supply.load.ohms),
+    let (amps, ohms, watts) = match cond.load {
+        Some(LoadOverride::Amps(a)) => (Some(a), None, None),
+        Some(LoadOverride::Ohms(r)) => (None, Some(r), None),
+        Some(LoadOverride::Watts(w)) => (None, None, Some(w)),
+        None => (supply.load.amps, supply.load.ohms, supply.load.watts),
     };
-    match (&supply.regulator, amps, ohms) {
-        (Some(reg), a, r) => {
+    match (&supply.regulator, amps, ohms, watts) {
+        (_, None, None, Some(watts)) => LoadLaw::Power {
+            watts,
+            cutoff_v: power_cutoff_v(supply),
+        },
+        (Some(reg), a, r, _) => {
             let amps = a.unwrap_or_else(|| reg.output_v / r.unwrap_or(f64::INFINITY));
             LoadLaw::Current {
                 amps,
                 knee_v: reg.output_v + reg.dropout_v,
             }
         }
-        (None, Some(amps), _) => LoadLaw::Current {
+        (None, Some(amps), _, _) => LoadLaw::Current {
             amps,
             knee_v: CURRENT_LOAD_KNEE_V,
         },
-        (None, None, Some(ohms)) => LoadLaw::Resistance { ohms },
-        (None, None, None) => LoadLaw::Current {
+        (None, None, Some(ohms), _) => LoadLaw::Resistance { ohms },
+        (None, None, None, None) => LoadLaw::Current {
             amps: 0.0,
             knee_v: CURRENT_LOAD_KNEE_V,
         },
     }
+}
+
+/// A constant-power load's undervoltage stop, volts: the file's `cutoff_v`, or half the
+/// rail's ideal peak at nominal mains (a converter built for this rail stops well below it).
+pub fn power_cutoff_v(supply: &Supply) -> f64 {
+    supply
+        .load
+        .cutoff_v
+        .unwrap_or_else(|| 0.5 * supply.ideal_peak_v())
 }
 
 /// The filter's choke as the circuit takes it (henries, and a swing where both swing keys are

@@ -20,6 +20,7 @@ pub enum Figure {
     DiodeRmsA,
     DiodePivV,
     WindingRmsA,
+    WindingPeakA,
     WindingVa,
     CapRippleRmsA,
     ConductionDeg,
@@ -34,7 +35,7 @@ pub enum Figure {
 
 impl Figure {
     /// Every figure, in the report's order.
-    pub const ALL: [Figure; 22] = [
+    pub const ALL: [Figure; 23] = [
         Figure::DcV,
         Figure::MaxV,
         Figure::MinV,
@@ -47,6 +48,7 @@ impl Figure {
         Figure::DiodeRmsA,
         Figure::DiodePivV,
         Figure::WindingRmsA,
+        Figure::WindingPeakA,
         Figure::WindingVa,
         Figure::CapRippleRmsA,
         Figure::ConductionDeg,
@@ -74,6 +76,7 @@ impl Figure {
             Figure::DiodeRmsA => ("diode_rms_a", "Diode RMS", "Diode RMS", "A"),
             Figure::DiodePivV => ("diode_piv_v", "Diode reverse peak", "Diode rev.", "V"),
             Figure::WindingRmsA => ("winding_rms_a", "Winding RMS", "Winding RMS", "A"),
+            Figure::WindingPeakA => ("winding_peak_a", "Winding peak", "Winding pk.", "A"),
             Figure::WindingVa => ("winding_va", "Winding VA", "Winding VA", "VA"),
             Figure::CapRippleRmsA => (
                 "cap_ripple_rms_a",
@@ -104,6 +107,39 @@ impl Figure {
                 "Out cap rip.",
                 "A",
             ),
+        }
+    }
+
+    /// The report's and the screen's words for a supply with no transformer, where the
+    /// winding's figures are the line's ("Line RMS"); the same words otherwise.
+    pub fn words(self, straight_off_line: bool) -> (&'static str, &'static str) {
+        if !straight_off_line {
+            return (self.label(), self.short());
+        }
+        match self {
+            Figure::WindingRmsA => ("Line current RMS", "Line RMS"),
+            Figure::WindingPeakA => ("Line current peak", "Line peak"),
+            Figure::WindingVa => ("Line VA", "Line VA"),
+            Figure::SecondaryRmsV => ("Line AC at the rectifier", "Line AC"),
+            Figure::DcV
+            | Figure::MaxV
+            | Figure::MinV
+            | Figure::RipplePpV
+            | Figure::RippleRmsV
+            | Figure::RippleHz
+            | Figure::LoadA
+            | Figure::DiodePeakA
+            | Figure::DiodeAvgA
+            | Figure::DiodeRmsA
+            | Figure::DiodePivV
+            | Figure::CapRippleRmsA
+            | Figure::ConductionDeg
+            | Figure::InrushPeakA
+            | Figure::CapPeakV
+            | Figure::ChokeRmsA
+            | Figure::ChokePeakA
+            | Figure::ChokeDcDropV
+            | Figure::OutCapRippleRmsA => (self.label(), self.short()),
         }
     }
 
@@ -148,6 +184,7 @@ impl Figure {
             | Figure::DiodeRmsA
             | Figure::DiodePivV
             | Figure::WindingRmsA
+            | Figure::WindingPeakA
             | Figure::WindingVa
             | Figure::CapRippleRmsA
             | Figure::ConductionDeg
@@ -177,6 +214,7 @@ impl Figure {
             Figure::DiodeRmsA => Some(f.diode_rms_a),
             Figure::DiodePivV => Some(f.diode_piv_v),
             Figure::WindingRmsA => Some(f.winding_rms_a),
+            Figure::WindingPeakA => Some(f.winding_peak_a),
             Figure::WindingVa => Some(f.winding_va),
             Figure::CapRippleRmsA => Some(f.cap_ripple_rms_a),
             Figure::ConductionDeg => Some(f.conduction_deg),

@@ -25,6 +25,10 @@ pub struct Figures {
     pub diode_rms_a: f64,
     pub diode_piv_v: f64,
     pub winding_rms_a: f64,
+    /// The winding's (or the line's, straight off it) peak current, amps: each of its pulses
+    /// is one diode's, so it is the diode peak (a bridge's phase carries its upper diode's
+    /// pulses one way and its lower's the other, alike by symmetry).
+    pub winding_peak_a: f64,
     pub winding_va: f64,
     pub cap_ripple_rms_a: f64,
     pub conduction_deg: f64,
@@ -74,6 +78,7 @@ impl Figures {
             diode_rms_a: sum(|f| f.diode_rms_a),
             diode_piv_v: sum(|f| f.diode_piv_v),
             winding_rms_a: sum(|f| f.winding_rms_a),
+            winding_peak_a: sum(|f| f.winding_peak_a),
             winding_va: sum(|f| f.winding_va),
             cap_ripple_rms_a: sum(|f| f.cap_ripple_rms_a),
             conduction_deg: sum(|f| f.conduction_deg),
@@ -88,7 +93,7 @@ impl Figures {
     }
 
     /// Every figure with its JSON name, in the report's order.
-    pub fn named(&self) -> [(&'static str, Option<f64>); 22] {
+    pub fn named(&self) -> [(&'static str, Option<f64>); 23] {
         [
             ("dc_v", Some(self.dc_v)),
             ("max_v", Some(self.max_v)),
@@ -102,6 +107,7 @@ impl Figures {
             ("diode_rms_a", Some(self.diode_rms_a)),
             ("diode_piv_v", Some(self.diode_piv_v)),
             ("winding_rms_a", Some(self.winding_rms_a)),
+            ("winding_peak_a", Some(self.winding_peak_a)),
             ("winding_va", Some(self.winding_va)),
             ("cap_ripple_rms_a", Some(self.cap_ripple_rms_a)),
             ("conduction_deg", Some(self.conduction_deg)),
@@ -152,13 +158,14 @@ pub(super) fn figures(
         min_v: s.v_out_min,
         ripple_pp_v: (s.v_out_max - s.v_out_min).max(0.0),
         ripple_rms_v: ripple_rms,
-        ripple_hz: ripple_frequency(net.line_hz, &s.probes),
+        ripple_hz: ripple_frequency(net.line_hz, &s.probes, net.pulses()),
         load_a: mean(Integral::Load),
         diode_peak_a: s.i_diode_peak,
         diode_avg_a: mean(Integral::Diode),
         diode_rms_a: mean(Integral::DiodeSquare).max(0.0).sqrt(),
         diode_piv_v: s.v_reverse_max.max(0.0),
         winding_rms_a: winding_rms,
+        winding_peak_a: s.i_diode_peak,
         winding_va,
         cap_ripple_rms_a: mean(Integral::CapSquare).max(0.0).sqrt(),
         conduction_deg: 360.0 * s.conduction_fraction,
@@ -181,7 +188,7 @@ pub(super) fn figures(
 }
 
 /// The stronger of the line-frequency and twice-line components of the rail (hertz).
-fn ripple_frequency(line_hz: f64, probes: &[solver::Probe]) -> f64 {
+fn ripple_frequency(line_hz: f64, probes: &[solver::Probe], pulses: f64) -> f64 {
     let n = probes.len() as f64;
     // One DFT bin, the phasor turned by a fixed rotation each sample instead of a sine call.
     let amplitude = |k: f64| {
@@ -195,20 +202,35 @@ fn ripple_frequency(line_hz: f64, probes: &[solver::Probe]) -> f64 {
         }
         (re * re + im * im).sqrt()
     };
-    if amplitude(1.0) >= amplitude(2.0) {
-        line_hz
-    } else {
-        2.0 * line_hz
+    // The rail's ripple is at a multiple of the line frequency: once (half wave), twice
+    // (full wave, or a six-pulse bridge with a phase lost), three times (a three-pulse star)
+    // or six times (a six-pulse bridge). The network's own pulse count names it unless
+    // another of those bins is twice as strong (a leg open, a lost phase), so that a ripple
+    // filtered down to the solver's noise keeps its name.
+    let own = amplitude(pulses);
+    let mut best = (pulses, own);
+    for k in std::iter::once(1.0).chain(RIPPLE_HARMONICS) {
+        let a = amplitude(k);
+        if a > 2.0 * own && a > best.1 {
+            best = (k, a);
+        }
     }
+    best.0 * line_hz
 }
+
+/// The multiples of the line frequency a rectifier's ripple can have (see
+/// [`crate::supply::Topology::pulses_per_cycle`]).
+pub const RIPPLE_HARMONICS: [f64; 3] = [2.0, 3.0, 6.0];
 
 /// Switch-on at the crest into empty capacitors: only the path's resistance and the ESR limit
 /// the first pulse (amps).
 fn inrush(net: &Network) -> Option<f64> {
     let p = net.paths.first()?;
     let esr = net.reservoirs.first().map_or(0.0, |r| r.esr_ohms);
-    let ohms = p.ohms + p.series_ohms + esr;
-    let peak = p.emf_share * net.emf_rms_v * net.wave.crest();
+    // A phase of a three-phase bridge charges in series with another phase.
+    let phases_in_series = if net.is_coupled_bridge() { 2.0 } else { 1.0 };
+    let ohms = phases_in_series * p.ohms + p.series_ohms + esr;
+    let peak = net.source_peak(p);
     if !ohms.is_finite() {
         // A path open at its end (an open choke): nothing flows at switch-on either.
         return Some(0.0);
@@ -217,7 +239,7 @@ fn inrush(net: &Network) -> Option<f64> {
         // No capacitor: the first pulse is an ordinary one.
         let load_ohms = match net.load {
             LoadLaw::Resistance { ohms } => ohms,
-            LoadLaw::Current { .. } => 0.0,
+            LoadLaw::Current { .. } | LoadLaw::Power { .. } => 0.0,
         };
         if ohms + load_ohms <= 0.0 {
             return None;
@@ -226,7 +248,7 @@ fn inrush(net: &Network) -> Option<f64> {
     }
     // Inductance in the path (leakage, a choke input) bounds the first pulse too: an
     // undamped LC swing from the crest peaks at V / sqrt(L / C); the smaller bound holds.
-    let henries = p.leakage_h + p.choke.map_or(0.0, |c| c.at(0.0));
+    let henries = phases_in_series * p.leakage_h + p.choke.map_or(0.0, |c| c.at(0.0));
     let farads = net.reservoirs.first().map_or(0.0, |r| r.farads);
     let swing = (henries > 0.0 && farads > 0.0).then(|| peak / (henries / farads).sqrt());
     match (ohms > 0.0, swing) {

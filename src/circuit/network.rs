@@ -18,10 +18,23 @@ use super::solver::{EDGES, PeriodicCircuit, Probe, QUADRATURES};
 use super::waveform::MainsWave;
 use std::f64::consts::PI;
 
+mod three_phase;
+
+/// The winding's EMFs at one instant, volts: the whole secondary's (on three phases the
+/// line-to-line a-b), and each phase's to the star point (zero on one phase).
+#[derive(Debug, Clone, Copy)]
+struct Emfs {
+    e: f64,
+    ph: [f64; 3],
+}
+
 /// A blocked path's current (below its knee, or an overshoot below zero) returns to zero with a
 /// time constant of the mains period over this: fast enough to be gone before the next pulse,
 /// slow enough not to make the circuit stiff.
 const RELAX_PER_PERIOD: f64 = 50.0;
+
+/// Most charging paths a network has: a three-phase star's three phases.
+pub const MAX_PATHS: usize = 3;
 
 /// The knee current of an inductive path's diodes, as a share of what the winding's peak
 /// drives through the path's impedance (see `run`).
@@ -38,6 +51,14 @@ pub enum Polarity {
     Rectified,
     /// max(e(t), 0): a full-wave rectifier with one leg open.
     OneLegOpen,
+    /// The highest phase less the lowest: a six-pulse bridge whose phases carry no
+    /// inductance, so that the pair with the widest voltage takes the current at once.
+    SixPulse,
+    /// The highest phase: a three-pulse star whose phases carry no inductance.
+    ThreePulse,
+    /// One phase on its own (0, 1, 2 for a, b, c), its current a state: a star's phase, or a
+    /// bridge's phase whose inductance makes the phases share the current as they take over.
+    Phase(usize),
 }
 
 /// One charging path from the winding into a reservoir capacitor.
@@ -130,6 +151,14 @@ pub enum LoadLaw {
     Resistance {
         ohms: f64,
     },
+    /// Constant power (a converter): P / V above `cutoff_v`; from there down to 0.9 of it the
+    /// current falls in a straight line to zero, and stays zero below (its undervoltage stop,
+    /// made continuous: a stop with hysteresis would make the rail's steady state a hiccup
+    /// rather than a periodic state, and a current of P / V held to zero volts would run away).
+    Power {
+        watts: f64,
+        cutoff_v: f64,
+    },
 }
 
 /// Which winding current counts for the transformer's heating, and how one diode's reverse
@@ -145,14 +174,22 @@ pub enum Arrangement {
     /// A bridge on a center-tapped winding: each half feeds the + rail on one half cycle and
     /// the - rail on the other, so it carries a pulse every half cycle.
     SplitRail,
+    /// Six diodes on three phases; the winding current is phase a's.
+    ThreePhaseBridge,
+    /// Three diodes from a star's phases, its star point the return; phase a's current.
+    ThreePhaseStar,
 }
 
 /// A rectifier circuit ready for the steady-state solver.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Network {
     pub wave: MainsWave,
-    /// Whole-secondary EMF, RMS volts.
+    /// Whole-secondary EMF, RMS volts (line to line on three phases).
     pub emf_rms_v: f64,
+    /// 1, or 3 for a three-phase rectifier.
+    pub phases: u32,
+    /// Phase c lost (an open line or fuse): on three phases it feeds nothing.
+    pub lost_phase: bool,
     pub line_hz: f64,
     pub paths: Vec<Path>,
     pub reservoirs: Vec<Reservoir>,
@@ -165,8 +202,8 @@ pub struct Network {
     /// Each inductive path's scale (amps per volt, [`Network::path_scale`]) and knee current
     /// (amps, `KNEE_SHARE` of what the winding's peak drives through the path), worked out
     /// once by [`Network::with_path_figures`] rather than at every evaluation.
-    pub path_scales: [f64; 2],
-    pub path_knees_a: [f64; 2],
+    pub path_scales: [f64; MAX_PATHS],
+    pub path_knees_a: [f64; MAX_PATHS],
 }
 
 /// Node values of the network for given path currents (volts, amps).
@@ -192,6 +229,28 @@ impl LoadLaw {
                     amps * volts / knee_v
                 }
             }
+            LoadLaw::Power { watts, cutoff_v } => {
+                let stop_v = POWER_STOP_SHARE * cutoff_v;
+                if volts >= cutoff_v {
+                    watts / volts
+                } else if volts > stop_v {
+                    watts / cutoff_v * (volts - stop_v) / (cutoff_v - stop_v)
+                } else {
+                    0.0
+                }
+            }
+        }
+    }
+
+    /// Where the law has a corner, as one continuous function that changes sign at each
+    /// (volts; volts squared over volts for the power law's two corners).
+    fn corner(&self, volts: f64) -> f64 {
+        match *self {
+            LoadLaw::Resistance { .. } => f64::NAN,
+            LoadLaw::Current { knee_v, .. } => volts - knee_v,
+            LoadLaw::Power { cutoff_v, .. } => {
+                (volts - cutoff_v) * (volts - POWER_STOP_SHARE * cutoff_v) / cutoff_v
+            }
         }
     }
 
@@ -207,22 +266,86 @@ impl LoadLaw {
                     g * volts / (1.0 + g * ohms)
                 }
             }
+            LoadLaw::Power { watts, cutoff_v } => {
+                // P = i (V - R i): the smaller root keeps the rail above its stop.
+                let disc = volts * volts - 4.0 * ohms * watts;
+                if disc >= 0.0 {
+                    let i = 2.0 * watts / (volts + disc.sqrt());
+                    if volts - ohms * i >= cutoff_v {
+                        return i;
+                    }
+                }
+                let stop_v = POWER_STOP_SHARE * cutoff_v;
+                let g = watts / cutoff_v / (cutoff_v - stop_v);
+                (g * (volts - stop_v) / (1.0 + g * ohms)).max(0.0)
+            }
         }
     }
 }
 
+/// Where a constant-power load's current has fallen to zero, as a share of its cutoff.
+pub const POWER_STOP_SHARE: f64 = 0.9;
+
 impl Network {
-    fn emf(&self, t: f64) -> f64 {
-        self.emf_rms_v * self.wave.at(std::f64::consts::TAU * self.line_hz * t)
+    /// The winding's EMFs at `t` seconds: the whole secondary's, and on three phases each
+    /// phase's to the star point (the line-to-line RMS over sqrt 3, each phase a third of a
+    /// cycle behind the one before), with the whole secondary's then the line-to-line a-b.
+    fn emfs(&self, t: f64) -> Emfs {
+        let theta = std::f64::consts::TAU * self.line_hz * t;
+        if self.phases == 3 {
+            let amplitude = self.emf_rms_v / 3f64.sqrt();
+            let ph: [f64; 3] = std::array::from_fn(|k| {
+                amplitude * self.wave.at(theta - k as f64 * std::f64::consts::TAU / 3.0)
+            });
+            Emfs {
+                e: ph[0] - ph[1],
+                ph,
+            }
+        } else {
+            Emfs {
+                e: self.emf_rms_v * self.wave.at(theta),
+                ph: [0.0; 3],
+            }
+        }
     }
 
-    fn path_source(&self, p: &Path, e: f64) -> f64 {
-        let v = p.emf_share * e;
+    /// The phases that feed the rectifier (all three, or a and b with phase c lost).
+    fn live_phases(&self) -> &'static [usize] {
+        if self.lost_phase { &[0, 1] } else { &[0, 1, 2] }
+    }
+
+    /// The highest and the lowest live phase at an instant (their indices).
+    fn phase_extremes(&self, ph: &[f64; 3]) -> (usize, usize) {
+        let live = self.live_phases();
+        let mut hi = live[0];
+        let mut lo = live[0];
+        for &k in live {
+            if ph[k] > ph[hi] {
+                hi = k;
+            }
+            if ph[k] < ph[lo] {
+                lo = k;
+            }
+        }
+        (hi, lo)
+    }
+
+    fn path_source(&self, p: &Path, src: &Emfs) -> f64 {
+        let v = p.emf_share * src.e;
         match p.polarity {
             Polarity::Forward => v,
             Polarity::Inverted => -v,
             Polarity::Rectified => v.abs(),
             Polarity::OneLegOpen => v.max(0.0),
+            Polarity::SixPulse => {
+                let (hi, lo) = self.phase_extremes(&src.ph);
+                p.emf_share * (src.ph[hi] - src.ph[lo])
+            }
+            Polarity::ThreePulse => {
+                let (hi, _) = self.phase_extremes(&src.ph);
+                p.emf_share * src.ph[hi]
+            }
+            Polarity::Phase(k) => p.emf_share * src.ph[k],
         }
     }
 
@@ -298,6 +421,74 @@ impl Network {
         p.leakage_h + p.choke.map_or(0.0, |c| c.at(amps))
     }
 
+    /// Rectified pulses a mains cycle puts into the reservoir.
+    pub fn pulses(&self) -> f64 {
+        match self.arrangement {
+            Arrangement::ThreePhaseBridge => {
+                if self.lost_phase {
+                    2.0
+                } else {
+                    6.0
+                }
+            }
+            Arrangement::ThreePhaseStar => {
+                if self.lost_phase {
+                    1.0
+                } else {
+                    3.0
+                }
+            }
+            Arrangement::Direct
+            | Arrangement::Bridge
+            | Arrangement::CenterTap
+            | Arrangement::SplitRail => {
+                if self.paths[0].polarity == Polarity::Rectified {
+                    2.0
+                } else {
+                    1.0
+                }
+            }
+        }
+    }
+
+    /// The peak of a path's source, volts: its share of the whole secondary's peak, the
+    /// line-to-line peak for a bridge on three phases, a phase's for a star.
+    pub fn source_peak(&self, p: &Path) -> f64 {
+        let peak = self.emf_rms_v * self.wave.crest() * p.emf_share;
+        match p.polarity {
+            Polarity::Forward
+            | Polarity::Inverted
+            | Polarity::Rectified
+            | Polarity::OneLegOpen
+            | Polarity::SixPulse => peak,
+            Polarity::ThreePulse | Polarity::Phase(_) => match self.arrangement {
+                // A bridge's phase feeds the rail against another phase: the line-to-line.
+                Arrangement::ThreePhaseBridge => peak,
+                Arrangement::ThreePhaseStar
+                | Arrangement::Direct
+                | Arrangement::Bridge
+                | Arrangement::CenterTap
+                | Arrangement::SplitRail => peak / 3f64.sqrt(),
+            },
+        }
+    }
+
+    /// On three healthy phases, the pulses after which the circuit repeats itself with its
+    /// phases moved on by one (see `after_period`): six for a bridge, three for a star.
+    fn symmetric_phases(&self) -> Option<f64> {
+        if self.phases != 3 || self.lost_phase {
+            return None;
+        }
+        match self.arrangement {
+            Arrangement::ThreePhaseBridge => Some(6.0),
+            Arrangement::ThreePhaseStar => Some(3.0),
+            Arrangement::Direct
+            | Arrangement::Bridge
+            | Arrangement::CenterTap
+            | Arrangement::SplitRail => None,
+        }
+    }
+
     /// A doubler with both legs working: e(t + T/2) = -e(t) turns each capacitor's half cycle
     /// into the other's.
     fn is_symmetric_doubler(&self) -> bool {
@@ -309,9 +500,9 @@ impl Network {
     }
 
     /// A rectifier with no filter capacitor: the rail is wherever the diode and load agree.
-    fn unfiltered(&self, e: f64) -> Probe {
+    fn unfiltered(&self, src: &Emfs) -> Probe {
         let p = &self.paths[0];
-        let s = self.path_source(p, e);
+        let s = self.path_source(p, src);
         let ohms = p.ohms + p.series_ohms;
         let (i, v_out) = if s <= 0.0 || p.series_ohms.is_infinite() {
             (0.0, 0.0)
@@ -336,13 +527,14 @@ impl Network {
                         (i, i * r)
                     }
                 }
+                LoadLaw::Power { .. } => self.power_unfiltered(s, ohms, p.diodes),
             }
         };
         self.probe(
-            e,
+            src,
             &Flow {
-                path_i: [i, 0.0],
-                drops: [p.ohms * i, 0.0],
+                path_i: [i, 0.0, 0.0],
+                drops: [p.ohms * i, 0.0, 0.0],
                 cathode: v_out,
                 v_out,
                 v_cap: v_out,
@@ -356,8 +548,32 @@ impl Network {
         )
     }
 
+    /// A constant-power load straight on a rectifier: the rail where the diodes' current at
+    /// it equals P / V, found by bisection on the rail (the diodes' current falls and the
+    /// load's rises as the rail climbs, so there is one crossing above the load's stop), or
+    /// the stopped load's idle rail (amps, volts).
+    fn power_unfiltered(&self, s: f64, ohms: f64, diodes: u32) -> (f64, f64) {
+        let supplied = |v: f64| self.diode.string_current(s - v, ohms, diodes);
+        let idle = (s - self.diode.string_v(0.0, ohms, diodes)).max(0.0);
+        let (mut lo, mut hi) = (0.0, idle);
+        for _ in 0..60 {
+            let mid = 0.5 * (lo + hi);
+            if supplied(mid) > self.load.current_at(mid) {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        let v = 0.5 * (lo + hi);
+        (self.load.current_at(v), v)
+    }
+
     /// Assembles the probe from path currents and node values.
-    fn probe(&self, e: f64, flow: &Flow) -> Probe {
+    fn probe(&self, src: &Emfs, flow: &Flow) -> Probe {
+        if self.phases == 3 {
+            return self.three_phase_probe(src, flow);
+        }
+        let e = src.e;
         let first = &self.paths[0];
         let path_i = flow.path_i;
         let (i_diode, i_winding) = match first.polarity {
@@ -366,12 +582,18 @@ impl Network {
                 let mine = if e >= 0.0 { path_i[0] } else { 0.0 };
                 match self.arrangement {
                     Arrangement::CenterTap => (mine, mine),
-                    Arrangement::Direct | Arrangement::Bridge | Arrangement::SplitRail => {
-                        (mine, path_i[0] * e.signum())
-                    }
+                    Arrangement::Direct
+                    | Arrangement::Bridge
+                    | Arrangement::SplitRail
+                    | Arrangement::ThreePhaseBridge
+                    | Arrangement::ThreePhaseStar => (mine, path_i[0] * e.signum()),
                 }
             }
-            Polarity::Forward | Polarity::Inverted => (path_i[0], path_i[0] - path_i[1]),
+            Polarity::Forward
+            | Polarity::Inverted
+            | Polarity::SixPulse
+            | Polarity::ThreePulse
+            | Polarity::Phase(_) => (path_i[0], path_i[0] - path_i[1]),
         };
         let share = first.emf_share;
         // The whole secondary's terminal voltage, as an AC meter across it reads: the EMF less
@@ -379,7 +601,11 @@ impl Network {
         // center tap).
         let signed_drop = match first.polarity {
             Polarity::Rectified | Polarity::OneLegOpen => flow.drops[0] * e.signum(),
-            Polarity::Forward | Polarity::Inverted => flow.drops[0] - flow.drops[1],
+            Polarity::Forward
+            | Polarity::Inverted
+            | Polarity::SixPulse
+            | Polarity::ThreePulse
+            | Polarity::Phase(_) => flow.drops[0] - flow.drops[1],
         };
         // A center tap's conducting half drops its own share; the other half carries nothing,
         // but the primary's drop lowers both halves' EMF alike (a split rail's halves both
@@ -388,13 +614,19 @@ impl Network {
             Arrangement::CenterTap => {
                 let signed_i = match first.polarity {
                     Polarity::Rectified | Polarity::OneLegOpen => path_i[0] * e.signum(),
-                    Polarity::Forward | Polarity::Inverted => path_i[0] - path_i[1],
+                    Polarity::Forward
+                    | Polarity::Inverted
+                    | Polarity::SixPulse
+                    | Polarity::ThreePulse
+                    | Polarity::Phase(_) => path_i[0] - path_i[1],
                 };
                 e - signed_drop - first.reflected_ohms * signed_i * (1.0 / share - 1.0)
             }
-            Arrangement::Direct | Arrangement::Bridge | Arrangement::SplitRail => {
-                e - signed_drop / share
-            }
+            Arrangement::Direct
+            | Arrangement::Bridge
+            | Arrangement::SplitRail
+            | Arrangement::ThreePhaseBridge
+            | Arrangement::ThreePhaseStar => e - signed_drop / share,
         };
         // Where the diodes' cathodes meet: the reservoir's top, or a choke's input.
         let cathode = flow.cathode;
@@ -410,7 +642,9 @@ impl Network {
             Arrangement::SplitRail if e < 0.0 => cathode - share * e - flow.drops[0],
             // Cathode on the rail (or a reservoir's top), anode on the winding end, which
             // sits below the EMF by the drop of whatever current that winding carries.
-            Arrangement::Direct => cathode - share * e + (flow.drops[0] - flow.drops[1]),
+            Arrangement::Direct | Arrangement::ThreePhaseBridge | Arrangement::ThreePhaseStar => {
+                cathode - share * e + (flow.drops[0] - flow.drops[1])
+            }
             Arrangement::CenterTap | Arrangement::SplitRail => {
                 let own = if i_diode > 0.0 { flow.drops[0] } else { 0.0 };
                 cathode - share * e + own
@@ -435,14 +669,17 @@ impl Network {
     /// The circuit at `t` seconds with states `x`: fills their derivatives and, when asked,
     /// the probe; the switching functions are always filled.
     fn run(&self, t: f64, x: &[f64], dx: &mut [f64], want_probe: bool) -> Probe {
-        let e = self.emf(t);
+        let src = self.emfs(t);
         if self.reservoirs.is_empty() {
-            return self.unfiltered(e);
+            return self.unfiltered(&src);
+        }
+        if self.is_coupled_bridge() {
+            return self.run_coupled_bridge(&src, x, dx, want_probe);
         }
         let k = self.reservoirs.len();
-        let mut path_i = [0.0; 2];
+        let mut path_i = [0.0; MAX_PATHS];
         let mut charge = [0.0; 2];
-        let mut drops = [0.0; 2];
+        let mut drops = [0.0; MAX_PATHS];
         let mut cathode = f64::NAN;
         let mut v_source = f64::NEG_INFINITY;
         let mut edges = [f64::NAN; EDGES];
@@ -455,7 +692,7 @@ impl Network {
             let nodes = self.nodes(x, charge);
             let stack: f64 = nodes.terminal[..k].iter().sum();
             for (j, p) in self.paths.iter().enumerate() {
-                let s = self.path_source(p, e);
+                let s = self.path_source(p, &src);
                 let top = nodes.terminal[p.reservoir];
                 v_source = v_source.max(s + stack - top);
                 let i = path_i[j];
@@ -497,7 +734,7 @@ impl Network {
         } else {
             let base = self.nodes(x, [0.0; 2]);
             for (j, p) in self.paths.iter().enumerate() {
-                let s = self.path_source(p, e);
+                let s = self.path_source(p, &src);
                 let k = p.reservoir;
                 let others: f64 =
                     base.terminal[..self.reservoirs.len()].iter().sum::<f64>() - base.terminal[k];
@@ -538,9 +775,7 @@ impl Network {
                     (stack - s.ohms * nodes.i_out - x[k]) / choke.at(nodes.i_out);
             }
         }
-        if let LoadLaw::Current { knee_v, .. } = self.load {
-            edges[2] = nodes.v_out - knee_v;
-        }
+        edges[EDGES - 1] = self.load.corner(nodes.v_out);
         if !want_probe {
             return Probe {
                 edges,
@@ -552,7 +787,7 @@ impl Network {
         let i_choke = if self.second.is_some() {
             nodes.i_out
         } else {
-            path_i[0] + path_i[1]
+            path_i.iter().sum()
         };
         let i_cap = charge[0] - nodes.i_out;
         let i_out_cap = if self.second.is_some() {
@@ -561,7 +796,7 @@ impl Network {
             i_cap
         };
         let mut probe = self.probe(
-            e,
+            &src,
             &Flow {
                 path_i,
                 drops,
@@ -589,7 +824,7 @@ impl Network {
             return self;
         }
         let volts = self.volts_scale();
-        for (j, p) in self.paths.iter().enumerate().take(2) {
+        for (j, p) in self.paths.iter().enumerate().take(MAX_PATHS) {
             let scale = self.path_scale(p);
             self.path_scales[j] = scale;
             self.path_knees_a[j] = KNEE_SHARE * volts * scale;
@@ -610,8 +845,8 @@ impl Network {
 /// What the probe is assembled from: the paths' currents and their winding drops (resistive
 /// plus leakage), the node the diodes' cathodes meet, and the filter's values (volts, amps).
 struct Flow {
-    path_i: [f64; 2],
-    drops: [f64; 2],
+    path_i: [f64; MAX_PATHS],
+    drops: [f64; MAX_PATHS],
     cathode: f64,
     v_out: f64,
     v_cap: f64,
@@ -749,6 +984,8 @@ impl PeriodicCircuit for Network {
         let full_wave = self.paths.len() == 1 && self.paths[0].polarity == Polarity::Rectified;
         if full_wave || self.is_symmetric_doubler() {
             0.5 / self.line_hz
+        } else if let Some(pulses) = self.symmetric_phases() {
+            1.0 / (pulses * self.line_hz)
         } else {
             1.0 / self.line_hz
         }
@@ -762,6 +999,18 @@ impl PeriodicCircuit for Network {
                 x.swap(self.path_state(0), self.path_state(1));
             }
         }
+        // A sixth of a cycle on, each phase of a bridge carries what the one after it
+        // carried, reversed (e_a(t + T/6) = -e_b(t)); a third on, a star's phase carries
+        // what the one before it did (e_a(t + T/3) = e_c(t)).
+        if self.symmetric_phases().is_some() && self.paths.len() == 3 {
+            let s: [usize; 3] = std::array::from_fn(|j| self.path_state(j));
+            let (a, b, c) = (x[s[0]], x[s[1]], x[s[2]]);
+            if self.arrangement == Arrangement::ThreePhaseBridge {
+                (x[s[0]], x[s[1]], x[s[2]]) = (-c, -a, -b);
+            } else {
+                (x[s[0]], x[s[1]], x[s[2]]) = (b, c, a);
+            }
+        }
     }
 
     fn line_period_s(&self) -> f64 {
@@ -769,6 +1018,19 @@ impl PeriodicCircuit for Network {
     }
 
     fn volts_scale(&self) -> f64 {
+        if self.phases == 3 {
+            // A bridge's rail peaks near the line-to-line peak, a star's at a phase's.
+            let line_peak = self.emf_rms_v * self.wave.crest();
+            return match self.arrangement {
+                Arrangement::ThreePhaseStar => line_peak / 3f64.sqrt(),
+                Arrangement::ThreePhaseBridge
+                | Arrangement::Direct
+                | Arrangement::Bridge
+                | Arrangement::CenterTap
+                | Arrangement::SplitRail => line_peak,
+            }
+            .max(1e-3);
+        }
         let share: f64 = self.paths.iter().map(|p| p.emf_share).fold(0.0, f64::max);
         (self.emf_rms_v * self.wave.crest() * share * self.reservoirs.len().max(1) as f64).max(1e-3)
     }
@@ -784,11 +1046,7 @@ impl PeriodicCircuit for Network {
         if !farads.is_finite() {
             return peak;
         }
-        let pulses = if self.paths[0].polarity == Polarity::Rectified {
-            2.0
-        } else {
-            1.0
-        };
+        let pulses = self.pulses();
         let mut ripple = self.load.current_at(peak).abs() / (pulses * self.line_hz * farads);
         // A choke input's rail carries the strongest term of the rectified wave (2w: 8 Vm /
         // 3 pi peak to peak; w on half wave: Vm) divided by about (n w)^2 L C: the tolerance
@@ -800,7 +1058,13 @@ impl PeriodicCircuit for Network {
         let p = &self.paths[0];
         if let (Some(choke), Some(r)) = (p.choke, self.reservoirs.get(p.reservoir)) {
             let omega = pulses * std::f64::consts::TAU * self.line_hz;
-            let term = if pulses == 2.0 { 8.0 / (3.0 * PI) } else { 1.0 };
+            // Peak to peak, twice the strongest term's amplitude (six pulses: 0.11 of the
+            // peak, three: 0.41).
+            let term = if pulses >= 2.0 {
+                2.0 * super::paper::rectified_harmonic(pulses)
+            } else {
+                1.0
+            };
             let divided = (omega * omega * choke.at(0.0) * r.farads).max(1.0);
             ripple = ripple.min(term * peak / divided);
         }
@@ -808,15 +1072,36 @@ impl PeriodicCircuit for Network {
     }
 
     fn breakpoints_s(&self) -> Vec<f64> {
-        let Some(a) = self.wave.clip_phase() else {
-            return Vec::new();
-        };
         let period = 1.0 / self.line_hz;
         let tau = std::f64::consts::TAU;
-        [a, PI - a, PI + a, tau - a]
+        // Three phases: where two phases cross (30 degrees on, every 60), the highest or the
+        // lowest phase changes and the rectified wave has a corner.
+        let crossings = (0..6).map(|k| (30.0 + 60.0 * k as f64) / 360.0 * period);
+        let Some(a) = self.wave.clip_phase() else {
+            return if self.phases == 3 {
+                crossings.collect()
+            } else {
+                Vec::new()
+            };
+        };
+        // Each phase's clipped corners, a third of a cycle apart on three phases.
+        let shifts: &[f64] = if self.phases == 3 {
+            &[0.0, 1.0 / 3.0, 2.0 / 3.0]
+        } else {
+            &[0.0]
+        };
+        let mut out: Vec<f64> = shifts
             .iter()
-            .map(|phase| phase / tau * period)
-            .collect()
+            .flat_map(|shift| {
+                [a, PI - a, PI + a, tau - a]
+                    .map(|phase| (phase / tau + shift).rem_euclid(1.0) * period)
+            })
+            .collect();
+        if self.phases == 3 {
+            out.extend(crossings);
+        }
+        out.sort_by(f64::total_cmp);
+        out
     }
 
     fn evaluate(&self, t: f64, x: &[f64], dx: &mut [f64]) -> Probe {
@@ -833,7 +1118,7 @@ impl PeriodicCircuit for Network {
         // resistance over the conduction angle 2 phi, n pulses a period, averages
         // n E (sin phi - phi cos phi) / (pi R). Matching it to the load gives phi; half the
         // paper ripple below that is where a period starts.
-        let peak = self.emf_rms_v * self.wave.crest();
+
         let mut working = 0.0;
         let stacked = self.reservoirs.len() as f64;
         for (i, r) in self.reservoirs.iter().enumerate() {
@@ -842,12 +1127,8 @@ impl PeriodicCircuit for Network {
                 .iter()
                 .find(|p| p.reservoir == i)
                 .unwrap_or(&self.paths[0]);
-            let e = (p.emf_share * peak - p.diodes as f64 * 0.75).max(0.0);
-            let pulses = if p.polarity == Polarity::Rectified {
-                2.0
-            } else {
-                1.0
-            };
+            let e = (self.source_peak(p) - p.diodes as f64 * 0.75).max(0.0);
+            let pulses = self.pulses();
             let ohms = (p.ohms + r.esr_ohms).max(self.min_path_ohms).max(1e-9);
             let charging = |phi: f64| pulses * e * (phi.sin() - phi * phi.cos()) / (PI * ohms);
             let (mut lo, mut hi) = (0.0f64, PI / 2.0);
@@ -876,9 +1157,12 @@ impl PeriodicCircuit for Network {
             // A choke input above its critical inductance: the rail is the rectified wave's
             // average less the resistive and diode drops, the choke carrying the load.
             let p = &self.paths[0];
-            let e = p.emf_share * peak;
-            let average = if p.polarity == Polarity::Rectified {
-                2.0 * e / PI
+            let e = self.source_peak(p);
+            // The rectified sine's average over its peak: 2 / pi on two pulses, and n / pi
+            // sin(pi / n) on n of them (3 sqrt 3 / 2 pi and 3 / pi of the line-to-line peak).
+            let pulses = self.pulses();
+            let average = if pulses >= 2.0 {
+                e * pulses / PI * (PI / pulses).sin()
             } else {
                 e / PI
             };
@@ -888,7 +1172,16 @@ impl PeriodicCircuit for Network {
                 v = (average - (p.ohms + p.series_ohms) * i - p.diodes as f64 * 0.75).max(0.0);
             }
             x[0] = v;
-            x[self.path_state(0)] = self.load.current_at(v);
+            if self.is_coupled_bridge() {
+                // At the period's start phase a crosses zero: c is the highest phase (or a,
+                // with c lost) and carries the load through its upper diode; b returns it.
+                let i = self.load.current_at(v);
+                let upper = if self.paths.len() == 3 { 2 } else { 0 };
+                x[self.path_state(upper)] = i;
+                x[self.path_state(1)] = -i;
+            } else {
+                x[self.path_state(0)] = self.load.current_at(v);
+            }
         }
     }
 }

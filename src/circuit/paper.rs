@@ -56,10 +56,25 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
         crate::supply::DiodeSpec::Junction { .. } => 0.7,
     };
     let secondary_peak = supply.mains.vrms / winding.ratio * supply.mains.crest();
-    let (share, diodes) = match topology {
-        Topology::HalfWave | Topology::Doubler => (1.0, 1.0),
-        Topology::CenterTap | Topology::SplitRail => (0.5, 1.0),
-        Topology::Bridge => (1.0, 2.0),
+    // Three phases: the secondary's peak is the line-to-line one, a star's rail a phase's.
+    let (share, diodes) = (topology.peak_share(), topology.diodes_to_peak());
+    let share = match topology {
+        Topology::Doubler => 1.0,
+        Topology::HalfWave
+        | Topology::CenterTap
+        | Topology::SplitRail
+        | Topology::Bridge
+        | Topology::ThreePhaseBridge
+        | Topology::ThreePhaseStar => share,
+    };
+    let diodes = match topology {
+        Topology::Doubler => 1.0,
+        Topology::HalfWave
+        | Topology::CenterTap
+        | Topology::SplitRail
+        | Topology::Bridge
+        | Topology::ThreePhaseBridge
+        | Topology::ThreePhaseStar => diodes,
     };
     let mut working = (share * secondary_peak - diodes * drop).max(0.0);
     if topology == Topology::Doubler {
@@ -81,11 +96,7 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
         (FilterKind::Lc, Some(uf)) => {
             let c = uf * 1e-6;
             let choke = super::choke_of(f);
-            let (average, term) = if pulses == 2.0 {
-                (2.0 / PI, 4.0 / (3.0 * PI))
-            } else {
-                (1.0 / PI, 0.5)
-            };
+            let (average, term) = (rectified_average(pulses), rectified_harmonic(pulses));
             let mut dc = working * average;
             let mut i = load_at(dc);
             for _ in 0..20 {
@@ -128,7 +139,7 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
             }
         }
         _ => {
-            let dc = working * if pulses == 2.0 { 2.0 / PI } else { 1.0 / PI };
+            let dc = working * rectified_average(pulses);
             (dc, working, load_at(dc))
         }
     };
@@ -153,6 +164,28 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
         diode_drop_v: drop,
         not_applicable,
     })
+}
+
+/// The average of an n-pulse rectified sine over its peak: n / pi sin(pi / n) for n >= 2
+/// (2 / pi full wave, 3 sqrt 3 / 2 pi three-pulse, 3 / pi six-pulse: the textbook's 1.17 V
+/// phase and 1.35 V line-to-line), 1 / pi for one pulse.
+pub fn rectified_average(pulses: f64) -> f64 {
+    if pulses >= 2.0 {
+        pulses / PI * (PI / pulses).sin()
+    } else {
+        1.0 / PI
+    }
+}
+
+/// The amplitude of an n-pulse rectified sine's strongest ripple term (at n times the line
+/// frequency) over its peak: the average times 2 / (n^2 - 1) (4 / 3 pi on full wave), and
+/// one half on half wave (the fundamental's), from the Fourier series of the rectified sine.
+pub fn rectified_harmonic(pulses: f64) -> f64 {
+    if pulses >= 2.0 {
+        rectified_average(pulses) * 2.0 / (pulses * pulses - 1.0)
+    } else {
+        0.5
+    }
 }
 
 /// Why the solved figures differ from the paper estimate, in words with the sizes involved.

@@ -15,8 +15,9 @@
 pub const MAX_STATES: usize = 6;
 /// Running integrals a circuit may ask of the final pass ([`PeriodicCircuit::integrands`]).
 pub const QUADRATURES: usize = 11;
-/// Switching functions a circuit may report: two charging paths and the load's knee.
-pub const EDGES: usize = 3;
+/// Switching functions a circuit may report: three charging paths (a star's phases) and the
+/// load's knee.
+pub const EDGES: usize = 4;
 const WIDTH: usize = MAX_STATES + QUADRATURES;
 
 type Vector = [f64; WIDTH];

@@ -31,6 +31,10 @@ pub enum WindingSource {
     Measured,
     /// Worked out from the nameplate's regulation and VA rating.
     Nameplate,
+    /// No transformer: the rectifier runs straight off the line, whose resistance is the
+    /// file's `[line] ohms`, or, left out, a range from the wiring rules' usual drops (see
+    /// [`Supply::off_line_winding`]), the low and high ends in ohms per phase.
+    Line { assumed: Option<(f64, f64)> },
     /// Not stated: sized for the load (see [`Supply::assumed_winding`]).
     Assumed {
         /// The rating the transformer is taken to have, volt-amperes.
@@ -65,6 +69,17 @@ fn regulation_from_rating(rated_va: f64) -> f64 {
 }
 
 impl Supply {
+    /// The rail's peak with ideal diodes and windings at nominal mains, volts: the whole
+    /// secondary's peak times the topology's share (a doubler's twice it).
+    pub fn ideal_peak_v(&self) -> f64 {
+        let ratio = if self.transformer.is_absent() {
+            1.0
+        } else {
+            self.resistive_winding().map_or(1.0, |w| w.ratio)
+        };
+        self.ideal_peak_v_at(ratio)
+    }
+
     /// Turns the transformer section into a turns ratio and resistances (volts, ohms).
     ///
     /// Nameplate form: no-load secondary = `secondary_vrms * (1 + regulation_pct/100)`; without
@@ -77,6 +92,111 @@ impl Supply {
     /// the secondary; the test's R = W/I^2 is then the winding resistance unless ohms are
     /// measured).
     pub fn winding(&self) -> Result<WindingModel, SupplyError> {
+        let mut model = if self.transformer.is_absent() {
+            self.off_line_winding()
+        } else {
+            self.transformer_winding()?
+        };
+        // The line, or a line reactor, is on the primary side: its resistance adds to the
+        // primary's and its inductance, over the ratio squared, to the leakage.
+        if let Some(line) = &self.line {
+            if let Some(ohms) = line.ohms {
+                LINE_OHMS.check(ohms)?;
+                if !self.transformer.is_absent() {
+                    model.primary_ohms += ohms;
+                }
+            }
+            let henries = self.henries_of(line)?;
+            model.leakage_h += henries / (model.ratio * model.ratio);
+        }
+        Ok(model)
+    }
+
+    /// The line's inductance as stated (0 without one, or for a file that fails its checks),
+    /// henries.
+    pub fn line_henries(&self) -> f64 {
+        self.line
+            .as_ref()
+            .and_then(|l| self.henries_of(l).ok())
+            .unwrap_or(0.0)
+    }
+
+    /// The line's (or its reactor's) inductance, henries: `mh`, or `reactor_pct` of the
+    /// phase voltage over `reactor_rated_a` as a reactance at the mains frequency.
+    fn henries_of(&self, line: &Line) -> Result<f64, SupplyError> {
+        match (line.mh, line.reactor_pct, line.reactor_rated_a) {
+            (Some(_), Some(_), _) => Err(SupplyError::out_of_range(
+                "line.mh",
+                "given with reactor_pct",
+                "one of mh and reactor_pct (with reactor_rated_a): each gives the inductance",
+            )),
+            (Some(mh), None, _) => {
+                LINE_MH.check(mh)?;
+                Ok(mh * 1e-3)
+            }
+            (None, Some(pct), Some(amps)) => {
+                REACTOR_PCT.check(pct)?;
+                REACTOR_RATED_A.check(amps)?;
+                let phase_v = self.mains.vrms / (self.mains.phases as f64).sqrt();
+                let omega = std::f64::consts::TAU * self.mains.hz;
+                Ok(pct / 100.0 * phase_v / amps / omega)
+            }
+            (None, Some(_), None) => Err(SupplyError::Missing {
+                key: "line.reactor_rated_a",
+                why: "a reactor's percent impedance is stated at its rated current",
+                line: None,
+            }),
+            (None, None, _) => Ok(0.0),
+        }
+    }
+
+    /// A rectifier straight off the line: ratio 1, the line's resistance per phase (the
+    /// whole loop on one phase) in place of the winding's. Left out, it is taken from the
+    /// load: a drop of 0.5-5 % of the phase voltage at the load's DC current (wiring is sized
+    /// for a few percent of drop; memory of the usual 3-5 % limits of wiring rules), its
+    /// middle on a log scale the nominal.
+    pub fn off_line_winding(&self) -> WindingModel {
+        let stated = self.line.as_ref().and_then(|l| l.ohms);
+        let (ohms, assumed) = match stated {
+            Some(ohms) => (ohms, None),
+            None => {
+                let phase_v = self.mains.vrms / (self.mains.phases as f64).sqrt();
+                let amps = self.rough_load_amps(self.ideal_peak_v_at(1.0)).max(1e-6);
+                let low = 0.005 * phase_v / amps;
+                let high = 0.05 * phase_v / amps;
+                ((low * high).sqrt(), Some((low, high)))
+            }
+        };
+        WindingModel {
+            ratio: 1.0,
+            secondary_ohms: ohms,
+            primary_ohms: 0.0,
+            assumed_regulation_pct: None,
+            source: WindingSource::Line { assumed },
+            leakage_h: 0.0,
+        }
+    }
+
+    /// The rail's ideal peak at a turns ratio, volts (see [`Supply::ideal_peak_v`]).
+    fn ideal_peak_v_at(&self, ratio: f64) -> f64 {
+        self.mains.vrms / ratio * self.mains.crest() * self.rectifier.topology.peak_share()
+    }
+
+    /// The load's DC current at a rough rail, amps: its current, a regulator's output over
+    /// the load resistance, the rail over it, or its watts over the rail.
+    fn rough_load_amps(&self, rail_v: f64) -> f64 {
+        let l = &self.load;
+        match (&self.regulator, l.amps, l.ohms, l.watts) {
+            (_, Some(a), _, _) => a,
+            (Some(reg), None, Some(r), _) => reg.output_v / r,
+            (None, None, Some(r), _) => rail_v / r,
+            (_, None, None, Some(w)) => w / rail_v.max(1e-3),
+            _ => 0.0,
+        }
+    }
+
+    /// The transformer's turns ratio, resistances and leakage (see [`Supply::winding`]).
+    fn transformer_winding(&self) -> Result<WindingModel, SupplyError> {
         let mut model = self.resistive_winding()?;
         let t = &self.transformer;
         let given = [
@@ -245,12 +365,7 @@ impl Supply {
         let (share, diodes) = (topology.peak_share(), topology.diodes_to_peak());
         // A rough rail: the peak less about 0.8 V a silicon diode (practice).
         let rail_v = (share * secondary_v * std::f64::consts::SQRT_2 - 0.8 * diodes).max(0.1);
-        let amps = match (&self.regulator, self.load.amps, self.load.ohms) {
-            (_, Some(a), _) => a,
-            (Some(reg), None, Some(r)) => reg.output_v / r,
-            (None, None, Some(r)) => rail_v / r,
-            _ => 0.0,
-        };
+        let amps = self.rough_load_amps(rail_v);
         let rated_va = (topology.va_per_dc_watt() * rail_v * amps).max(1.0);
         let ohms = |reg_pct: f64, va: f64| reg_pct / 100.0 * secondary_v * secondary_v / va;
         let low_ohms = ohms(ASSUMED_REGULATION_PCT.0, ASSUMED_OVERSIZE * rated_va);

@@ -34,6 +34,8 @@ pub fn fault_words(fault: Fault) -> &'static str {
         Fault::NoOutput => "no output",
         Fault::ChokeShorted => "choke shorted (its inductance gone)",
         Fault::ChokeOpen => "choke open",
+        Fault::PhaseLost => "a phase lost (a blown fuse or an open line)",
+        Fault::ReactorShorted => "line reactor shorted (its inductance gone)",
     }
 }
 
@@ -90,6 +92,8 @@ pub fn estimate_words(h: &Hypothesis, supply: &Supply) -> Option<String> {
         (Fault::NoOutput, _) => "the rail is dead".into(),
         (Fault::ChokeShorted, _) => crate::diagnose::choke_shorted_words(supply).into(),
         (Fault::ChokeOpen, _) => crate::diagnose::CHOKE_OPEN_WORDS.into(),
+        (Fault::PhaseLost, _) => crate::diagnose::PHASE_LOST_WORDS.into(),
+        (Fault::ReactorShorted, _) => crate::diagnose::REACTOR_SHORTED_WORDS.into(),
         (_, Some((key, v))) if !key.is_empty() => format!("{key} about {}", format_number(v)),
         _ => return None,
     };

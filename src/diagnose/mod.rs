@@ -45,10 +45,15 @@ pub enum ReadingError {
     )]
     RippleAboveDc { ripple: f64, dc: f64 },
     #[error(
-        "ripple frequency {got} Hz fits neither the line ({line} Hz) nor twice it ({double} Hz): \
-         re-measure with the scope triggered on the rail"
+        "ripple frequency {got} Hz fits none of the line's multiples a rectifier shows \
+         ({line} Hz times 1, 2, 3 or 6: {allowed}): re-measure with the scope triggered on \
+         the rail"
     )]
-    Frequency { got: f64, line: f64, double: f64 },
+    Frequency {
+        got: f64,
+        line: f64,
+        allowed: String,
+    },
     #[error(
         "give at least one reading of the rail: its DC, ripple peak to peak or RMS, or ripple \
          frequency (--dc, --ripple-pp, --ripple-rms, --ripple-hz)"
@@ -93,12 +98,18 @@ impl Readings {
             return Err(ReadingError::RippleAboveDc { ripple: rms, dc });
         }
         if let Some(hz) = self.ripple_hz {
+            // The line itself and the multiples a rectifier's ripple can have (a six-pulse
+            // bridge shows 6f, 2f with a phase lost; a three-pulse star 3f).
+            let multiples = std::iter::once(1.0).chain(crate::circuit::RIPPLE_HARMONICS);
             let near = |f: f64| (hz - f).abs() <= 0.1 * f;
-            if !(near(line_hz) || near(2.0 * line_hz)) {
+            if !multiples.clone().any(|k| near(k * line_hz)) {
                 return Err(ReadingError::Frequency {
                     got: hz,
                     line: line_hz,
-                    double: 2.0 * line_hz,
+                    allowed: multiples
+                        .map(|k| format!("{} Hz", crate::units::format_number(k * line_hz)))
+                        .collect::<Vec<_>>()
+                        .join(", "),
                 });
             }
         }
@@ -146,10 +157,15 @@ pub enum Fault {
     NoOutput,
     ChokeShorted,
     ChokeOpen,
+    /// One phase of a three-phase supply lost (a blown fuse, an open line): a six-pulse rail
+    /// ripples at twice the line frequency, deeper.
+    PhaseLost,
+    /// The line reactor (or DC link choke's line side) shorted: its inductance gone.
+    ReactorShorted,
 }
 
 impl Fault {
-    pub const ALL: [Fault; 14] = [
+    pub const ALL: [Fault; 16] = [
         Fault::Healthy,
         Fault::CapacitanceLow,
         Fault::EsrHigh,
@@ -164,6 +180,8 @@ impl Fault {
         Fault::NoOutput,
         Fault::ChokeShorted,
         Fault::ChokeOpen,
+        Fault::PhaseLost,
+        Fault::ReactorShorted,
     ];
 
     /// The name used in JSON and on screen.
@@ -183,6 +201,8 @@ impl Fault {
             Fault::NoOutput => "no-output",
             Fault::ChokeShorted => "choke-shorted",
             Fault::ChokeOpen => "choke-open",
+            Fault::PhaseLost => "phase-lost",
+            Fault::ReactorShorted => "reactor-shorted",
         }
     }
 
@@ -200,7 +220,9 @@ impl Fault {
             | Fault::RegulatorDropout
             | Fault::NoOutput
             | Fault::ChokeShorted
-            | Fault::ChokeOpen => &[],
+            | Fault::ChokeOpen
+            | Fault::PhaseLost
+            | Fault::ReactorShorted => &[],
         }
     }
 
@@ -239,6 +261,14 @@ impl Fault {
             Fault::ChokeOpen => {
                 "power off and discharge; measure the choke's resistance (an open reads no \
                  continuity) and its leads and joints"
+            }
+            Fault::PhaseLost => {
+                "read the three line voltages at the rectifier's input and check each phase's \
+                 fuse; then test the bridge's diodes, power off and the bus discharged"
+            }
+            Fault::ReactorShorted => {
+                "power off and discharge; measure the reactor's inductance out of circuit and \
+                 look for a bridge across its terminals"
             }
         }
     }
@@ -350,12 +380,17 @@ fn conditions(fault: Fault, x: f64, base: &Conditions, supply: &Supply) -> Condi
                     (Some(a), _, _) => LoadOverride::Amps(a * x),
                     (None, Some(r), Some(_)) => LoadOverride::Ohms(r / x),
                     (None, Some(r), None) => LoadOverride::Ohms(r / x),
+                    (None, None, _) if supply.load.watts.is_some() => {
+                        LoadOverride::Watts(supply.load.watts.unwrap_or(0.0) * x)
+                    }
                     _ => LoadOverride::Amps(0.0),
                 },
             )
         }
         Fault::ChokeShorted => c.choke_shorted = true,
         Fault::ChokeOpen => c.choke_open = true,
+        Fault::PhaseLost => c.phase_lost = true,
+        Fault::ReactorShorted => c.reactor_shorted = true,
         Fault::Healthy | Fault::RegulatorDropout | Fault::NoOutput => {}
     }
     c
@@ -394,7 +429,9 @@ fn search_range(fault: Fault, supply: &Supply, mains_known: bool) -> Option<(f64
         | Fault::RegulatorDropout
         | Fault::NoOutput
         | Fault::ChokeShorted
-        | Fault::ChokeOpen => None,
+        | Fault::ChokeOpen
+        | Fault::PhaseLost
+        | Fault::ReactorShorted => None,
     }
 }
 
@@ -554,11 +591,16 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
     let full_wave = supply.rectifier.topology.is_full_wave();
     let filtered = supply.filter.kind != FilterKind::None;
     let choke = supply.filter.kind.has_choke();
+    let three_phase = supply.mains.phases == 3;
+    let reactor = supply.line_henries() > 0.0;
     let mut hyps: Vec<Hypothesis> = Vec::new();
     for fault in Fault::ALL {
         let applicable = match fault {
             Fault::CapacitanceLow | Fault::EsrHigh | Fault::CapacitorOpen => filtered,
-            Fault::RectifierLegOpen => full_wave,
+            // A three-phase leg open is a phase lost to the rail (see PhaseLost).
+            Fault::RectifierLegOpen => full_wave && !three_phase,
+            Fault::PhaseLost => three_phase,
+            Fault::ReactorShorted => reactor,
             Fault::MainsLow | Fault::MainsHigh => true,
             Fault::RegulatorDropout => supply.regulator.is_some(),
             Fault::ChokeShorted | Fault::ChokeOpen => choke,
@@ -627,7 +669,9 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             | Fault::LoadHeavy
             | Fault::LoadLight
             | Fault::ChokeShorted
-            | Fault::ChokeOpen => match search_range(fault, supply, mains_known) {
+            | Fault::ChokeOpen
+            | Fault::PhaseLost
+            | Fault::ReactorShorted => match search_range(fault, supply, mains_known) {
                 Some((lo, hi)) if lo < hi => {
                     let (x, chi2) = fit(lo, hi, |x| {
                         judged(fault, conditions(fault, x, &base, supply))
@@ -678,7 +722,9 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
                             | Fault::RegulatorDropout
                             | Fault::NoOutput
                             | Fault::ChokeShorted
-                            | Fault::ChokeOpen => false,
+                            | Fault::ChokeOpen
+                            | Fault::PhaseLost
+                            | Fault::ReactorShorted => false,
                         };
                         if !outside {
                             continue;
@@ -710,7 +756,9 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             | Fault::RegulatorDropout
             | Fault::NoOutput
             | Fault::ChokeShorted
-            | Fault::ChokeOpen => FAULT_PRIOR,
+            | Fault::ChokeOpen
+            | Fault::PhaseLost
+            | Fault::ReactorShorted => FAULT_PRIOR,
         };
         let penalty = implausibility(fault, estimate, supply);
         hyps.push(Hypothesis {
@@ -801,7 +849,9 @@ fn estimate_of(fault: Fault, x: f64, supply: &Supply, base: &Conditions) -> (&'s
         | Fault::RegulatorDropout
         | Fault::NoOutput
         | Fault::ChokeShorted
-        | Fault::ChokeOpen => ("", x),
+        | Fault::ChokeOpen
+        | Fault::PhaseLost
+        | Fault::ReactorShorted => ("", x),
     }
 }
 
@@ -827,7 +877,9 @@ fn implausibility(fault: Fault, estimate: Option<(&'static str, f64)>, supply: &
         | Fault::RegulatorDropout
         | Fault::NoOutput
         | Fault::ChokeShorted
-        | Fault::ChokeOpen => 0.0,
+        | Fault::ChokeOpen
+        | Fault::PhaseLost
+        | Fault::ReactorShorted => 0.0,
     }
 }
 
@@ -916,9 +968,18 @@ fn reason(h: &Hypothesis, supply: &Supply, ex: &[Expectation]) -> String {
         (Fault::NoOutput, _) => format!("the rail is dead ({off})"),
         (Fault::ChokeShorted, _) => format!("{} ({off})", choke_shorted_words(supply)),
         (Fault::ChokeOpen, _) => format!("{} ({off})", CHOKE_OPEN_WORDS),
+        (Fault::PhaseLost, _) => format!("{} ({off})", PHASE_LOST_WORDS),
+        (Fault::ReactorShorted, _) => format!("{} ({off})", REACTOR_SHORTED_WORDS),
         _ => off,
     }
 }
+
+/// What a lost phase does to a six-pulse rail, in words.
+pub const PHASE_LOST_WORDS: &str =
+    "two phases left feed the rail: it ripples at twice the line frequency, deeper and lower";
+/// What a shorted line reactor does, in words.
+pub const REACTOR_SHORTED_WORDS: &str =
+    "the reactor's inductance gone: the rail higher, the line's current peakier";
 
 /// The diagnosis as the command line's one-line JSON: name, verdict, readings with their
 /// windows, hypotheses best first with scores summing to 1.

@@ -69,8 +69,41 @@ pub fn supplies() -> Vec<(&'static str, String)> {
             "pump-house-3-backwash-actuator-rail",
             include_str!("../../examples/backwash-actuator-rail.toml").to_string(),
         ),
+        (
+            "low-lift-pump-drive-bus",
+            format!(
+                "{}{}",
+                include_str!("../../examples/pump-drive-bus.toml"),
+                DRIVE_VISITS
+            ),
+        ),
+        (
+            "workshop-bench-converter-front-end",
+            include_str!("../../examples/bench-converter-front-end.toml").to_string(),
+        ),
     ]
 }
+
+// Invented readings: the drive's bus at commissioning and after a storm tripped one fuse.
+const DRIVE_VISITS: &str = r#"
+[[visit]]
+date = 2025-05-06
+technician = "R. Okafor"
+mains_vrms = 402.0
+dc_v = 536.0
+ripple_pp_v = 16.0
+ripple_hz = 300.0
+notes = "Commissioning, pump at its duty point."
+
+[[visit]]
+date = 2026-08-19
+technician = "R. Okafor"
+mains_vrms = 399.0
+dc_v = 513.0
+ripple_pp_v = 48.0
+ripple_hz = 100.0
+notes = "Drive tripping on bus ripple after a storm; L3 fuse found open, replaced."
+"#;
 
 // Invented readings: the ripple grows as the 2200 uF can dries out, until it is replaced.
 const PUMP_HOUSE_VISITS: &str = r#"
@@ -239,5 +272,12 @@ mod tests {
         assert!(parsed.iter().any(|s| s.filter.choke_light_h.is_some()));
         assert!(parsed.iter().any(|s| s.transformer.impedance_pct.is_some()));
         assert!(parsed.iter().any(|s| s.transformer.short_test.is_some()));
+        // Issue 13's: a three-phase drive bus and a converter straight off the mains.
+        assert!(parsed.iter().any(|s| s.mains.phases == 3));
+        assert!(
+            parsed.iter().any(|s| s.transformer.is_absent()
+                && s.load.watts.is_some()
+                && s.mains.phases == 1)
+        );
     }
 }

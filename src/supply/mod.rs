@@ -31,6 +31,11 @@ pub struct Supply {
     #[serde(default)]
     pub notes: String,
     pub mains: Mains,
+    /// The line or a line reactor between the mains and the rectifier (`[line]`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub line: Option<Line>,
+    /// Left out (no `[transformer]` table), the rectifier runs straight off the line.
+    #[serde(default, skip_serializing_if = "Transformer::is_absent")]
     pub transformer: Transformer,
     pub rectifier: Rectifier,
     pub filter: Filter,
@@ -52,7 +57,10 @@ pub struct Supply {
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Mains {
-    /// Nominal RMS volts.
+    /// 1 (single-phase) or 3; with 3, `vrms` is the line-to-line voltage.
+    #[serde(default = "one_phase", skip_serializing_if = "is_one_phase")]
+    pub phases: u32,
+    /// Nominal RMS volts (line to line on three phases).
     pub vrms: f64,
     pub hz: f64,
     #[serde(default = "ten")]
@@ -77,7 +85,24 @@ impl Mains {
     }
 }
 
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+/// The series impedance between the mains and the rectifier: the line itself or a line
+/// reactor, per phase on three phases, the whole loop (line and neutral) on one. Give the
+/// reactor as `mh` or as its percent impedance at its rated current.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+pub struct Line {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub ohms: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub mh: Option<f64>,
+    /// A line reactor's percent impedance: its reactance is this share of the phase voltage
+    /// over `reactor_rated_a` at the mains frequency.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reactor_pct: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reactor_rated_a: Option<f64>,
+}
+
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 pub struct Transformer {
     /// Primary to whole-secondary turns ratio.
     #[serde(default, skip_serializing_if = "Option::is_none")]
@@ -114,6 +139,14 @@ pub struct Transformer {
     pub short_test: Option<ShortTest>,
 }
 
+impl Transformer {
+    /// Whether the file has no transformer at all (no table, or an empty one): the rectifier
+    /// then runs straight off the line.
+    pub fn is_absent(&self) -> bool {
+        *self == Transformer::default()
+    }
+}
+
 /// What a short-circuit test reads on the primary (volts RMS, amps RMS, watts): Z = V / I,
 /// R = W / I^2, X = sqrt(Z^2 - R^2), all on the primary side.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
@@ -131,15 +164,21 @@ pub enum Topology {
     Bridge,
     Doubler,
     SplitRail,
+    /// Six diodes on three phases: six pulses a cycle.
+    ThreePhaseBridge,
+    /// Three diodes from a star's phases to the rail, its star point the return: three pulses.
+    ThreePhaseStar,
 }
 
 impl Topology {
-    pub const ALL: [Topology; 5] = [
+    pub const ALL: [Topology; 7] = [
         Topology::HalfWave,
         Topology::CenterTap,
         Topology::Bridge,
         Topology::Doubler,
         Topology::SplitRail,
+        Topology::ThreePhaseBridge,
+        Topology::ThreePhaseStar,
     ];
 
     /// The word used in the supply file.
@@ -150,6 +189,20 @@ impl Topology {
             Topology::Bridge => "bridge",
             Topology::Doubler => "doubler",
             Topology::SplitRail => "split-rail",
+            Topology::ThreePhaseBridge => "three-phase-bridge",
+            Topology::ThreePhaseStar => "three-phase-star",
+        }
+    }
+
+    /// The mains phases it runs on.
+    pub fn phases(self) -> u32 {
+        match self {
+            Topology::HalfWave
+            | Topology::CenterTap
+            | Topology::Bridge
+            | Topology::Doubler
+            | Topology::SplitRail => 1,
+            Topology::ThreePhaseBridge | Topology::ThreePhaseStar => 3,
         }
     }
 
@@ -158,21 +211,34 @@ impl Topology {
         match self {
             Topology::HalfWave => 1,
             Topology::CenterTap | Topology::Bridge | Topology::Doubler | Topology::SplitRail => 2,
+            Topology::ThreePhaseStar => 3,
+            Topology::ThreePhaseBridge => 6,
         }
     }
 
-    /// Whether both half cycles feed the rail.
+    /// Whether both half cycles of every phase feed the rail, so that no winding carries DC
+    /// (a choke input then keeps its current flowing).
     pub fn is_full_wave(self) -> bool {
-        self.pulses_per_cycle() == 2
+        match self {
+            Topology::CenterTap
+            | Topology::Bridge
+            | Topology::Doubler
+            | Topology::SplitRail
+            | Topology::ThreePhaseBridge => true,
+            Topology::HalfWave | Topology::ThreePhaseStar => false,
+        }
     }
 
     /// The rail's peak as a multiple of the whole secondary's peak, before the drops: half of
-    /// it from a center tap (and each rail of a split rail), twice it from a doubler.
+    /// it from a center tap (and each rail of a split rail), twice it from a doubler. On three
+    /// phases the secondary's voltage is the line-to-line one: a bridge's rail peaks at it, a
+    /// star's at one phase's, 1 / sqrt 3 of it.
     pub fn peak_share(self) -> f64 {
         match self {
-            Topology::HalfWave | Topology::Bridge => 1.0,
+            Topology::HalfWave | Topology::Bridge | Topology::ThreePhaseBridge => 1.0,
             Topology::CenterTap | Topology::SplitRail => 0.5,
             Topology::Doubler => 2.0,
+            Topology::ThreePhaseStar => 1.0 / 3f64.sqrt(),
         }
     }
 
@@ -180,8 +246,11 @@ impl Topology {
     /// through one diode a half cycle, two over the cycle).
     pub fn diodes_to_peak(self) -> f64 {
         match self {
-            Topology::HalfWave | Topology::CenterTap | Topology::SplitRail => 1.0,
-            Topology::Bridge | Topology::Doubler => 2.0,
+            Topology::HalfWave
+            | Topology::CenterTap
+            | Topology::SplitRail
+            | Topology::ThreePhaseStar => 1.0,
+            Topology::Bridge | Topology::Doubler | Topology::ThreePhaseBridge => 2.0,
         }
     }
 
@@ -190,7 +259,12 @@ impl Topology {
     pub fn reservoirs(self) -> usize {
         match self {
             Topology::Doubler => 2,
-            Topology::HalfWave | Topology::CenterTap | Topology::Bridge | Topology::SplitRail => 1,
+            Topology::HalfWave
+            | Topology::CenterTap
+            | Topology::Bridge
+            | Topology::SplitRail
+            | Topology::ThreePhaseBridge
+            | Topology::ThreePhaseStar => 1,
         }
     }
 
@@ -199,9 +273,12 @@ impl Topology {
     pub fn needs_capacitor(self) -> bool {
         match self {
             Topology::Doubler => true,
-            Topology::HalfWave | Topology::CenterTap | Topology::Bridge | Topology::SplitRail => {
-                false
-            }
+            Topology::HalfWave
+            | Topology::CenterTap
+            | Topology::Bridge
+            | Topology::SplitRail
+            | Topology::ThreePhaseBridge
+            | Topology::ThreePhaseStar => false,
         }
     }
 
@@ -209,7 +286,11 @@ impl Topology {
     pub fn has_half_windings(self) -> bool {
         match self {
             Topology::CenterTap | Topology::SplitRail => true,
-            Topology::HalfWave | Topology::Bridge | Topology::Doubler => false,
+            Topology::HalfWave
+            | Topology::Bridge
+            | Topology::Doubler
+            | Topology::ThreePhaseBridge
+            | Topology::ThreePhaseStar => false,
         }
     }
 
@@ -217,19 +298,28 @@ impl Topology {
     pub fn rails(self) -> usize {
         match self {
             Topology::SplitRail => 2,
-            Topology::HalfWave | Topology::CenterTap | Topology::Bridge | Topology::Doubler => 1,
+            Topology::HalfWave
+            | Topology::CenterTap
+            | Topology::Bridge
+            | Topology::Doubler
+            | Topology::ThreePhaseBridge
+            | Topology::ThreePhaseStar => 1,
         }
     }
 
     /// Volt-amperes a transformer needs per watt of DC it feeds through a capacitor-input
     /// filter: the winding's RMS current runs well above the DC in short pulses (practice:
     /// about 1.8 for a bridge, 2.3 for a center tap, 3 for a half-wave or doubler, whose
-    /// winding carries DC or one-sided pulses).
+    /// winding carries DC or one-sided pulses; a six-pulse bridge's windings carry its
+    /// current more evenly, about 1.3, a three-pulse star's one-sided pulses about 2; memory of
+    /// the usual utilisation figures, raised for a capacitor input's peaky current).
     pub fn va_per_dc_watt(self) -> f64 {
         match self {
             Topology::Bridge | Topology::SplitRail => 1.8,
             Topology::CenterTap => 2.3,
             Topology::HalfWave | Topology::Doubler => 3.0,
+            Topology::ThreePhaseBridge => 1.3,
+            Topology::ThreePhaseStar => 2.0,
         }
     }
 
@@ -242,6 +332,8 @@ impl Topology {
             Topology::Bridge => 2,
             Topology::Doubler => 3,
             Topology::SplitRail => 4,
+            Topology::ThreePhaseBridge => 5,
+            Topology::ThreePhaseStar => 6,
         }
     }
 }
@@ -482,6 +574,13 @@ pub struct Load {
     pub min_ohms: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub max_ohms: Option<f64>,
+    /// A constant-power load (a converter behind the capacitor), watts: it draws P / V.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub watts: Option<f64>,
+    /// A constant-power load's undervoltage stop, volts: below it the converter's current
+    /// falls to zero over a tenth of it (left out: half the rail's ideal peak).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cutoff_v: Option<f64>,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
@@ -492,6 +591,12 @@ pub struct Regulator {
     pub rated_w: Option<f64>,
 }
 
+fn one_phase() -> u32 {
+    1
+}
+fn is_one_phase(phases: &u32) -> bool {
+    *phases == 1
+}
 fn ten() -> f64 {
     10.0
 }

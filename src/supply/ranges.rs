@@ -118,6 +118,34 @@ pub const MAINS_CREST: Range = range(
     "1.414 is a clean sine, 1.35-1.40 mains flattened by other rectifiers (practice); under \
      1.1 it is a square wave, which the clipped-sine model does not describe",
 );
+pub const LINE_OHMS: Range = range(
+    "line.ohms",
+    ZeroOr(1e-6),
+    1e3,
+    "ohms",
+    "0 is a stiff line; under a micro-ohm no line or reactor has; over 1 kohm is no mains",
+);
+pub const LINE_MH: Range = range(
+    "line.mh",
+    ZeroOr(1e-6),
+    1e4,
+    "mH",
+    "0 is no reactor; under a nanohenry is the wiring's own",
+);
+pub const REACTOR_PCT: Range = range(
+    "line.reactor_pct",
+    AtLeast(0.1),
+    20.0,
+    "%",
+    "line reactors and DC link chokes are 1-5 % (practice); over 20 % the drive would not run",
+);
+pub const REACTOR_RATED_A: Range = range(
+    "line.reactor_rated_a",
+    AtLeast(1e-3),
+    1e4,
+    "A",
+    "the current the reactor's percent impedance is stated at",
+);
 pub const CALIBRATION_WINDING: Range = range(
     "calibration.winding_factor",
     AtLeast(0.05),
@@ -369,6 +397,20 @@ pub const MIN_AMPS: Range = range("load.min_amps", ZeroOr(1e-9), 1e4, "A", AMPS_
 pub const MAX_AMPS: Range = range("load.max_amps", ZeroOr(1e-9), 1e4, "A", AMPS_WHY);
 pub const MIN_OHMS: Range = range("load.min_ohms", AtLeast(1e-3), 1e12, "ohms", OHMS_WHY);
 pub const MAX_OHMS: Range = range("load.max_ohms", AtLeast(1e-3), 1e12, "ohms", OHMS_WHY);
+pub const LOAD_WATTS: Range = range(
+    "load.watts",
+    ZeroOr(1e-3),
+    1e6,
+    "W",
+    "0 is no load; under a milliwatt a converter idles on its own leakage",
+);
+pub const CUTOFF_V: Range = range(
+    "load.cutoff_v",
+    AtLeast(0.1),
+    1e4,
+    "V",
+    "the converter's undervoltage stop; under 0.1 V it never stops and P / V would run away",
+);
 pub const OUTPUT_V: Range = range(
     "regulator.output_v",
     AtLeast(0.1),
@@ -415,6 +457,10 @@ pub const RANGES: &[Range] = &[
     MAINS_LOW_PCT,
     MAINS_HIGH_PCT,
     MAINS_CREST,
+    LINE_OHMS,
+    LINE_MH,
+    REACTOR_PCT,
+    REACTOR_RATED_A,
     RATIO,
     RATIO_PCT,
     PRIMARY_VRMS,
@@ -458,6 +504,8 @@ pub const RANGES: &[Range] = &[
     MAX_AMPS,
     MIN_OHMS,
     MAX_OHMS,
+    LOAD_WATTS,
+    CUTOFF_V,
     OUTPUT_V,
     DROPOUT_V,
     REGULATOR_RATED_W,

@@ -33,6 +33,34 @@ impl Supply {
         if let Some(c) = m.crest {
             MAINS_CREST.check(c)?;
         }
+        if m.phases != 1 && m.phases != 3 {
+            return Err(SupplyError::out_of_range(
+                "mains.phases",
+                m.phases.to_string(),
+                "1 (single-phase) or 3 (three-phase, vrms line to line)",
+            ));
+        }
+        let wanted = self.rectifier.topology.phases();
+        if m.phases != wanted {
+            return Err(SupplyError::out_of_range(
+                "rectifier.topology",
+                self.rectifier.topology.key(),
+                if wanted == 3 {
+                    "a single-phase topology (half-wave, center-tap, bridge, doubler, \
+                     split-rail) on mains.phases = 1; a three-phase one needs mains.phases = 3"
+                } else {
+                    "three-phase-bridge or three-phase-star on mains.phases = 3"
+                },
+            ));
+        }
+        if self.transformer.is_absent() && self.rectifier.topology.has_half_windings() {
+            return Err(SupplyError::out_of_range(
+                "rectifier.topology",
+                self.rectifier.topology.key(),
+                "a topology without a center tap when there is no [transformer] (the line has \
+                 no tap to return to)",
+            ));
+        }
         self.winding()?;
         if let Some(p) = self.transformer.ratio_pct {
             RATIO_PCT.check(p)?;
@@ -234,6 +262,50 @@ impl Supply {
     /// above the high end.
     fn validate_load(&self) -> Result<(), SupplyError> {
         let l = &self.load;
+        if let Some(w) = l.watts {
+            LOAD_WATTS.check(w)?;
+            if l.amps.is_some() || l.ohms.is_some() {
+                return Err(SupplyError::out_of_range(
+                    "load.watts",
+                    format_number(w),
+                    "left out with `amps` or `ohms`: give one kind of load",
+                ));
+            }
+            if self.regulator.is_some() {
+                return Err(SupplyError::out_of_range(
+                    "load.watts",
+                    format_number(w),
+                    "left out with a [regulator] (a regulator's load is its current or \
+                     resistance; a converter behind the capacitor is the constant-power load)",
+                ));
+            }
+            if let Some(v) = l.cutoff_v {
+                CUTOFF_V.check(v)?;
+            }
+            for (range, v) in [
+                (&MIN_AMPS, l.min_amps),
+                (&MAX_AMPS, l.max_amps),
+                (&MIN_OHMS, l.min_ohms),
+                (&MAX_OHMS, l.max_ohms),
+            ] {
+                if let Some(v) = v {
+                    return Err(SupplyError::out_of_range(
+                        range.key,
+                        format_number(v),
+                        "left out with `watts` (a constant-power load): its spread is the \
+                         worst case's own",
+                    ));
+                }
+            }
+            return Ok(());
+        }
+        if let Some(v) = l.cutoff_v {
+            return Err(SupplyError::out_of_range(
+                "load.cutoff_v",
+                format_number(v),
+                "only with `watts` (a constant-power load's undervoltage stop)",
+            ));
+        }
         let (range_kind, other_kind) = match (l.amps, l.ohms) {
             (Some(a), None) => {
                 LOAD_AMPS.check(a)?;
@@ -259,7 +331,8 @@ impl Supply {
             (None, None) => {
                 return Err(SupplyError::Missing {
                     key: "load.amps",
-                    why: "give the load as `amps` (constant current) or `ohms` (resistive)",
+                    why: "give the load as `amps` (constant current), `ohms` (resistive) or \
+                          `watts` (constant power)",
                     line: None,
                 });
             }

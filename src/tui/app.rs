@@ -1342,10 +1342,16 @@ fn is_working(solved: &Result<Solved, String>) -> bool {
     matches!(solved, Err(e) if e == WORKING)
 }
 
-/// A starting point for a new supply of `topology`: a 230 V, 50 Hz unit with round values.
+/// A starting point for a new supply of `topology`: a 230 V, 50 Hz unit with round values (a
+/// 400 V three-phase one for a three-phase topology).
 pub fn template(topology: Topology) -> Supply {
+    let mains = if topology.phases() == 3 {
+        "phases = 3\nvrms = 400.0"
+    } else {
+        "vrms = 230.0"
+    };
     let text = format!(
-        "format = 1\nname = \"New {} supply\"\nnotes = \"\"\n[mains]\nvrms = 230.0\nhz = 50.0\n\
+        "format = 1\nname = \"New {} supply\"\nnotes = \"\"\n[mains]\n{mains}\nhz = 50.0\n\
          [transformer]\nratio = 10.0\nsecondary_ohms = 1.0\n[rectifier]\ntopology = \"{}\"\n\
          [filter]\nkind = \"capacitor\"\nuf = 2200.0\nesr_ohms = 0.05\n[load]\namps = 0.2\n",
         topology.key(),

@@ -496,6 +496,13 @@ fn choose(
                 .copied()
                 .find(|t| t.key() == word)
                 .expect("a listed word");
+            // A three-phase rectifier needs three-phase mains and the reverse: the mains
+            // follow the choice (the voltage stays, to be confirmed as line to line).
+            let phases = out.rectifier.topology.phases();
+            if out.mains.phases != phases {
+                out.mains.phases = phases;
+                guesses.push("mains.vrms");
+            }
         }
         Choice::Diode => {
             out.rectifier.diode = match (word, &out.rectifier.diode) {

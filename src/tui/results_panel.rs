@@ -236,7 +236,8 @@ impl Widget for &ResultsPanel<'_> {
             .into_iter()
             .filter(|f| f.applies(&solved.nominal.figures))
         {
-            let (label, name, unit) = (figure.short(), figure.key(), figure.unit());
+            let label = figure.words(open.supply.transformer.is_absent()).1;
+            let (name, unit) = (figure.key(), figure.unit());
             let e = solved.worst.extent(figure);
             let last = match before {
                 // What-if: the change against the saved supply.

@@ -48,25 +48,49 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
         // Simpson's rule with every sample instant a node.
         let fine = SAMPLES;
         let h = period / fine as f64;
-        let mut acc = [0.0; QUADRATURES];
         for i in 0..=fine {
             let t = i as f64 * h;
             let p = c.evaluate(t, &[], &mut []);
-            let w = if i == 0 || i == fine {
-                1.0
-            } else if i % 2 == 1 {
-                4.0
-            } else {
-                2.0
-            };
-            for (a, v) in acc.iter_mut().zip(c.integrands(&p, &first)) {
-                *a += w * v * h / 3.0;
-            }
             extremes.push((t, p));
             if i < fine {
                 t_s.push(t);
                 probes.push(p);
             }
+        }
+        // The averages piece by piece between the circuit's breakpoints, where a current may
+        // jump (a three-phase diode taking over): Simpson's rule across a jump would miss a
+        // share of a sample's width. Each piece's ends are taken just inside it.
+        let mut edges: Vec<f64> = c
+            .breakpoints_s()
+            .into_iter()
+            .filter(|b| *b > 0.0 && *b < period)
+            .collect();
+        edges.insert(0, 0.0);
+        edges.push(period);
+        let mut acc = [0.0; QUADRATURES];
+        for w in edges.windows(2) {
+            let (a, b) = (w[0], w[1]);
+            if b - a <= 0.0 {
+                continue;
+            }
+            let inset = 1e-9 * period;
+            let pieces = (2 * ((b - a) / period * fine as f64 / 2.0).ceil() as usize).max(2);
+            let step = (b - a) / pieces as f64;
+            for i in 0..=pieces {
+                let t = (a + i as f64 * step).clamp(a + inset, b - inset);
+                let p = c.evaluate(t, &[], &mut []);
+                let weight = if i == 0 || i == pieces {
+                    1.0
+                } else if i % 2 == 1 {
+                    4.0
+                } else {
+                    2.0
+                };
+                for (acc, v) in acc.iter_mut().zip(c.integrands(&p, &first)) {
+                    *acc += weight * v * step / 3.0;
+                }
+            }
+            run.evaluations += pieces + 1;
         }
         y[..QUADRATURES].copy_from_slice(&acc);
         run.evaluations += fine + 1;

@@ -750,10 +750,13 @@ mod tests {
         let nan = f64::NAN;
         // Edge 0 from 1 to -1 crosses at 0.5; edge 2 from -3 to 1 crosses at 0.75.
         assert_eq!(
-            first_crossing(&[1.0, nan, -3.0], &[-1.0, nan, 1.0]),
+            first_crossing(&[1.0, nan, -3.0, nan], &[-1.0, nan, 1.0, nan]),
             Some(0.5)
         );
-        assert_eq!(first_crossing(&[1.0, nan, 2.0], &[0.5, nan, 1.0]), None);
+        assert_eq!(
+            first_crossing(&[1.0, nan, 2.0, nan], &[0.5, nan, 1.0, nan]),
+            None
+        );
     }
 
     #[test]

@@ -1,0 +1,362 @@
+//! Three-phase rectifiers: the probe of a star or a bridge whose phases take the current in
+//! turn, and a six-pulse bridge whose phases carry inductance (a line reactor, the line's own,
+//! or the transformer's leakage), where the outgoing and the incoming phase share the current
+//! while it moves from one to the other (commutation overlap).
+//!
+//! In that bridge each phase's current is a state. Its source's star point floats: whatever
+//! potential it takes, the phase currents add to zero. A phase conducts into the + rail
+//! through its upper diode, out of the - rail through its lower one, or not at all, held at
+//! zero as a blocked path is (see `run` in the parent module). With the conducting set known
+//! the circuit is linear in the currents' slopes and the star point's potential: one equation
+//! per conducting phase, L di/dt = EMF - R i - diode - rail + star point, and the currents'
+//! sum. A DC link choke between the bridge and its capacitor carries the upper phases' sum,
+//! so its voltage couples the upper phases' equations; the sums over the upper and the lower
+//! phases solve them in closed form.
+
+use super::{EDGES, Emfs, Flow, Network, Polarity, Probe, RELAX_PER_PERIOD};
+
+/// How a phase of an inductive bridge stands at an instant.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum Leg {
+    /// Through its upper diode into the + rail.
+    Upper,
+    /// Through its lower diode from the - rail.
+    Lower,
+    Blocked,
+}
+
+/// The linear solve of one conducting set: the star point's potential (volts, against the -
+/// rail) and the upper phases' summed slope (amps per second).
+#[derive(Debug, Clone, Copy)]
+struct Commutation {
+    star_v: f64,
+    upper_slope: f64,
+}
+
+impl Network {
+    /// Whether the network is a six-pulse bridge whose phases carry their own currents.
+    pub fn is_coupled_bridge(&self) -> bool {
+        self.phases == 3
+            && !self.reservoirs.is_empty()
+            && self
+                .paths
+                .iter()
+                .all(|p| matches!(p.polarity, Polarity::Phase(_)) && p.leakage_h > 0.0)
+            && self.arrangement == super::Arrangement::ThreePhaseBridge
+    }
+
+    /// The inductive six-pulse bridge at one instant (see the module's notes): fills the
+    /// derivatives of the capacitors and the phase currents.
+    pub(super) fn run_coupled_bridge(
+        &self,
+        src: &Emfs,
+        x: &[f64],
+        dx: &mut [f64],
+        want_probe: bool,
+    ) -> Probe {
+        let n = self.paths.len();
+        let k = self.reservoirs.len();
+        let raw: Vec<f64> = (0..n).map(|j| x[self.path_state(j)]).collect();
+        let source: Vec<f64> = self
+            .paths
+            .iter()
+            .map(|p| match p.polarity {
+                Polarity::Phase(ph) => p.emf_share * src.ph[ph],
+                Polarity::Forward
+                | Polarity::Inverted
+                | Polarity::Rectified
+                | Polarity::OneLegOpen
+                | Polarity::SixPulse
+                | Polarity::ThreePulse => 0.0,
+            })
+            .collect();
+        // The DC current is what the upper phases carry; the lower ones return it.
+        let i_dc: f64 = raw.iter().map(|i| i.max(0.0)).sum();
+        let nodes = self.nodes(x, [i_dc, 0.0]);
+        let top = nodes.terminal[..k].iter().sum::<f64>();
+        // A DC link choke (a choke input) sits between the bridge's + and the capacitor.
+        let first = &self.paths[0];
+        let dc_ohms = first.series_ohms;
+        let dc_h = first.choke.map_or(0.0, |c| c.at(i_dc));
+        let relax = self.line_hz * RELAX_PER_PERIOD;
+        let mut legs: Vec<Leg> = (0..n)
+            .map(|j| {
+                if raw[j] > self.path_knees_a[j] {
+                    Leg::Upper
+                } else if raw[j] < -self.path_knees_a[j] {
+                    Leg::Lower
+                } else {
+                    Leg::Blocked
+                }
+            })
+            .collect();
+        // The + rail at the bridge, before the choke's own voltage.
+        let plus_v = top + dc_ohms * i_dc;
+        let diode_v = |j: usize| {
+            let p = &self.paths[j];
+            self.diode.forward_v(raw[j].abs().max(self.path_knees_a[j])) * p.diodes as f64
+        };
+        // What drives phase j's current given the star point, less its inductance's share.
+        let drive = |j: usize, leg: Leg| -> f64 {
+            let p = &self.paths[j];
+            let resistive = p.ohms * raw[j];
+            match leg {
+                Leg::Upper => source[j] - resistive - diode_v(j) - plus_v,
+                Leg::Lower => source[j] - resistive + diode_v(j),
+                Leg::Blocked => 0.0,
+            }
+        };
+        let solve = |legs: &[Leg]| -> Option<Commutation> {
+            let (mut g_up, mut a_up, mut g_down, mut a_down, mut blocked) =
+                (0.0, 0.0, 0.0, 0.0, 0.0);
+            for j in 0..n {
+                let g = 1.0 / self.paths[j].leakage_h;
+                match legs[j] {
+                    Leg::Upper => {
+                        g_up += g;
+                        a_up += g * drive(j, Leg::Upper);
+                    }
+                    Leg::Lower => {
+                        g_down += g;
+                        a_down += g * drive(j, Leg::Lower);
+                    }
+                    Leg::Blocked => blocked += -raw[j] * relax,
+                }
+            }
+            let shared = 1.0 + g_up * dc_h;
+            let g = g_up / shared + g_down;
+            if g <= 0.0 || (g_up == 0.0 && g_down == 0.0) {
+                return None;
+            }
+            let star_v = -(blocked + a_up / shared + a_down) / g;
+            Some(Commutation {
+                star_v,
+                upper_slope: (a_up + g_up * star_v) / shared,
+            })
+        };
+        let knee_drive = |j: usize, c: &Commutation| -> (f64, f64) {
+            let knee_v = self.diode.forward_v(self.path_knees_a[j]) * self.paths[j].diodes as f64;
+            let open = source[j] + c.star_v;
+            (
+                open - plus_v - dc_h * c.upper_slope - knee_v,
+                -open - knee_v,
+            )
+        };
+        // The widest pair's drive against the rail and two diodes: what starts conduction
+        // when nothing conducts.
+        let pair = extremes(&source);
+        let pair_drive = {
+            let knee_v = 2.0 * self.diode.forward_v(self.path_knees_a[pair.0]);
+            Some(source[pair.0] - source[pair.1] - plus_v - knee_v)
+        };
+        // The conducting set: start from the currents, let a blocked phase whose drive has
+        // overcome its diode join, and solve again (three phases settle within three rounds).
+        let mut solved = solve(&legs);
+        for _ in 0..3 {
+            let mut joined = false;
+            match solved {
+                Some(c) => {
+                    for j in 0..n {
+                        if legs[j] == Leg::Blocked {
+                            let (up, down) = knee_drive(j, &c);
+                            if up > 0.0 {
+                                legs[j] = Leg::Upper;
+                                joined = true;
+                            } else if down > 0.0 {
+                                legs[j] = Leg::Lower;
+                                joined = true;
+                            }
+                        }
+                    }
+                }
+                None => {
+                    if pair_drive.is_some_and(|d| d > 0.0) {
+                        legs[pair.0] = Leg::Upper;
+                        legs[pair.1] = Leg::Lower;
+                        joined = true;
+                    }
+                }
+            }
+            if !joined {
+                break;
+            }
+            solved = solve(&legs);
+        }
+        let mut edges = [f64::NAN; EDGES];
+        let mut slopes = vec![0.0; n];
+        for j in 0..n {
+            let p = &self.paths[j];
+            slopes[j] = match (legs[j], solved) {
+                (Leg::Upper, Some(c)) => {
+                    (drive(j, Leg::Upper) + c.star_v - dc_h * c.upper_slope) / p.leakage_h
+                }
+                (Leg::Lower, Some(c)) => (drive(j, Leg::Lower) + c.star_v) / p.leakage_h,
+                (Leg::Upper | Leg::Lower | Leg::Blocked, _) => -raw[j] * relax,
+            };
+            dx[self.path_state(j)] = slopes[j];
+            let knee = self.path_knees_a[j];
+            let magnitude = raw[j].abs();
+            // Turn-off where the current falls through the knee; turn-on where a phase at
+            // rest finds its drive positive (against the star point of the set, or, with
+            // nothing conducting, the widest pair's against the rail).
+            edges[j] = if magnitude > knee {
+                (magnitude - knee) / self.path_scales[j]
+            } else {
+                match solved {
+                    Some(c) => {
+                        let (up, down) = knee_drive(j, &c);
+                        up.max(down)
+                    }
+                    None => pair_drive
+                        .filter(|_| j == pair.0 || j == pair.1)
+                        .unwrap_or((magnitude - knee) / self.path_scales[j]),
+                }
+            };
+        }
+        let choke_slope = solved.map_or(0.0, |c| c.upper_slope);
+        for (i, r) in self.reservoirs.iter().enumerate() {
+            dx[i] = (if i == 0 { i_dc } else { 0.0 } - nodes.i_out) / r.farads;
+        }
+        if let Some(s) = self.second {
+            dx[k] = (nodes.i_out - nodes.i_load) / s.farads;
+            if let Some(choke) = s.choke {
+                dx[self.stage_state()] =
+                    (top - s.ohms * nodes.i_out - x[k]) / choke.at(nodes.i_out);
+            }
+        }
+        edges[EDGES - 1] = self.load.corner(nodes.v_out);
+        if !want_probe {
+            return Probe {
+                edges,
+                ..Probe::default()
+            };
+        }
+        let (hi, lo) = pair;
+        // With nothing conducting the DC side floats: taken centred on the widest pair, as a
+        // blocked bridge's diodes share the bus.
+        let star_v = solved.map_or(0.5 * (plus_v - source[hi] - source[lo]), |c| c.star_v);
+        // Phase a's terminal against the - rail, and the + rail at the bridge.
+        let a = self
+            .paths
+            .iter()
+            .position(|p| p.polarity == Polarity::Phase(0))
+            .unwrap_or(0);
+        let b = self
+            .paths
+            .iter()
+            .position(|p| p.polarity == Polarity::Phase(1))
+            .unwrap_or(0);
+        let terminal = |j: usize| {
+            let p = &self.paths[j];
+            star_v + source[j] - p.ohms * raw[j] - p.leakage_h * slopes[j]
+        };
+        let bridge_plus = plus_v + dc_h * choke_slope;
+        let i_cap = i_dc - nodes.i_out;
+        let i_out_cap = if self.second.is_some() {
+            nodes.i_out - nodes.i_load
+        } else {
+            i_cap
+        };
+        Probe {
+            v_out: nodes.v_out,
+            v_cap: nodes.terminal[0],
+            v_secondary: terminal(a) - terminal(b),
+            v_source: (source[hi] - source[lo]).max(0.0),
+            i_diode: raw[a].max(0.0),
+            v_reverse: bridge_plus - terminal(a),
+            i_winding: raw[a],
+            i_cap,
+            i_load: nodes.i_load,
+            i_choke: if self.second.is_some() {
+                nodes.i_out
+            } else {
+                i_dc
+            },
+            i_out_cap,
+            edges,
+        }
+    }
+
+    /// The probe of a three-phase rectifier whose phases take the current in turn (a bridge
+    /// or a star without inductance, or a star's phases each with their own): phase a's
+    /// current and its upper diode, the line-to-line a-b at the terminals, and that diode's
+    /// reverse voltage. While a bridge idles its DC side floats; it is taken centred on the
+    /// phases' extremes.
+    pub(super) fn three_phase_probe(&self, src: &Emfs, flow: &Flow) -> Probe {
+        let mut i_phase = [0.0; 3];
+        let mut ohms = [0.0; 3];
+        let (hi, lo) = self.phase_extremes(&src.ph);
+        let mut conducting_diodes = 0.0;
+        for (j, p) in self.paths.iter().enumerate() {
+            let i = flow.path_i[j];
+            match p.polarity {
+                Polarity::SixPulse => {
+                    i_phase[hi] += i;
+                    i_phase[lo] -= i;
+                    // Each phase has half the path's resistance.
+                    ohms = [0.5 * p.ohms; 3];
+                    if i > 0.0 {
+                        conducting_diodes = self.diode.forward_v(i);
+                    }
+                }
+                Polarity::ThreePulse => {
+                    i_phase[hi] += i;
+                    ohms = [p.ohms; 3];
+                }
+                Polarity::Phase(k) => {
+                    i_phase[k] += i;
+                    ohms[k] = p.ohms;
+                }
+                Polarity::Forward
+                | Polarity::Inverted
+                | Polarity::Rectified
+                | Polarity::OneLegOpen => {}
+            }
+        }
+        let share = self.paths[0].emf_share;
+        let terminal = |k: usize| share * src.ph[k] - ohms[k] * i_phase[k];
+        let plus = match self.arrangement {
+            super::Arrangement::ThreePhaseBridge => {
+                if i_phase[hi] > 0.0 {
+                    terminal(hi) - conducting_diodes
+                } else {
+                    0.5 * (share * (src.ph[hi] + src.ph[lo]) + flow.cathode)
+                }
+            }
+            super::Arrangement::ThreePhaseStar
+            | super::Arrangement::Direct
+            | super::Arrangement::Bridge
+            | super::Arrangement::CenterTap
+            | super::Arrangement::SplitRail => flow.cathode,
+        };
+        Probe {
+            v_out: flow.v_out,
+            v_secondary: terminal(0) - terminal(1),
+            v_cap: flow.v_cap,
+            v_source: flow.v_source,
+            i_diode: i_phase[0].max(0.0),
+            v_reverse: plus - terminal(0),
+            i_winding: i_phase[0],
+            i_cap: flow.i_cap,
+            i_load: flow.i_load,
+            i_choke: flow.i_choke,
+            i_out_cap: flow.i_out_cap,
+            edges: [f64::NAN; EDGES],
+        }
+    }
+}
+
+/// The indices of the largest and the smallest of `v`.
+fn extremes(v: &[f64]) -> (usize, usize) {
+    let mut hi = 0;
+    let mut lo = 0;
+    for (j, x) in v.iter().enumerate() {
+        if *x > v[hi] {
+            hi = j;
+        }
+        if *x < v[lo] {
+            lo = j;
+        }
+    }
+    (hi, lo)
+}
