@@ -294,7 +294,8 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
             // A circuit that repeats every half cycle is integrated with the first half's steps
             // twice over: the same discrete map on both halves keeps the closed period symmetric,
             // where independent steps would let an ill-conditioned light load split its charge
-            // unevenly between the two diodes.
+            // unevenly between the two diodes. (Every sub-period alike: six for a six-pulse
+            // bridge, three for a star.)
             if c.period_s() < 0.75 * c.line_period_s() {
                 let half = c.period_s();
                 let mut t = 0.0;
@@ -306,7 +307,13 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
                     first.push(step);
                     t += step.h;
                 }
-                grid_t = first.iter().chain(first.iter()).copied().collect();
+                let repeats = (c.line_period_s() / half).round().max(1.0) as usize;
+                grid_t = first
+                    .iter()
+                    .cycle()
+                    .take(first.len() * repeats)
+                    .copied()
+                    .collect();
                 (state, trace) = match final_pass(c, &x, run, Steps::Replay(&grid_t)) {
                     Ok(s) => s,
                     Err(SolveError::NotFinite) => {
