@@ -158,7 +158,11 @@ pub(super) fn figures(
         min_v: s.v_out_min,
         ripple_pp_v: (s.v_out_max - s.v_out_min).max(0.0),
         ripple_rms_v: ripple_rms,
-        ripple_hz: ripple_frequency(net.line_hz, &s.probes, net.pulses()),
+        ripple_hz: ripple_frequency(
+            net.line_hz,
+            &s.probes,
+            net.output_volts(&s.end) - net.output_volts(&s.start),
+        ),
         load_a: mean(Integral::Load),
         diode_peak_a: s.i_diode_peak,
         diode_avg_a: mean(Integral::Diode),
@@ -187,31 +191,32 @@ pub(super) fn figures(
     }
 }
 
-/// The stronger of the line-frequency and twice-line components of the rail (hertz).
-fn ripple_frequency(line_hz: f64, probes: &[solver::Probe], pulses: f64) -> f64 {
+/// The strongest of the rail's components at the multiples of the line frequency a rectifier
+/// shows (hertz). `drift_v` is how far the rail's capacitors ended the period from where they
+/// began (volts): taken out as a straight line, since a ripple filtered down to microvolts
+/// (a six-pulse rail behind an RC stage) can be smaller than what a slow stage still drifts
+/// within the solver's tolerance, and a drift reads as a line-frequency component.
+fn ripple_frequency(line_hz: f64, probes: &[solver::Probe], drift_v: f64) -> f64 {
     let n = probes.len() as f64;
     // One DFT bin, the phasor turned by a fixed rotation each sample instead of a sine call.
     let amplitude = |k: f64| {
         let (step_sin, step_cos) = (2.0 * PI * k / n).sin_cos();
         let (mut c, mut s) = (1.0f64, 0.0f64);
         let (mut re, mut im) = (0.0, 0.0);
-        for p in probes {
-            re += p.v_out * c;
-            im += p.v_out * s;
+        for (i, p) in probes.iter().enumerate() {
+            let v = p.v_out - drift_v * i as f64 / n;
+            re += v * c;
+            im += v * s;
             (c, s) = (c * step_cos - s * step_sin, s * step_cos + c * step_sin);
         }
         (re * re + im * im).sqrt()
     };
-    // The rail's ripple is at a multiple of the line frequency: once (half wave), twice
-    // (full wave, or a six-pulse bridge with a phase lost), three times (a three-pulse star)
-    // or six times (a six-pulse bridge). The network's own pulse count names it unless
-    // another of those bins is twice as strong (a leg open, a lost phase), so that a ripple
-    // filtered down to the solver's noise keeps its name.
-    let own = amplitude(pulses);
-    let mut best = (pulses, own);
-    for k in std::iter::once(1.0).chain(RIPPLE_HARMONICS) {
+    // Once (half wave, a leg open), twice (full wave, a six-pulse bridge with a phase lost),
+    // three times (a three-pulse star) or six times (a six-pulse bridge): the strongest.
+    let mut best = (1.0, amplitude(1.0));
+    for k in RIPPLE_HARMONICS {
         let a = amplitude(k);
-        if a > 2.0 * own && a > best.1 {
+        if a > best.1 {
             best = (k, a);
         }
     }

@@ -386,6 +386,19 @@ impl Network {
         }
     }
 
+    /// The rail's capacitor voltage in a state vector (volts): the second stage's, or the
+    /// reservoirs' stack (0 for an unfiltered rectifier, which has no states).
+    pub fn output_volts(&self, x: &[f64]) -> f64 {
+        let k = self.reservoirs.len();
+        if x.len() < self.capacitors() {
+            return 0.0;
+        }
+        match self.second {
+            Some(_) => x[k],
+            None => x[..k].iter().sum(),
+        }
+    }
+
     /// Capacitor voltages among the states: the reservoirs, then a second stage's capacitor.
     fn capacitors(&self) -> usize {
         self.reservoirs.len() + usize::from(self.second.is_some())
