@@ -13,7 +13,11 @@
 //! so its voltage couples the upper phases' equations; the sums over the upper and the lower
 //! phases solve them in closed form.
 
-use super::{EDGES, Emfs, Flow, Network, Polarity, Probe, RELAX_PER_PERIOD};
+// Each phase's values sit in several arrays side by side (currents, sources, legs, slopes):
+// they read best indexed by the phase.
+#![allow(clippy::needless_range_loop)]
+
+use super::{EDGES, Emfs, Flow, MAX_PATHS, Network, Polarity, Probe, RELAX_PER_PERIOD};
 
 /// How a phase of an inductive bridge stands at an instant.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -56,11 +60,11 @@ impl Network {
     ) -> Probe {
         let n = self.paths.len();
         let k = self.reservoirs.len();
-        let raw: Vec<f64> = (0..n).map(|j| x[self.path_state(j)]).collect();
-        let source: Vec<f64> = self
-            .paths
-            .iter()
-            .map(|p| match p.polarity {
+        let mut raw = [0.0; MAX_PATHS];
+        let mut source = [0.0; MAX_PATHS];
+        for (j, p) in self.paths.iter().enumerate() {
+            raw[j] = x[self.path_state(j)];
+            source[j] = match p.polarity {
                 Polarity::Phase(ph) => p.emf_share * src.ph[ph],
                 Polarity::Forward
                 | Polarity::Inverted
@@ -68,8 +72,11 @@ impl Network {
                 | Polarity::OneLegOpen
                 | Polarity::SixPulse
                 | Polarity::ThreePulse => 0.0,
-            })
-            .collect();
+            };
+        }
+        let (raw_all, source_all) = (raw, source);
+        let raw = &raw_all[..n];
+        let source = &source_all[..n];
         // The DC current is what the upper phases carry; the lower ones return it.
         let i_dc: f64 = raw.iter().map(|i| i.max(0.0)).sum();
         let nodes = self.nodes(x, [i_dc, 0.0]);
@@ -79,17 +86,16 @@ impl Network {
         let dc_ohms = first.series_ohms;
         let dc_h = first.choke.map_or(0.0, |c| c.at(i_dc));
         let relax = self.line_hz * RELAX_PER_PERIOD;
-        let mut legs: Vec<Leg> = (0..n)
-            .map(|j| {
-                if raw[j] > self.path_knees_a[j] {
-                    Leg::Upper
-                } else if raw[j] < -self.path_knees_a[j] {
-                    Leg::Lower
-                } else {
-                    Leg::Blocked
-                }
-            })
-            .collect();
+        let mut legs = [Leg::Blocked; MAX_PATHS];
+        for j in 0..n {
+            legs[j] = if raw[j] > self.path_knees_a[j] {
+                Leg::Upper
+            } else if raw[j] < -self.path_knees_a[j] {
+                Leg::Lower
+            } else {
+                Leg::Blocked
+            };
+        }
         // The + rail at the bridge, before the choke's own voltage.
         let plus_v = top + dc_ohms * i_dc;
         let diode_v = |j: usize| {
@@ -144,7 +150,7 @@ impl Network {
         };
         // The widest pair's drive against the rail and two diodes: what starts conduction
         // when nothing conducts.
-        let pair = extremes(&source);
+        let pair = extremes(source);
         let pair_drive = {
             let knee_v = 2.0 * self.diode.forward_v(self.path_knees_a[pair.0]);
             Some(source[pair.0] - source[pair.1] - plus_v - knee_v)
@@ -182,8 +188,13 @@ impl Network {
             }
             solved = solve(&legs);
         }
+        // No switching functions for the phases: a step that lands on each phase's turn-on
+        // and turn-off (as a lone path's do) tripled the steps here, the outgoing and the
+        // incoming phase of a commutation each asking for its own step end, and made the
+        // period's map less smooth for Newton; the error control finds the corners as well
+        // (the ngspice references hold to the same figures either way).
         let mut edges = [f64::NAN; EDGES];
-        let mut slopes = vec![0.0; n];
+        let mut slopes = [0.0; MAX_PATHS];
         for j in 0..n {
             let p = &self.paths[j];
             slopes[j] = match (legs[j], solved) {
@@ -194,24 +205,6 @@ impl Network {
                 (Leg::Upper | Leg::Lower | Leg::Blocked, _) => -raw[j] * relax,
             };
             dx[self.path_state(j)] = slopes[j];
-            let knee = self.path_knees_a[j];
-            let magnitude = raw[j].abs();
-            // Turn-off where the current falls through the knee; turn-on where a phase at
-            // rest finds its drive positive (against the star point of the set, or, with
-            // nothing conducting, the widest pair's against the rail).
-            edges[j] = if magnitude > knee {
-                (magnitude - knee) / self.path_scales[j]
-            } else {
-                match solved {
-                    Some(c) => {
-                        let (up, down) = knee_drive(j, &c);
-                        up.max(down)
-                    }
-                    None => pair_drive
-                        .filter(|_| j == pair.0 || j == pair.1)
-                        .unwrap_or((magnitude - knee) / self.path_scales[j]),
-                }
-            };
         }
         let choke_slope = solved.map_or(0.0, |c| c.upper_slope);
         for (i, r) in self.reservoirs.iter().enumerate() {
