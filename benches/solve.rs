@@ -148,6 +148,7 @@ fn diagnosis(c: &mut Criterion) {
         ripple_rms_v: None,
         ripple_hz: Some(100.0),
         load_a: Some(0.34),
+        line_vrms: None,
     };
     let mut g = c.benchmark_group("diagnose");
     g.sample_size(20);

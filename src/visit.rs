@@ -6,6 +6,10 @@ use serde::{Deserialize, Serialize};
 /// A calendar date as TOML writes it (`2026-11-30`).
 pub type Date = toml::value::Datetime;
 
+/// An imbalance of the three lines beyond which one of them is taken as lost rather than low
+/// (percent): a supply's own imbalance stays within a few percent (practice).
+pub const LOST_LINE_IMBALANCE_PCT: f64 = 10.0;
+
 /// What a technician measured; any may be missing (volts, amps, hertz).
 #[derive(Debug, Clone, Copy, Default, PartialEq, Serialize, Deserialize)]
 pub struct Readings {
@@ -28,9 +32,48 @@ pub struct Readings {
     pub ripple_hz: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub load_a: Option<f64>,
+    /// The three line-to-line voltages at a three-phase rectifier's input (RMS volts, a-b,
+    /// b-c, c-a): their mean stands for the mains reading, their spread is the imbalance.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub line_vrms: Option<[f64; 3]>,
 }
 
 impl Readings {
+    /// The lines' imbalance, percent to a tenth: the largest departure of one line-to-line
+    /// voltage from their mean, over the mean (the definition of the motor standard NEMA
+    /// MG 1, memory).
+    pub fn line_imbalance_pct(&self) -> Option<f64> {
+        let v = self.line_vrms?;
+        let mean = v.iter().sum::<f64>() / 3.0;
+        if mean <= 0.0 {
+            return None;
+        }
+        let pct = 100.0 * v.iter().map(|x| (x - mean).abs()).fold(0.0, f64::max) / mean;
+        Some((pct * 10.0).round() / 10.0)
+    }
+
+    /// The readings with the three lines standing for the mains reading where the mains
+    /// itself was not read: their mean (to a tenth of a volt), or, with one line far out of
+    /// step (beyond LOST_LINE_IMBALANCE_PCT: a phase lost, its line reading only what the
+    /// rectifier feeds back), the highest, the pair still whole.
+    pub fn with_line_mean(&self) -> Readings {
+        let mut r = *self;
+        if r.mains_vrms.is_none()
+            && let Some(v) = r.line_vrms
+        {
+            let mains = if r
+                .line_imbalance_pct()
+                .is_some_and(|p| p > LOST_LINE_IMBALANCE_PCT)
+            {
+                v.iter().copied().fold(0.0, f64::max)
+            } else {
+                v.iter().sum::<f64>() / 3.0
+            };
+            r.mains_vrms = Some((mains * 10.0).round() / 10.0);
+        }
+        r
+    }
+
     /// The readings taken, by name, with their values (volts, amps, hertz).
     pub fn present(&self) -> Vec<(&'static str, f64)> {
         [

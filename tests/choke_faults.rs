@@ -169,6 +169,7 @@ fn diagnosis_names_the_choke_faults_ngspice_simulated() {
             // A scope shows no frequency on a flat line.
             ripple_hz: (pp > 0.01).then_some(want["ripple_hz"]),
             load_a: None,
+            line_vrms: None,
         };
         let d = diagnose(&s, &r).unwrap_or_else(|e| panic!("{case} {fault}: {e}"));
         let top = &d.hypotheses[0];
@@ -215,6 +216,7 @@ fn choke_faults_simulated_by_the_engine_are_named() {
                 ripple_rms_v: None,
                 ripple_hz: (pp > 0.01).then_some(f.ripple_hz),
                 load_a: None,
+                line_vrms: None,
             };
             let d = diagnose(&s, &r).unwrap();
             n += 1;

@@ -31,6 +31,7 @@ fn readings_of(s: &Supply, cond: &Conditions, with_mains: bool) -> Readings {
         ripple_rms_v: None,
         ripple_hz: Some(f.ripple_hz),
         load_a: Some(meter(f.load_a)),
+        line_vrms: None,
     }
 }
 
@@ -130,6 +131,7 @@ fn faults_simulated_by_ngspice_are_named_and_the_capacitor_estimated() {
             ripple_rms_v: None,
             ripple_hz: num(8),
             load_a: num(9).map(meter),
+            line_vrms: None,
         };
         let d = diagnose(&s, &r).unwrap_or_else(|e| panic!("{line}: {e}"));
         let want = if c[1] == "healthy-low-mains" {

@@ -384,3 +384,74 @@ fn a_visit_records_who_and_what_was_replaced_and_esc_asks_before_dropping_it() {
     assert_eq!(v.replaced, vec!["C4 2200uF 50V".to_string()]);
     assert!(app.status.contains("trend starts again"), "{}", app.status);
 }
+
+/// Issue 13's rows: a supply taken off its transformer (asked first, the transformer's values
+/// named), the line's rows then on the form, a constant-power load, and a three-phase
+/// topology setting the mains to three phases.
+#[test]
+fn a_supply_goes_straight_off_the_line_with_a_converter_load_and_three_phases() {
+    let (mut app, _) = demo("off-line");
+    select(&mut app, PUMP);
+    let shown = screen(&app, 120, 40);
+    assert!(
+        !shown.contains("Line ohm"),
+        "a transformer's unit shows no line rows"
+    );
+    go_to(&mut app, "transformer.form");
+    // ratio -> nameplate -> none: two steps right, each asked.
+    keys(&mut app, &[Msg::Right, Msg::Char('y'), Msg::Right]);
+    match &app.mode {
+        Mode::Confirm(Confirm::Drop { drops, .. }) => {
+            assert!(
+                drops
+                    .iter()
+                    .any(|d| d.starts_with("transformer.primary_vrms")),
+                "{drops:?}"
+            )
+        }
+        other => panic!("asked nothing: {other:?}"),
+    }
+    keys(&mut app, &[Msg::Char('y')]);
+    assert!(app.open.as_ref().unwrap().supply.transformer.is_absent());
+    go_to(&mut app, "line.ohms");
+    typed(&mut app, "0.5");
+    keys(&mut app, &[Msg::Enter]);
+    go_to(&mut app, "load.kind");
+    // Round the kinds (resistance, current, power) to the converter.
+    for _ in 0..3 {
+        if app.open.as_ref().unwrap().supply.load.watts.is_some() {
+            break;
+        }
+        keys(&mut app, &[Msg::Right]);
+        if matches!(app.mode, Mode::Confirm(_)) {
+            keys(&mut app, &[Msg::Char('y')]);
+        }
+    }
+    let s = app.open.as_ref().unwrap().supply.clone();
+    assert!(
+        s.load.watts.is_some() && s.load.amps.is_none(),
+        "{:?}",
+        s.load
+    );
+    assert_eq!(s.line.as_ref().and_then(|l| l.ohms), Some(0.5));
+    // The picker: bridge, then down three to three-phase-bridge (past the doubler and the
+    // split rail, which has no center tap to return to without a transformer).
+    go_to(&mut app, "rectifier.topology");
+    keys(
+        &mut app,
+        &[Msg::Enter, Msg::Down, Msg::Down, Msg::Down, Msg::Enter],
+    );
+    app.wait_idle();
+    let (saved, _) = on_disk(&app);
+    assert_eq!(
+        saved.rectifier.topology,
+        railcheck::supply::Topology::ThreePhaseBridge
+    );
+    assert_eq!(saved.mains.phases, 3);
+    assert!(saved.transformer.is_absent() && saved.load.watts.is_some());
+    let shown = screen(&app, 120, 40);
+    assert!(
+        shown.contains("Line ohm") && shown.contains("Line RMS"),
+        "{shown}"
+    );
+}

@@ -86,7 +86,8 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
         (Some(reg), None, Some(r)) => reg.output_v / r,
         (_, Some(a), _) => a,
         (None, None, Some(r)) => v / r,
-        _ => 0.0,
+        // A converter: its watts over the rail.
+        _ => supply.load.watts.map_or(0.0, |w| w / v.max(1e-3)),
     };
     let f = &supply.filter;
     let (dc, ripple, load) = match (f.kind, f.uf) {

@@ -123,6 +123,15 @@ pub enum Command {
         /// Load current (amps).
         #[arg(long, value_name = "A", allow_negative_numbers = true)]
         load: Option<f64>,
+        /// A three-phase supply's three line-to-line voltages at the rectifier (RMS volts,
+        /// a-b,b-c,c-a): their mean is the mains reading, their spread the imbalance.
+        #[arg(
+            long,
+            value_name = "V,V,V",
+            value_delimiter = ',',
+            allow_negative_numbers = true
+        )]
+        lines: Option<Vec<f64>>,
         /// One JSON line instead of text (for scripts).
         #[arg(long)]
         json: bool,

@@ -151,10 +151,21 @@ pub fn dispatch(cli: Cli, out: &mut impl Write) -> Result<ExitCode> {
             ripple_rms,
             ripple_hz,
             load,
+            lines,
             json,
             save,
             baseline,
         }) => {
+            let line_vrms = match lines {
+                None => None,
+                Some(v) => Some(<[f64; 3]>::try_from(v.as_slice()).map_err(|_| {
+                    anyhow::anyhow!(
+                        "--lines takes the three line-to-line voltages a-b,b-c,c-a (volts); \
+                         got {} value(s)",
+                        v.len()
+                    )
+                })?),
+            };
             let readings = Readings {
                 mains_vrms: mains,
                 secondary_vac: secondary,
@@ -163,6 +174,7 @@ pub fn dispatch(cli: Cli, out: &mut impl Write) -> Result<ExitCode> {
                 ripple_rms_v: ripple_rms,
                 ripple_hz,
                 load_a: load,
+                line_vrms,
             };
             let save = if baseline {
                 Save::Baseline

@@ -14,6 +14,7 @@ pub fn reading(key: &str) -> (&str, &'static str) {
         "ripple_rms_v" => ("ripple RMS", "V"),
         "ripple_hz" => ("ripple frequency", "Hz"),
         "load_a" => ("load current", "A"),
+        "line_imbalance_pct" => ("line imbalance", "%"),
         other => (other, ""),
     }
 }
@@ -90,8 +91,11 @@ mod tests {
             ripple_rms_v: Some(1.0),
             ripple_hz: Some(1.0),
             load_a: Some(1.0),
+            line_vrms: Some([1.0; 3]),
         })
         .present()
+        .into_iter()
+        .chain([("line_imbalance_pct", 0.0)])
         {
             let (name, unit) = reading(key);
             assert!(name != key && !unit.is_empty(), "{key}");

@@ -27,6 +27,9 @@ pub fn meter_uncertainty(reading: &str, value: f64) -> f64 {
         "ripple_rms_v" => 0.03 * value.abs() + 3.0 * digit,
         "load_a" => 0.02 * value.abs() + 2.0 * digit,
         "ripple_hz" => 0.02 * value.abs(),
+        // Three AC readings of +-1 % each: their spread about their mean is known to about
+        // a percentage point.
+        "line_imbalance_pct" => 1.0,
         _ => 0.01 * value.abs(),
     }
 }
@@ -70,6 +73,11 @@ pub enum ReadingError {
         high: String,
         hint: &'static str,
     },
+    #[error(
+        "three line voltages (--lines) are read on a three-phase supply; this one is \
+         single-phase: give the mains reading (--mains) instead"
+    )]
+    NotThreePhase,
     #[error("{0}")]
     Solve(String),
 }
@@ -123,6 +131,10 @@ impl Readings {
         Ok(())
     }
 }
+
+/// The line-to-line imbalance, percent, above which a three-phase reading is flagged (drives
+/// and motors are derated above about 2 %: common practice, from memory).
+pub const LINE_IMBALANCE_PCT: f64 = 2.0;
 
 /// One reading against its worst-case window.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -490,6 +502,24 @@ impl Readings {
     /// rises above the peak it is charged from, whatever its parts), volts.
     pub fn check_against(&self, supply: &Supply) -> Result<(), ReadingError> {
         let nominal = supply.mains.vrms;
+        if let Some(lines) = self.line_vrms {
+            if supply.mains.phases != 3 {
+                return Err(ReadingError::NotThreePhase);
+            }
+            // Each line as a mains reading (a phase lost upstream reads low but not zero
+            // with the bus charged; a typed "4k" is caught here).
+            for v in lines {
+                if !v.is_finite() || v < 0.0 || v > 1.5 * nominal {
+                    return Err(ReadingError::Implausible {
+                        reading: "line_vrms",
+                        value: v,
+                        low: "0 V".into(),
+                        high: format!("{:.0} V", 1.5 * nominal),
+                        hint: "more likely a typo or the meter's range than the line",
+                    });
+                }
+            }
+        }
         // A mistyped mains first: it is the likeliest slip, whatever else is missing.
         if let Some(m) = self.mains_vrms
             && m.is_finite()
@@ -535,6 +565,8 @@ impl Readings {
 /// Diagnoses `supply` from `readings`: expectations, ranked faults, a verdict.
 pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, ReadingError> {
     readings.check_against(supply)?;
+    // Three line voltages read at a three-phase rectifier stand for the mains reading.
+    let readings = &readings.with_line_mean();
     let solve_err = |e: circuit::CircuitError| ReadingError::Solve(e.to_string());
     let base = Conditions {
         mains_vrms: readings.mains_vrms,
@@ -552,6 +584,17 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
     // The mains reading against the supply's stated tolerance: its own term in every
     // hypothesis's misfit.
     let mut mains_term = 0.0;
+    // The lines' imbalance against what drives and motors take without derating (about 2 %,
+    // common practice): a phase lost upstream reads far beyond it.
+    if let Some(pct) = readings.line_imbalance_pct() {
+        expectations.push(window(
+            "line_imbalance_pct",
+            pct,
+            0.0,
+            0.0,
+            LINE_IMBALANCE_PCT,
+        ));
+    }
     for (k, v) in readings.present() {
         if k == "mains_vrms" {
             let lo = supply.mains.vrms * (1.0 - supply.mains.low_pct / 100.0);

@@ -433,6 +433,7 @@ pub const REGULATOR_RATED_W: Range = range(
     "the smallest regulator packages dissipate a few tenths of a watt (practice)",
 );
 pub const VISIT_MAINS_VRMS: Range = range("visit.mains_vrms", AtLeast(0.0), 1e5, "V", READING_WHY);
+pub const VISIT_LINE_VRMS: Range = range("visit.line_vrms", AtLeast(0.0), 1e5, "V", READING_WHY);
 pub const VISIT_SECONDARY_VAC: Range =
     range("visit.secondary_vac", AtLeast(0.0), 1e5, "V", READING_WHY);
 pub const VISIT_DC_V: Range = range(
@@ -513,6 +514,7 @@ pub const RANGES: &[Range] = &[
     CALIBRATION_CREST,
     CALIBRATION_CAP,
     VISIT_MAINS_VRMS,
+    VISIT_LINE_VRMS,
     VISIT_SECONDARY_VAC,
     VISIT_DC_V,
     VISIT_RIPPLE_PP_V,

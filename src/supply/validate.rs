@@ -247,6 +247,9 @@ impl Supply {
                     range.check(value).map_err(in_visit)?;
                 }
             }
+            for value in r.line_vrms.into_iter().flatten() {
+                VISIT_LINE_VRMS.check(value).map_err(in_visit)?;
+            }
         }
         if let Some(reg) = &self.regulator {
             OUTPUT_V.check(reg.output_v)?;

@@ -39,6 +39,13 @@ pub enum Choice {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum When {
     Always,
+    /// A transformer is given (not straight off the line).
+    HasTransformer,
+    /// Where the line's impedance is the source's (no transformer), or a drive's reactor
+    /// matters (three phases), or the file already gives a line: a transformer's own
+    /// impedance swamps a line's on a small single-phase unit (the file's `[line]` still
+    /// takes it).
+    LineMatters,
     RatioForm,
     NameplateForm,
     Filtered,
@@ -51,6 +58,8 @@ pub enum When {
     JunctionDiode,
     CurrentLoad,
     ResistiveLoad,
+    /// A constant-power load (a converter).
+    PowerLoad,
     Regulated,
 }
 
@@ -120,7 +129,7 @@ const fn text(
 use When::*;
 
 /// Every key of the supply file, in the file's order and groups.
-pub const FIELDS: [Field; 57] = [
+pub const FIELDS: [Field; 63] = [
     text("Name", "name", true, "the name the library lists it by"),
     text(
         "Site",
@@ -139,12 +148,17 @@ pub const FIELDS: [Field; 57] = [
     number("Mains", "Low %", &s::MAINS_LOW_PCT, Always),
     number("Mains", "High %", &s::MAINS_HIGH_PCT, Always),
     number("Mains", "Crest pk/RMS", &s::MAINS_CREST, Always),
+    number("Line", "Line ohm", &s::LINE_OHMS, LineMatters),
+    number("Line", "Line mH", &s::LINE_MH, LineMatters),
+    number("Line", "Reactor %", &s::REACTOR_PCT, LineMatters),
+    number("Line", "Reactor rated A", &s::REACTOR_RATED_A, LineMatters),
     choice(
         "Transformer",
         "Given as",
         "transformer.form",
         Choice::TransformerForm,
-        "the turns ratio, or the nameplate's volts, VA and regulation",
+        "the turns ratio, the nameplate's volts, VA and regulation, or none (the rectifier \
+         straight off the line)",
     ),
     number("Transformer", "Ratio pri:sec", &s::RATIO, RatioForm),
     number("Transformer", "Primary V", &s::PRIMARY_VRMS, NameplateForm),
@@ -160,18 +174,39 @@ pub const FIELDS: [Field; 57] = [
         &s::REGULATION_PCT,
         NameplateForm,
     ),
-    number("Transformer", "Rated VA", &s::RATED_VA, Always),
-    number("Transformer", "Secondary ohm", &s::SECONDARY_OHMS, Always),
-    number("Transformer", "Primary ohm", &s::PRIMARY_OHMS, Always),
-    number("Transformer", "Ratio spread %", &s::RATIO_PCT, Always),
-    number("Transformer", "Leakage mH", &s::LEAKAGE_MH, Always),
-    number("Transformer", "Impedance %", &s::IMPEDANCE_PCT, Always),
+    number("Transformer", "Rated VA", &s::RATED_VA, HasTransformer),
+    number(
+        "Transformer",
+        "Secondary ohm",
+        &s::SECONDARY_OHMS,
+        HasTransformer,
+    ),
+    number(
+        "Transformer",
+        "Primary ohm",
+        &s::PRIMARY_OHMS,
+        HasTransformer,
+    ),
+    number(
+        "Transformer",
+        "Ratio spread %",
+        &s::RATIO_PCT,
+        HasTransformer,
+    ),
+    number("Transformer", "Leakage mH", &s::LEAKAGE_MH, HasTransformer),
+    number(
+        "Transformer",
+        "Impedance %",
+        &s::IMPEDANCE_PCT,
+        HasTransformer,
+    ),
     choice(
         "Rectifier",
         "Topology",
         "rectifier.topology",
         Choice::Topology,
-        "half-wave, center-tap, bridge, doubler or split-rail",
+        "half-wave, center-tap, bridge, doubler, split-rail, three-phase-bridge or \
+         three-phase-star (a three-phase one sets the mains to three phases)",
     ),
     choice(
         "Rectifier",
@@ -217,7 +252,8 @@ pub const FIELDS: [Field; 57] = [
         "Kind",
         "load.kind",
         Choice::LoadKind,
-        "a resistance (ohms), or a constant current (amps)",
+        "a resistance (ohms), a constant current (amps), or a constant power (watts: a \
+         converter behind the capacitor)",
     ),
     number("Load", "Ohms", &s::LOAD_OHMS, ResistiveLoad),
     number("Load", "Min ohms", &s::MIN_OHMS, ResistiveLoad),
@@ -225,6 +261,8 @@ pub const FIELDS: [Field; 57] = [
     number("Load", "Amps", &s::LOAD_AMPS, CurrentLoad),
     number("Load", "Min amps", &s::MIN_AMPS, CurrentLoad),
     number("Load", "Max amps", &s::MAX_AMPS, CurrentLoad),
+    number("Load", "Watts", &s::LOAD_WATTS, PowerLoad),
+    number("Load", "Cutoff V", &s::CUTOFF_V, PowerLoad),
     choice(
         "Regulator",
         "Regulator",
@@ -279,8 +317,10 @@ impl Field {
         let filtered = s.filter.kind != FilterKind::None;
         match self.when {
             Always => true,
+            LineMatters => s.transformer.is_absent() || s.mains.phases == 3 || s.line.is_some(),
             RatioForm => s.transformer.ratio.is_some(),
-            NameplateForm => s.transformer.ratio.is_none(),
+            NameplateForm => s.transformer.ratio.is_none() && !s.transformer.is_absent(),
+            HasTransformer => !s.transformer.is_absent(),
             Filtered => filtered,
             Crc => s.filter.kind == FilterKind::Crc,
             SecondStage => s.filter.kind.has_second_stage(),
@@ -288,7 +328,8 @@ impl Field {
             FixedDiode => matches!(s.rectifier.diode, DiodeSpec::Fixed { .. }),
             JunctionDiode => matches!(s.rectifier.diode, DiodeSpec::Junction { .. }),
             CurrentLoad => s.load.amps.is_some(),
-            ResistiveLoad => s.load.amps.is_none(),
+            ResistiveLoad => s.load.amps.is_none() && s.load.watts.is_none(),
+            PowerLoad => s.load.watts.is_some(),
             Regulated => s.regulator.is_some(),
         }
     }
@@ -349,8 +390,8 @@ impl Field {
             Edit::Choice(Choice::Topology) => Topology::ALL.iter().map(|t| t.key()).collect(),
             Edit::Choice(Choice::Diode) => diode_words(),
             Edit::Choice(Choice::FilterKind) => FilterKind::ALL.iter().map(|k| k.key()).collect(),
-            Edit::Choice(Choice::TransformerForm) => vec!["ratio", "nameplate"],
-            Edit::Choice(Choice::LoadKind) => vec!["resistance", "current"],
+            Edit::Choice(Choice::TransformerForm) => vec!["ratio", "nameplate", "none"],
+            Edit::Choice(Choice::LoadKind) => vec!["resistance", "current", "power"],
             Edit::Choice(Choice::Regulator) => vec!["none", "linear"],
             _ => Vec::new(),
         }
@@ -455,7 +496,9 @@ fn choice_word(c: Choice, s: &Supply) -> String {
             DiodeSpec::Junction { .. } => "junction".into(),
         },
         Choice::FilterKind => s.filter.kind.key().into(),
-        Choice::TransformerForm => if s.transformer.ratio.is_some() {
+        Choice::TransformerForm => if s.transformer.is_absent() {
+            "none"
+        } else if s.transformer.ratio.is_some() {
             "ratio"
         } else {
             "nameplate"
@@ -463,6 +506,8 @@ fn choice_word(c: Choice, s: &Supply) -> String {
         .into(),
         Choice::LoadKind => if s.load.amps.is_some() {
             "current"
+        } else if s.load.watts.is_some() {
+            "power"
         } else {
             "resistance"
         }
@@ -559,6 +604,27 @@ fn choose(
             }
         }
         Choice::TransformerForm => {
+            // Straight off the line: every transformer value goes.
+            if word == "none" {
+                if !out.transformer.is_absent() {
+                    let text = toml::to_string(&out.transformer).unwrap_or_default();
+                    drops.extend(
+                        text.lines()
+                            .filter(|l| !l.trim().is_empty())
+                            .map(|l| format!("transformer.{}", l.trim())),
+                    );
+                    out.transformer = crate::supply::Transformer::default();
+                }
+                return Ok(());
+            }
+            // From none: a 1:1 ratio to start from, a guess until set.
+            if out.transformer.is_absent() {
+                out.transformer.ratio = Some(1.0);
+                guesses.push("transformer.ratio");
+                if word == "ratio" {
+                    return Ok(());
+                }
+            }
             let t = &mut out.transformer;
             match (word, t.ratio) {
                 ("ratio", None) => {
@@ -602,6 +668,56 @@ fn choose(
                 .map(|(op, _)| op.figures.dc_v)
                 .unwrap_or(0.0);
             let l = &mut out.load;
+            // Constant power: from either kind, the watts the load draws at the working rail.
+            if word == "power" && l.watts.is_none() {
+                let amps = l
+                    .amps
+                    .or_else(|| l.ohms.map(|r| if rail > 0.0 { rail / r } else { 0.0 }))
+                    .unwrap_or(0.0);
+                drops.extend(
+                    [
+                        dropped("load.amps", l.amps.take()),
+                        dropped("load.min_amps", l.min_amps.take()),
+                        dropped("load.max_amps", l.max_amps.take()),
+                        dropped("load.ohms", l.ohms.take()),
+                        dropped("load.min_ohms", l.min_ohms.take()),
+                        dropped("load.max_ohms", l.max_ohms.take()),
+                    ]
+                    .into_iter()
+                    .flatten(),
+                );
+                let watts = if rail > 0.0 && amps > 0.0 {
+                    rail * amps
+                } else {
+                    10.0
+                };
+                l.watts = Some((watts * 100.0).round() / 100.0);
+                guesses.push("load.watts");
+                return Ok(());
+            }
+            // From constant power back to a current or a resistance: its current at the rail.
+            if word != "power"
+                && let Some(watts) = l.watts.take()
+            {
+                drops.extend(
+                    [
+                        dropped("load.watts", Some(watts)),
+                        dropped("load.cutoff_v", l.cutoff_v.take()),
+                    ]
+                    .into_iter()
+                    .flatten(),
+                );
+                let amps = if rail > 0.0 { watts / rail } else { 0.1 };
+                if word == "current" {
+                    l.amps = Some((amps * 1e4).round() / 1e4);
+                    guesses.push("load.amps");
+                } else {
+                    let ohms = if amps > 0.0 { rail / amps } else { 100.0 };
+                    l.ohms = Some((ohms * 100.0).round() / 100.0);
+                    guesses.push("load.ohms");
+                }
+                return Ok(());
+            }
             match (word, l.amps, l.ohms) {
                 ("current", None, Some(ohms)) => {
                     drops.extend(
@@ -677,6 +793,12 @@ fn section(s: &Supply, name: &str) -> Option<toml::Value> {
         "rectifier" => toml::Value::try_from(&s.rectifier).ok(),
         "filter" => toml::Value::try_from(&s.filter).ok(),
         "load" => toml::Value::try_from(&s.load).ok(),
+        "line" => Some(
+            s.line
+                .as_ref()
+                .and_then(|l| toml::Value::try_from(l).ok())
+                .unwrap_or_else(|| toml::Value::Table(toml::Table::new())),
+        ),
         "regulator" => s
             .regulator
             .as_ref()
@@ -694,6 +816,11 @@ fn put_section(s: &mut Supply, name: &str, v: toml::Value) -> Result<(), String>
         "rectifier" => s.rectifier = v.try_into().map_err(why)?,
         "filter" => s.filter = v.try_into().map_err(why)?,
         "load" => s.load = v.try_into().map_err(why)?,
+        // An emptied line table is no line table.
+        "line" => {
+            let line: crate::supply::Line = v.try_into().map_err(why)?;
+            s.line = (line != crate::supply::Line::default()).then_some(line);
+        }
         "regulator" => s.regulator = Some(v.try_into().map_err(why)?),
         other => return Err(format!("{other} is not a section the form edits")),
     }

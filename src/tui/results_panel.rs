@@ -58,6 +58,7 @@ fn reading_words(key: &str) -> (&'static str, &'static str) {
         "ripple_rms_v" => ("ripple RMS", "V"),
         "ripple_hz" => ("ripple", "Hz"),
         "load_a" => ("load", "A"),
+        "line_imbalance_pct" => ("line imbalance", "%"),
         _ => ("reading", ""),
     }
 }
