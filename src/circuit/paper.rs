@@ -56,25 +56,17 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
         crate::supply::DiodeSpec::Junction { .. } => 0.7,
     };
     let secondary_peak = supply.mains.vrms / winding.ratio * supply.mains.crest();
-    // Three phases: the secondary's peak is the line-to-line one, a star's rail a phase's.
-    let (share, diodes) = (topology.peak_share(), topology.diodes_to_peak());
-    let share = match topology {
-        Topology::Doubler => 1.0,
+    // Each capacitor of a doubler charges to the winding's peak through one diode (the two
+    // are stacked below); on three phases the secondary's peak is the line-to-line one, a
+    // star's rail a phase's.
+    let (share, diodes) = match topology {
+        Topology::Doubler => (1.0, 1.0),
         Topology::HalfWave
         | Topology::CenterTap
         | Topology::SplitRail
         | Topology::Bridge
         | Topology::ThreePhaseBridge
-        | Topology::ThreePhaseStar => share,
-    };
-    let diodes = match topology {
-        Topology::Doubler => 1.0,
-        Topology::HalfWave
-        | Topology::CenterTap
-        | Topology::SplitRail
-        | Topology::Bridge
-        | Topology::ThreePhaseBridge
-        | Topology::ThreePhaseStar => diodes,
+        | Topology::ThreePhaseStar => (topology.peak_share(), topology.diodes_to_peak()),
     };
     let mut working = (share * secondary_peak - diodes * drop).max(0.0);
     if topology == Topology::Doubler {

@@ -8,8 +8,9 @@ use std::collections::BTreeMap;
 use std::path::Path;
 
 /// The rows of a stored reference CSV under tests/reference/ (comment lines start with `#`;
-/// the first other line names the columns): each row's first cell and its numbers by column.
-pub fn reference_csv(name: &str) -> Vec<(String, BTreeMap<String, f64>)> {
+/// the first other line names the columns): each row's first cell and its other cells by
+/// column, as written (an empty cell, a figure the case does not have, left out).
+pub fn reference_rows(name: &str) -> Vec<(String, BTreeMap<String, String>)> {
     let path = Path::new(env!("CARGO_MANIFEST_DIR"))
         .join("tests/reference")
         .join(name);
@@ -20,14 +21,27 @@ pub fn reference_csv(name: &str) -> Vec<(String, BTreeMap<String, f64>)> {
     lines
         .map(|line| {
             let cells: Vec<&str> = line.split(',').collect();
-            // An empty cell is a figure the case does not have (no choke): left out.
             let values = header[1..]
                 .iter()
                 .zip(&cells[1..])
                 .filter(|(_, v)| !v.is_empty())
-                .map(|(k, v)| (k.to_string(), v.parse::<f64>().expect("a number")))
+                .map(|(k, v)| (k.to_string(), v.to_string()))
                 .collect();
             (cells[0].to_string(), values)
+        })
+        .collect()
+}
+
+/// As [`reference_rows`], every cell a number.
+pub fn reference_csv(name: &str) -> Vec<(String, BTreeMap<String, f64>)> {
+    reference_rows(name)
+        .into_iter()
+        .map(|(case, cells)| {
+            let values = cells
+                .into_iter()
+                .map(|(k, v)| (k, v.parse::<f64>().expect("a number")))
+                .collect();
+            (case, values)
         })
         .collect()
 }
