@@ -146,6 +146,18 @@ fn main() {
     app.update(Msg::NextPanel);
     go_to(&mut app, "filter.choke_h");
     shot(&app, "choke-100x30", 100, 30);
+    // A three-phase drive bus straight off the line: the line's rows and the line's figures.
+    app.panel = railcheck::tui::app::Panel::List;
+    for _ in 0..app.entries.len() {
+        app.update(Msg::Up);
+    }
+    while app.open.as_ref().expect("open").supply.name != "Raw-water lift pump, drive DC bus" {
+        app.update(Msg::Down);
+    }
+    app.wait_idle();
+    app.update(Msg::NextPanel);
+    go_to(&mut app, "line.reactor_pct");
+    shot(&app, "drive-bus-100x30", 100, 30);
 }
 
 /// Moves the form's cursor to the row of the file key `path`.
