@@ -279,6 +279,9 @@ impl Report {
                 format_si(h.load_a, "A"),
             ));
         }
+        for a in &self.nominal.approximations {
+            out.push_str(&format!("  Approximation: {a}\n"));
+        }
         if !self.differences.is_empty() {
             out.push_str("  Why they differ:\n");
             for d in &self.differences {
@@ -326,6 +329,7 @@ impl Report {
             "nominal": nominal,
             "hand_estimate": self.hand,
             "hand_differences": self.differences,
+            "approximations": self.nominal.approximations,
             "tolerances": self.worst.tolerances,
             "assumed": self.worst.assumed,
             "unconfirmed": self.supply.unconfirmed,

@@ -328,3 +328,58 @@ fn three_line_voltages_give_the_imbalance_and_the_mains() {
     .unwrap_err();
     assert!(e.to_string().contains("single-phase"), "{e}");
 }
+
+/// The report of a supply straight off the line: the whole DC side at mains potential is
+/// cautioned, there is no transformer to rate, and the winding's figures are named the
+/// line's; a drive's bus (hundreds of joules) gets the wait-and-measure caution with its
+/// energy (C V^2 / 2, textbook) and its bleeders' discharge time (R C ln(V0 / V), textbook).
+#[test]
+fn an_off_line_report_cautions_the_mains_potential_and_a_bus_its_energy() {
+    let r =
+        railcheck::report::build_default(supply("three_phase/offline_230_cp150.toml"), "offline")
+            .unwrap();
+    assert!(
+        !r.not_rated.contains(&"transformer-va"),
+        "{:?}",
+        r.not_rated
+    );
+    assert!(r.cautions.iter().any(|c| c.contains("mains potential")));
+    let text = r.text();
+    assert!(
+        text.contains("Line current RMS") && !text.contains("Winding RMS"),
+        "{text}"
+    );
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("examples/pump-drive-bus.toml");
+    let drive = Supply::from_toml_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+    let r = railcheck::report::build_default(drive, "drive").unwrap();
+    // The number just before `unit` in a caution's words.
+    let number_before = |text: &str, unit: &str| -> f64 {
+        let head = &text[..text.find(unit).expect("the unit")];
+        head.rsplit(' ').next().unwrap().parse().unwrap()
+    };
+    let bus = r
+        .cautions
+        .iter()
+        .find(|c| c.starts_with("DC bus"))
+        .expect("a bus caution");
+    // 750 uF at +20 % (900 uF) charged to the high line's no-load peak, about sqrt 2 x 440 V
+    // (a diode drop under it).
+    let peak = 2f64.sqrt() * 440.0;
+    let joules = 0.5 * 900e-6 * peak * peak;
+    let said = number_before(bus, " J at");
+    assert!(
+        (said - joules).abs() / joules < 0.01,
+        "{bus} ({joules:.1} J)"
+    );
+    let discharge = r
+        .cautions
+        .iter()
+        .find(|c| c.starts_with("Discharge"))
+        .unwrap();
+    let seconds = 94_000.0 * 900e-6 * (peak / 60.0f64).ln();
+    let said = number_before(discharge, " s after");
+    assert!(
+        (said - seconds).abs() / seconds < 0.01,
+        "{discharge} ({seconds:.1} s)"
+    );
+}

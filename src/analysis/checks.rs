@@ -235,6 +235,8 @@ pub fn checks(
             "VA",
             &at,
         )),
+        // Straight off the line there is no transformer to rate.
+        _ if supply.transformer.is_absent() => {}
         _ => not_rated.push("transformer-va"),
     }
     if let Some(reg) = &supply.regulator {

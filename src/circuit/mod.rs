@@ -60,7 +60,15 @@ pub struct Operating {
     pub figures: Figures,
     pub waveform: Waveform,
     pub steady: SteadyState,
+    /// Where the solve stood in for the model the supply asks for, in words (empty when it
+    /// did not): a bridge whose phases' own currents did not settle, lumped.
+    pub approximations: Vec<&'static str>,
 }
+
+/// What a lumped six-pulse bridge leaves out, in words.
+pub const LUMPED_PHASES: &str = "the phases' own currents did not settle within the solver's \
+     budget: solved with their inductance lumped into one path, the commutation overlap left \
+     out (the DC reads 1-2 % high against the full model on the reference drive buses)";
 
 /// Solves `supply` under `cond` for its periodic steady state and figures.
 pub fn solve(supply: &Supply, cond: &Conditions) -> Result<Operating, CircuitError> {
@@ -78,7 +86,9 @@ pub fn solve(supply: &Supply, cond: &Conditions) -> Result<Operating, CircuitErr
                 lumped_phases: true,
                 ..*cond
             };
-            return solve(supply, &lumped);
+            let mut op = solve(supply, &lumped)?;
+            op.approximations.push(LUMPED_PHASES);
+            return Ok(op);
         }
         Err(
             why @ (SolveError::WorkLimit(_)
@@ -103,6 +113,7 @@ pub fn solve(supply: &Supply, cond: &Conditions) -> Result<Operating, CircuitErr
         figures,
         waveform,
         steady,
+        approximations: Vec::new(),
     })
 }
 
