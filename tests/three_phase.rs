@@ -383,3 +383,27 @@ fn an_off_line_report_cautions_the_mains_potential_and_a_bus_its_energy() {
         "{discharge} ({seconds:.1} s)"
     );
 }
+
+/// A visit whose ripple came at another frequency than the healthy rectifier's (the demo
+/// drive's lost phase, 100 Hz on a 300 Hz bus) gives no capacitance to the trend: its ripple
+/// is not the capacitor's to explain. The commissioning visit's does, near the label.
+#[test]
+fn a_lost_phase_visit_gives_the_capacitance_trend_no_point() {
+    let text = railcheck::library::demo::supplies()
+        .into_iter()
+        .find(|(stem, _)| *stem == "low-lift-pump-drive-bus")
+        .expect("the demo drive")
+        .1;
+    let s = Supply::from_toml_str(&text).unwrap();
+    let t = railcheck::diagnose::trend::trend(&s);
+    assert_eq!(t.points.len(), 2);
+    let uf = t.points[0]
+        .uf
+        .expect("the commissioning visit's capacitance");
+    assert!((uf / 750.0 - 1.0).abs() < 0.2, "{uf} uF");
+    assert_eq!(t.points[1].uf, None);
+    assert_eq!(
+        t.points[1].why_none,
+        Some(railcheck::diagnose::trend::FOREIGN_RIPPLE)
+    );
+}

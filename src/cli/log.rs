@@ -76,7 +76,12 @@ pub fn render_text(out: &mut impl Write, supply: &Supply, trend: &Trend) -> std:
     for p in &trend.points {
         match p.uf {
             Some(uf) => writeln!(out, "    {}  {:>10}", printable(&p.date), format_uf(uf))?,
-            None => writeln!(out, "    {}  (no ripple or DC reading)", printable(&p.date))?,
+            None => writeln!(
+                out,
+                "    {}  ({})",
+                printable(&p.date),
+                p.why_none.unwrap_or(crate::diagnose::trend::NO_READING)
+            )?,
         }
     }
     if let Some(s) = trend.uf_per_year {
@@ -140,6 +145,7 @@ mod tests {
             points: vec![TrendPoint {
                 date: "2026-03-01".into(),
                 uf: Some(3901.4),
+                why_none: None,
             }],
             uf_per_year: Some(-120.0),
             limit_uf: 3760.0,

@@ -12,9 +12,18 @@ use serde::Serialize;
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct TrendPoint {
     pub date: String,
-    /// Microfarads the readings imply, or None when the visit has no ripple or DC reading.
+    /// Microfarads the readings imply, or None when the visit gives none (see `why_none`).
     pub uf: Option<f64>,
+    /// Why a visit gives no capacitance, in words (None when it gives one).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub why_none: Option<&'static str>,
 }
+
+/// A visit whose ripple came at another frequency than the healthy rectifier's.
+pub const FOREIGN_RIPPLE: &str =
+    "ripple at another frequency than the healthy rectifier's: not the capacitor's to explain";
+/// A visit with nothing the capacitance moves.
+pub const NO_READING: &str = "no ripple or DC reading";
 
 /// The projected crossing of the limit.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -491,17 +500,27 @@ pub fn trend(supply: &Supply) -> Trend {
     // A replaced filter capacitor starts the trend again: the readings of the visit that
     // replaced it were taken on the old part, so the new trend begins after it.
     let replaced_at = visits.iter().rposition(|v| v.replaced_capacitor());
-    // The trend is the capacitor's: the ripple frequency says nothing of its value. Visits
-    // whose readings cannot be true, and supplies with no filter capacitor, give no point.
+    // The trend is the capacitor's: the ripple frequency says nothing of its value, but a
+    // ripple at another frequency than the healthy rectifier's (a leg open, a phase lost)
+    // says the ripple is not the capacitor's to explain, and that visit gives no point.
+    // Visits whose readings cannot be true, and supplies with no filter capacitor, give none
+    // either.
+    let healthy_hz = supply.rectifier.topology.pulses_per_cycle() as f64 * supply.mains.hz;
     let usable: Vec<Option<Readings>> = visits
         .iter()
         .map(|v| {
             let r = Readings {
                 ripple_hz: None,
-                ..v.readings
+                ..v.readings.with_line_mean()
             };
-            (supply.filter.kind != FilterKind::None && r.check(supply.mains.hz).is_ok())
-                .then_some(r)
+            let own_ripple = v
+                .readings
+                .ripple_hz
+                .is_none_or(|hz| (hz - healthy_hz).abs() <= 0.1 * healthy_hz);
+            (supply.filter.kind != FilterKind::None
+                && own_ripple
+                && r.check(supply.mains.hz).is_ok())
+            .then_some(r)
         })
         .collect();
     let tables = CapacitanceFit::new(supply, usable.iter().flatten().map(|r| r.mains_vrms));
@@ -516,9 +535,18 @@ pub fn trend(supply: &Supply) -> Trend {
                 _ => xy.push((d as f64, e.uf, e.sigma_uf)),
             }
         }
+        let foreign = v
+            .readings
+            .ripple_hz
+            .is_some_and(|hz| (hz - healthy_hz).abs() > 0.1 * healthy_hz);
         points.push(TrendPoint {
             date: v.date_text(),
             uf: estimate.map(|e| e.uf),
+            why_none: match (estimate, foreign) {
+                (Some(_), _) => None,
+                (None, true) => Some(FOREIGN_RIPPLE),
+                (None, false) => Some(NO_READING),
+            },
         });
     }
     let mut out = Trend {
