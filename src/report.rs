@@ -282,6 +282,16 @@ impl Report {
         for a in &self.nominal.approximations {
             out.push_str(&format!("  Approximation: {a}\n"));
         }
+        if self.worst.approximated > 0 {
+            out.push_str(&format!(
+                "  Approximation: {} of the {} worst-case points were solved with a six-pulse \
+                 bridge's phases lumped (their own currents too slow to settle over the whole \
+                 box, or not settling there), the commutation overlap left out: the DC there \
+                 reads 1-2 % high\n",
+                self.worst.approximated,
+                self.worst.solved.len()
+            ));
+        }
         if !self.differences.is_empty() {
             out.push_str("  Why they differ:\n");
             for d in &self.differences {
@@ -330,6 +340,7 @@ impl Report {
             "hand_estimate": self.hand,
             "hand_differences": self.differences,
             "approximations": self.nominal.approximations,
+            "worst_case_points_approximated": self.worst.approximated,
             "tolerances": self.worst.tolerances,
             "assumed": self.worst.assumed,
             "unconfirmed": self.supply.unconfirmed,

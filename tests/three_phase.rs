@@ -407,3 +407,22 @@ fn a_lost_phase_visit_gives_the_capacitance_trend_no_point() {
         Some(railcheck::diagnose::trend::FOREIGN_RIPPLE)
     );
 }
+
+/// A drive bus with both a line reactor and a large DC choke rings slower than the mains, and
+/// its phases' own currents are dear to settle: its report still comes (the worst case's
+/// points lumped and counted so), rather than a refusal for the work it would take.
+#[test]
+fn a_reactor_and_choke_bus_is_reported_with_its_worst_case_approximated() {
+    let r =
+        railcheck::report::build_default(supply("three_phase/vfd_400_reactor_choke.toml"), "drive")
+            .expect("a report, not a refusal");
+    assert!(
+        r.nominal.approximations.is_empty(),
+        "the nominal is the full model"
+    );
+    assert_eq!(r.worst.approximated, r.worst.solved.len());
+    assert!(
+        r.text()
+            .contains("worst-case points were solved with a six-pulse")
+    );
+}

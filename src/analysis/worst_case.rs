@@ -517,6 +517,9 @@ pub struct WorstCase {
     pub solved: Vec<(String, Figures)>,
     /// The conditions of each point, in the same order.
     pub conditions: Vec<Conditions>,
+    /// How many points the solver could only settle with a stand-in model (a six-pulse
+    /// bridge's phases lumped: see [`crate::circuit::Operating::approximations`]).
+    pub approximated: usize,
 }
 
 impl WorstCase {
@@ -555,8 +558,17 @@ pub fn worst_case_in(
     let mut solved = Vec::new();
     let mut conditions = Vec::new();
     let mut spent = 0;
+    let mut approximated = 0;
+    // A six-pulse bridge whose phases' own currents are dear to settle (a reactor and a
+    // large DC choke ringing slower than the mains: tens of thousands of evaluations a
+    // point) would spend the whole budget on its box: its points are then solved with the
+    // phases lumped, each counted as approximated (the nominal keeps the full model).
+    let lump = circuit::network(supply, base).is_ok_and(|n| n.is_coupled_bridge())
+        && circuit::solve(supply, base)
+            .is_ok_and(|op| op.steady.evaluations > WORST_CASE_EVALUATIONS / 100);
     for p in points(tbox) {
         let mut cond = p.conditions(tbox);
+        cond.lumped_phases = lump;
         cond.mains_vrms = base.mains_vrms;
         cond.leg_open = base.leg_open;
         cond.capacitor_open = base.capacitor_open;
@@ -572,6 +584,9 @@ pub fn worst_case_in(
                 evaluations: WORST_CASE_EVALUATIONS,
                 values: circuit::time_constant_words(supply),
             });
+        }
+        if lump || !op.approximations.is_empty() {
+            approximated += 1;
         }
         solved.push((p.describe(tbox), op.figures));
         conditions.push(cond);
@@ -607,6 +622,7 @@ pub fn worst_case_in(
         extents,
         solved,
         conditions,
+        approximated,
     })
 }
 
