@@ -177,11 +177,7 @@ pub(super) fn figures(
         min_v,
         ripple_pp_v: (max_v - min_v).max(0.0),
         ripple_rms_v: ripple_rms,
-        ripple_hz: ripple_frequency(
-            net.line_hz,
-            &s.probes,
-            net.output_volts(&s.end) - net.output_volts(&s.start),
-        ),
+        ripple_hz: ripple_frequency(net.line_hz, &s.probes, drift),
         load_a: mean(Integral::Load),
         diode_peak_a: s.i_diode_peak,
         diode_avg_a: mean(Integral::Diode),

@@ -315,19 +315,9 @@ impl Network {
     }
 
     /// The highest and the lowest live phase at an instant (their indices).
+    /// (The live phases are always the first ones: a, b, and c unless it is lost.)
     fn phase_extremes(&self, ph: &[f64; 3]) -> (usize, usize) {
-        let live = self.live_phases();
-        let mut hi = live[0];
-        let mut lo = live[0];
-        for &k in live {
-            if ph[k] > ph[hi] {
-                hi = k;
-            }
-            if ph[k] < ph[lo] {
-                lo = k;
-            }
-        }
-        (hi, lo)
+        three_phase::extremes(&ph[..self.live_phases().len()])
     }
 
     fn path_source(&self, p: &Path, src: &Emfs) -> f64 {

@@ -340,7 +340,7 @@ impl Network {
 }
 
 /// The indices of the largest and the smallest of `v`.
-fn extremes(v: &[f64]) -> (usize, usize) {
+pub(super) fn extremes(v: &[f64]) -> (usize, usize) {
     let mut hi = 0;
     let mut lo = 0;
     for (j, x) in v.iter().enumerate() {
