@@ -112,6 +112,7 @@ impl Network {
                 Leg::Blocked => 0.0,
             }
         };
+        let total: f64 = raw.iter().sum();
         let solve = |legs: &[Leg]| -> Option<Commutation> {
             let (mut g_up, mut a_up, mut g_down, mut a_down, mut blocked) =
                 (0.0, 0.0, 0.0, 0.0, 0.0);
@@ -134,7 +135,11 @@ impl Network {
             if g <= 0.0 || (g_up == 0.0 && g_down == 0.0) {
                 return None;
             }
-            let star_v = -(blocked + a_up / shared + a_down) / g;
+            // The currents' sum is held at zero by letting any sum decay as a blocked path's
+            // current does: the exact law would only conserve it, which leaves the period's
+            // map a direction it neither restores nor moves (a singular Jacobian for Newton,
+            // whose rounding then stepped along it).
+            let star_v = -(blocked + a_up / shared + a_down + relax * total) / g;
             Some(Commutation {
                 star_v,
                 upper_slope: (a_up + g_up * star_v) / shared,
