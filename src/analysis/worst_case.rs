@@ -4,10 +4,11 @@
 
 use crate::circuit::diode::DiodeParams;
 use crate::circuit::winding::{ASSUMED_OVERSIZE, WARM_WINDING_FACTOR, WindingModel, WindingSource};
-use crate::circuit::{self, CircuitError, Conditions, Figures, LoadOverride};
+use crate::circuit::{self, CircuitError, Conditions, Figures, LoadOverride, Operating};
 use crate::supply::{ASSUMED_CREST_LOW, Supply};
 use crate::units::{format_number, format_uf};
 use serde::Serialize;
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// One axis of the tolerance box: a factor (or a load) from its low end to its high end.
 #[derive(Debug, Clone, PartialEq)]
@@ -548,6 +549,74 @@ pub fn worst_case(supply: &Supply) -> Result<WorstCase, CircuitError> {
     worst_case_in(supply, &tbox, &Conditions::default())
 }
 
+/// Solves `supply` at each of `conditions`, in their order, shared among the machine's cores
+/// (the points are independent; a six-pulse drive bus's 53 took 60 ms on one core).
+/// A bound on the whole worst case, not only on each solve: once the solves together spend
+/// more than [`WORST_CASE_EVALUATIONS`], the rest are dropped and the supply is refused with
+/// its values rather than kept for seconds (the same refusal whatever the order the points
+/// finish in, since only the total counts).
+fn solve_all(supply: &Supply, conditions: &[Conditions]) -> Result<Vec<Operating>, CircuitError> {
+    let spent = AtomicUsize::new(0);
+    let over = || CircuitError::WorstCaseRefused {
+        evaluations: WORST_CASE_EVALUATIONS,
+        values: circuit::time_constant_words(supply),
+    };
+    let solve_one = |cond: &Conditions| -> Result<Operating, CircuitError> {
+        if spent.load(Ordering::Relaxed) > WORST_CASE_EVALUATIONS {
+            return Err(over());
+        }
+        let op = circuit::solve(supply, cond)?;
+        if spent.fetch_add(op.steady.evaluations, Ordering::Relaxed) + op.steady.evaluations
+            > WORST_CASE_EVALUATIONS
+        {
+            return Err(over());
+        }
+        Ok(op)
+    };
+    let threads = std::thread::available_parallelism()
+        .map_or(1, |n| n.get())
+        .min(conditions.len().div_ceil(4))
+        .max(1);
+    let results: Vec<Result<Operating, CircuitError>> = if threads == 1 {
+        conditions.iter().map(solve_one).collect()
+    } else {
+        // Each thread takes the next unsolved point: the dear points (corners with the most
+        // ringing) come in runs, which fixed shares would leave to one thread.
+        let next = AtomicUsize::new(0);
+        let mut shares: Vec<Vec<(usize, Result<Operating, CircuitError>)>> =
+            std::thread::scope(|scope| {
+                let handles: Vec<_> = (0..threads)
+                    .map(|_| {
+                        let (solve_one, next) = (&solve_one, &next);
+                        scope.spawn(move || {
+                            let mut mine = Vec::new();
+                            loop {
+                                let i = next.fetch_add(1, Ordering::Relaxed);
+                                let Some(cond) = conditions.get(i) else { break };
+                                mine.push((i, solve_one(cond)));
+                            }
+                            mine
+                        })
+                    })
+                    .collect();
+                handles
+                    .into_iter()
+                    .map(|h| h.join().expect("a worst-case solve panicked"))
+                    .collect()
+            });
+        let mut all: Vec<(usize, Result<Operating, CircuitError>)> =
+            shares.drain(..).flatten().collect();
+        all.sort_by_key(|(i, _)| *i);
+        all.into_iter().map(|(_, r)| r).collect()
+    };
+    // The first point's own error comes first, as a sequential run would give it; a budget
+    // overrun anywhere refuses the whole box.
+    if spent.load(Ordering::Relaxed) > WORST_CASE_EVALUATIONS {
+        return Err(over());
+    }
+    results.into_iter().collect()
+}
+
 /// As [`worst_case`] over `tbox`, each point's conditions laid over `base` (a reading of the
 /// mains, say).
 pub fn worst_case_in(
@@ -555,10 +624,6 @@ pub fn worst_case_in(
     tbox: &ToleranceBox,
     base: &Conditions,
 ) -> Result<WorstCase, CircuitError> {
-    let mut solved = Vec::new();
-    let mut conditions = Vec::new();
-    let mut spent = 0;
-    let mut approximated = 0;
     // A six-pulse bridge whose phases' own currents are dear to settle (a reactor and a
     // large DC choke ringing slower than the mains: tens of thousands of evaluations a
     // point) would spend the whole budget on its box: its points are then solved with the
@@ -566,30 +631,29 @@ pub fn worst_case_in(
     let lump = circuit::network(supply, base).is_ok_and(|n| n.is_coupled_bridge())
         && circuit::solve(supply, base)
             .is_ok_and(|op| op.steady.evaluations > WORST_CASE_EVALUATIONS / 100);
-    for p in points(tbox) {
-        let mut cond = p.conditions(tbox);
-        cond.lumped_phases = lump;
-        cond.mains_vrms = base.mains_vrms;
-        cond.leg_open = base.leg_open;
-        cond.capacitor_open = base.capacitor_open;
-        if base.esr_ohms.is_some() {
-            cond.esr_ohms = base.esr_ohms;
-        }
-        let op = circuit::solve(supply, &cond)?;
-        // A bound on the whole worst case, not only on each solve: a supply hard to settle at
-        // every point of its box is refused with its values rather than kept for seconds.
-        spent += op.steady.evaluations;
-        if spent > WORST_CASE_EVALUATIONS {
-            return Err(CircuitError::WorstCaseRefused {
-                evaluations: WORST_CASE_EVALUATIONS,
-                values: circuit::time_constant_words(supply),
-            });
-        }
+    let points = points(tbox);
+    let conditions: Vec<Conditions> = points
+        .iter()
+        .map(|p| {
+            let mut cond = p.conditions(tbox);
+            cond.lumped_phases = lump;
+            cond.mains_vrms = base.mains_vrms;
+            cond.leg_open = base.leg_open;
+            cond.capacitor_open = base.capacitor_open;
+            if base.esr_ohms.is_some() {
+                cond.esr_ohms = base.esr_ohms;
+            }
+            cond
+        })
+        .collect();
+    let solves = solve_all(supply, &conditions)?;
+    let mut approximated = 0;
+    let mut solved = Vec::with_capacity(points.len());
+    for (p, op) in points.iter().zip(solves) {
         if lump || !op.approximations.is_empty() {
             approximated += 1;
         }
         solved.push((p.describe(tbox), op.figures));
-        conditions.push(cond);
     }
     let names = solved[0].1.named().map(|(n, _)| n);
     let mut extents = Vec::new();
