@@ -12,43 +12,16 @@
 
 mod common;
 use railcheck::{Conditions, Figures, Supply, solve};
-use std::collections::BTreeMap;
 use std::path::Path;
 
-struct Case {
-    name: String,
-    file: String,
-    fault: String,
-    values: BTreeMap<String, f64>,
-}
+use common::FileCase as Case;
 
-/// The rows of the CSV: the case, its file and fault (text), its figures by column.
 fn cases() -> Vec<Case> {
-    common::reference_rows("ngspice_three_phase.csv")
-        .into_iter()
-        .map(|(name, mut cells)| {
-            let file = cells.remove("file").expect("a file column");
-            let fault = cells.remove("fault").unwrap_or_default();
-            let values = cells
-                .into_iter()
-                .map(|(k, v)| (k, v.parse::<f64>().expect("a number")))
-                .collect();
-            Case {
-                name,
-                file,
-                fault,
-                values,
-            }
-        })
-        .collect()
+    common::file_cases("ngspice_three_phase.csv")
 }
 
 fn supply(file: &str) -> Supply {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/reference")
-        .join(file);
-    Supply::from_toml_str(&std::fs::read_to_string(&path).unwrap())
-        .unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+    common::reference_supply(file)
 }
 
 fn engine(case: &Case) -> Figures {

@@ -46,6 +46,45 @@ pub fn reference_csv(name: &str) -> Vec<(String, BTreeMap<String, f64>)> {
         .collect()
 }
 
+/// One case of a stored reference CSV whose rows name a supply file (a `file` column,
+/// relative to tests/reference/) and perhaps a fault (a `fault` column, empty for none).
+pub struct FileCase {
+    pub name: String,
+    pub file: String,
+    pub fault: String,
+    pub values: BTreeMap<String, f64>,
+}
+
+/// The rows of such a CSV: the case, its file and fault (text), its figures by column.
+pub fn file_cases(csv: &str) -> Vec<FileCase> {
+    reference_rows(csv)
+        .into_iter()
+        .map(|(name, mut cells)| {
+            let file = cells.remove("file").expect("a file column");
+            let fault = cells.remove("fault").unwrap_or_default();
+            let values = cells
+                .into_iter()
+                .map(|(k, v)| (k, v.parse::<f64>().expect("a number")))
+                .collect();
+            FileCase {
+                name,
+                file,
+                fault,
+                values,
+            }
+        })
+        .collect()
+}
+
+/// The supply file `file` under tests/reference/.
+pub fn reference_supply(file: &str) -> railcheck::Supply {
+    let path = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/reference")
+        .join(file);
+    railcheck::Supply::from_toml_str(&std::fs::read_to_string(&path).unwrap())
+        .unwrap_or_else(|e| panic!("{}: {e}", path.display()))
+}
+
 /// A comparison of the engine's figures against a stored reference: each figure's relative
 /// error, the largest per figure with where it came, and the figures beyond their tolerance.
 #[derive(Default)]
