@@ -3,10 +3,12 @@
 
 use crate::analysis::cautions::{SAFE_TOUCH_V, cautions};
 use crate::analysis::checks::{self, Check, Status};
+use crate::analysis::valve;
 use crate::analysis::worst_case::{self, WorstCase};
+use crate::circuit::diode::DiodeParams;
 use crate::circuit::{self, CircuitError, Figure, Figures, HandEstimate, Operating};
 use crate::escape::printable;
-use crate::supply::{FilterKind, Supply, Topology};
+use crate::supply::{DiodeSpec, FilterKind, Supply, Topology};
 use crate::units::{format_number, format_si, format_uf};
 use serde_json::{Value, json};
 
@@ -27,6 +29,8 @@ pub struct Report {
     pub cautions: Vec<String>,
     /// The seeded statistical spread, when asked for.
     pub spread: Option<Vec<(&'static str, worst_case::Percentiles)>>,
+    /// A rectifier valve's supply with silicon in its place, when asked for.
+    pub solid_state: Option<valve::SolidState>,
 }
 
 /// Samples of the statistical spread, and its fixed seed (so a report is reproducible).
@@ -54,7 +58,22 @@ pub fn build(supply: Supply, file: &str, touch_v: f64) -> Result<Report, Circuit
         stress_no_load,
         cautions,
         spread: None,
+        solid_state: None,
     })
+}
+
+impl Report {
+    /// Adds the solid-state what-if (two more solves) when the rectifier is a valve; a
+    /// junction rectifier is left as it is.
+    pub fn with_solid_state(mut self) -> Result<Report, CircuitError> {
+        if valve::is_valve(&self.supply) {
+            self.solid_state = Some(valve::solid_state_what_if(
+                &self.supply,
+                &self.nominal.figures,
+            )?);
+        }
+        Ok(self)
+    }
 }
 
 /// [`build`] plus the seeded statistical spread (2,000 solves, a few tenths of a second).
@@ -141,6 +160,87 @@ fn choke_words(s: &Supply) -> String {
     }
 }
 
+/// A rectifier valve's law and limits, in words: one line for the law, one for the limits
+/// it is held to (and where they come from); nothing for a junction rectifier.
+pub fn valve_words(s: &Supply) -> Vec<String> {
+    let (Ok(DiodeParams::Valve { drop_v, at_a }), Some(l)) =
+        (s.rectifier_diode(), valve::limits(s))
+    else {
+        return Vec::new();
+    };
+    let named = match &s.rectifier.diode {
+        DiodeSpec::Preset(p) => format!("{p}, "),
+        DiodeSpec::Fixed { .. } | DiodeSpec::Junction { .. } | DiodeSpec::Valve { .. } => {
+            String::new()
+        }
+    };
+    let heated = if l.directly_heated {
+        "directly heated"
+    } else {
+        "indirectly heated"
+    };
+    let mut limits = Vec::new();
+    if let Some(uf) = l.max_first_uf {
+        limits.push(format!("first capacitor {} uF", format_number(uf)));
+    }
+    if let Some([(v0, r0), (v1, r1)]) = l.min_plate_ohms {
+        limits.push(if r0 == r1 {
+            format!("plate supply impedance {} ohm", format_number(r0))
+        } else {
+            format!(
+                "plate supply impedance {}-{} ohm from {} to {} V RMS",
+                format_number(r0),
+                format_number(r1),
+                format_number(v0),
+                format_number(v1)
+            )
+        });
+    }
+    if let Some(a) = l.peak_a {
+        limits.push(format!("peak {} a plate", format_si(a, "A")));
+    }
+    if let Some(v) = l.piv_v {
+        limits.push(format!("PIV {} V", format_number(v)));
+    }
+    if let Some(a) = l.dc_a {
+        limits.push(format!("DC {}", format_si(a, "A")));
+    }
+    let source = if matches!(s.rectifier.diode, DiodeSpec::Preset(_)) {
+        " (typical of its class, from memory, where the file states none)"
+    } else {
+        ""
+    };
+    let mut out = vec![format!(
+        "rectifier valve: {named}{} V at {} a plate (three-halves-power law), {heated}",
+        format_number(drop_v),
+        format_si(at_a, "A")
+    )];
+    if !limits.is_empty() {
+        out.push(format!("valve limits{source}: {}", limits.join(", ")));
+    }
+    out
+}
+
+/// The valve's law and limits for the JSON (null for a junction rectifier).
+fn valve_json(s: &Supply) -> Value {
+    let (Ok(DiodeParams::Valve { drop_v, at_a }), Some(l)) =
+        (s.rectifier_diode(), valve::limits(s))
+    else {
+        return Value::Null;
+    };
+    json!({
+        "drop_v": drop_v,
+        "at_a": at_a,
+        "directly_heated": l.directly_heated,
+        "max_first_uf": l.max_first_uf,
+        "min_plate_ohms": valve::plate_vrms(s).and_then(|v| l.min_plate_ohms_at(v)),
+        "plate_supply_ohms": valve::plate_supply_ohms(s),
+        "rated_peak_a": l.peak_a,
+        "rated_piv_v": l.piv_v,
+        "rated_dc_a": l.dc_a,
+    })
+}
+
 fn show(value: Option<f64>, unit: &str) -> String {
     match (value, unit) {
         (None, _) => "unlimited".into(),
@@ -173,6 +273,9 @@ impl Report {
         ));
         if s.rectifier.topology.rails() == 2 {
             out.push_str("  split rail: figures are the + rail; the - rail mirrors it\n");
+        }
+        for line in valve_words(s) {
+            out.push_str(&format!("  {line}\n"));
         }
         if let Ok(w) = s.winding()
             && w.source == crate::circuit::winding::WindingSource::Nameplate
@@ -262,6 +365,12 @@ impl Report {
                 }
             }
         }
+        if let Some(w) = &self.solid_state {
+            out.push_str("\n  Solid-state replacement (silicon junctions in place of the valve)\n");
+            for line in w.lines() {
+                out.push_str(&format!("  - {line}\n"));
+            }
+        }
         let h = &self.hand;
         out.push_str("\n  Hand estimate (paper method)\n");
         if let Some(why) = h.not_applicable {
@@ -347,12 +456,16 @@ impl Report {
             "worst_case": worst,
             "checks": self.checks,
             "not_rated": self.not_rated,
-            "voltage_checks_at": if self.stress_no_load {
+            "voltage_checks_at": if valve::warm_up_soar(&self.supply) {
+                "high line, no load (a directly heated valve's warm-up soar)"
+            } else if self.stress_no_load {
                 "high line, no load (no minimum load stated)"
             } else {
                 "high line, lightest load"
             },
             "cautions": self.cautions,
+            "valve": valve_json(&self.supply),
+            "solid_state": self.solid_state,
             "spread": self.spread.as_ref().map(|s| s
                 .iter()
                 .map(|(n, p)| (n.to_string(), serde_json::to_value(p).expect("percentiles")))

@@ -243,7 +243,11 @@ fn entering_a_bench_supply_takes_at_most_sixty_keys() {
     press(&mut app, &chars("36"));
     press(&mut app, &[Msg::Enter]);
     press(&mut app, &[Msg::Enter, Msg::Backspace, Msg::Enter]); // template winding out
-    press(&mut app, &[Msg::PageDown, Msg::Down, Msg::Down]); // to the capacitor, past the leakage rows
+    // To the capacitor, past the leakage rows and the rectifier's ratings.
+    press(
+        &mut app,
+        &[Msg::PageDown, Msg::Down, Msg::Down, Msg::Down, Msg::Down],
+    );
     press(&mut app, &chars("4700"));
     press(&mut app, &[Msg::Enter, Msg::Down, Msg::Down, Msg::Down]);
     press(&mut app, &chars("35"));

@@ -229,6 +229,8 @@ fn every_rated_check_turns_on_its_limit() {
             ("rectifier", "rated_piv_v") => s.rectifier.rated_piv_v = Some(v),
             ("rectifier", "rated_a") => s.rectifier.rated_a = Some(v),
             ("rectifier", "surge_a") => s.rectifier.surge_a = Some(v),
+            ("rectifier", "rated_peak_a") => s.rectifier.rated_peak_a = Some(v),
+            ("rectifier", "rated_dc_a") => s.rectifier.rated_dc_a = Some(v),
             ("transformer", "rated_va") => s.transformer.rated_va = Some(v),
             _ => unreachable!(),
         }
@@ -239,6 +241,8 @@ fn every_rated_check_turns_on_its_limit() {
         ("rectifier", "rated_piv_v", "diode-piv"),
         ("rectifier", "rated_a", "diode-current"),
         ("rectifier", "surge_a", "diode-surge"),
+        ("rectifier", "rated_peak_a", "peak-current"),
+        ("rectifier", "rated_dc_a", "dc-output"),
         ("transformer", "rated_va", "transformer-va"),
     ] {
         let worst = with(table, key, 1e5)

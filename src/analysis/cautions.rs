@@ -108,6 +108,14 @@ pub fn cautions(supply: &Supply, peak_v: f64, touch_v: f64) -> Vec<String> {
                 .into(),
         );
     }
+    if super::valve::warm_up_soar(supply) {
+        out.push(format!(
+            "Valve warm-up: a directly heated rectifier valve conducts within seconds, before \
+             the amplifier's own valves draw current, so the rail first soars towards its \
+             no-load peak ({peak_v:.0} V at high line); the capacitor check is made there. \
+             A high-tension rail is lethal: discharge it and measure before touching."
+        ));
+    }
     let leaky = supply.winding().is_ok_and(|w| w.leakage_h > 0.0);
     if leaky || f.kind.is_choke_input() {
         out.push(

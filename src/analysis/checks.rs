@@ -39,6 +39,64 @@ pub struct Check {
     pub message: String,
 }
 
+/// A rectifier valve's own limits: the largest first capacitor its cathode survives the
+/// charging pulses of, and the least plate supply impedance that holds those pulses down.
+fn valve_checks(
+    supply: &Supply,
+    v: &crate::circuit::diode::ValveLimits,
+    out: &mut Vec<Check>,
+    not_rated: &mut Vec<&'static str>,
+) {
+    let f = &supply.filter;
+    match (
+        v.max_first_uf,
+        f.uf.filter(|_| f.kind.has_capacitor() && !f.kind.is_choke_input()),
+    ) {
+        (Some(limit), Some(uf)) => {
+            // At its upper tolerance: the part fitted may be the largest the label allows.
+            let high = uf * (1.0 + f.high_pct / 100.0);
+            out.push(at_most(
+                "valve-first-cap",
+                high,
+                limit,
+                "first capacitor",
+                "uF",
+                &format!("{} uF at +{} %", fmt_value(uf), fmt_value(f.high_pct)),
+            ));
+        }
+        (None, Some(_)) => not_rated.push("valve-first-cap"),
+        (_, None) => {}
+    }
+    let plate = super::valve::plate_vrms(supply);
+    match (
+        plate.and_then(|p| v.min_plate_ohms_at(p)),
+        super::valve::plate_supply_ohms(supply),
+    ) {
+        (Some(need), Some(ohms)) => out.push(at_least(
+            "valve-plate-impedance",
+            ohms,
+            need,
+            "plate supply impedance per plate",
+            "ohm",
+            &format!(
+                "winding, reflected primary and leakage reactance at {} V RMS a plate",
+                fmt_value(plate.unwrap_or(0.0))
+            ),
+        )),
+        _ => not_rated.push("valve-plate-impedance"),
+    }
+}
+
+/// A number as the checks' words give it: three significant figures, no more than the
+/// values they come from carry.
+fn fmt_value(v: f64) -> String {
+    if v == 0.0 || !v.is_finite() {
+        return crate::units::format_number(v);
+    }
+    let decimals = (2 - v.abs().log10().floor() as i32).max(0) as usize;
+    format!("{v:.decimals$}")
+}
+
 /// A value that must stay at or below `limit` (a rating).
 fn at_most(id: &'static str, value: f64, limit: f64, what: &str, unit: &str, at: &str) -> Check {
     let status = if value > limit {
@@ -96,7 +154,11 @@ pub fn checks(
 ) -> (Vec<Check>, Vec<&'static str>) {
     let mut out = Vec::new();
     let mut not_rated = Vec::new();
-    let stress_words = if no_load {
+    let valve = super::valve::limits(supply);
+    let stress_words = if valve.is_some_and(|v| v.directly_heated) {
+        "high line, no load at warm-up: a directly heated valve conducts before the \
+         amplifier's valves draw current, so the rail first soars to its no-load peak"
+    } else if no_load {
         "high line, no load: no minimum load is stated"
     } else {
         "high line, lightest load"
@@ -187,7 +249,7 @@ pub fn checks(
         }
     }
     let r = &supply.rectifier;
-    match r.rated_piv_v {
+    match r.rated_piv_v.or(valve.and_then(|v| v.piv_v)) {
         Some(rated) => {
             let piv = stress
                 .diode_piv_v
@@ -213,6 +275,45 @@ pub fn checks(
             &at,
         )),
         _ => not_rated.push("diode-current"),
+    }
+    match (
+        r.rated_peak_a.or(valve.and_then(|v| v.peak_a)),
+        max_of(Figure::DiodePeakA),
+    ) {
+        (Some(rated), Some((v, at))) => out.push(at_most(
+            "peak-current",
+            v,
+            rated,
+            if valve.is_some() {
+                "one plate's peak current"
+            } else {
+                "diode peak current"
+            },
+            "A",
+            &at,
+        )),
+        // A junction rectifier is usually rated by its average and surge currents: its
+        // peak is said as not rated only for a valve, whose data sheet always gives one.
+        _ if valve.is_some() => not_rated.push("peak-current"),
+        _ => {}
+    }
+    match (
+        r.rated_dc_a.or(valve.and_then(|v| v.dc_a)),
+        max_of(Figure::LoadA),
+    ) {
+        (Some(rated), Some((v, at))) => out.push(at_most(
+            "dc-output",
+            v,
+            rated,
+            "rectifier's DC output current",
+            "A",
+            &at,
+        )),
+        _ if valve.is_some() => not_rated.push("dc-output"),
+        _ => {}
+    }
+    if let Some(v) = valve {
+        valve_checks(supply, &v, &mut out, &mut not_rated);
     }
     match (r.surge_a, stress.inrush_peak_a) {
         (Some(rated), Some(surge)) => out.push(at_most(

@@ -6,6 +6,7 @@ pub mod cautions;
 pub mod checks;
 pub mod choke;
 pub mod sizing;
+pub mod valve;
 pub mod worst_case;
 
 pub use choke::choke_guess;

@@ -91,6 +91,11 @@ pub const LEAKAGE_ALLOWANCE: f64 = 0.5;
 /// saturation current varies about twofold batch to batch (practice), which moves a silicon
 /// rectifier's drop by about 4 %.
 pub const ASSUMED_DROP_SPREAD_PCT: f64 = 5.0;
+/// A rectifier valve's plate drop, below and above its data-sheet figure, percent, when the
+/// file states no spread: new valves of one type differ in emission by some tens of percent,
+/// and a valve's emission falls as it wears, so the range reaches further up (a judgement
+/// from common practice, not a published figure; the diagnosis names a weak valve beyond it).
+pub const ASSUMED_VALVE_DROP_SPREAD_PCT: (f64, f64) = (10.0, 30.0);
 
 /// A resistive load's spread assumed when no range is stated, percent either way (the E24
 /// resistors' +-5 %, practice).
@@ -188,8 +193,18 @@ impl ToleranceBox {
             supply.rectifier_diode(),
             Ok(DiodeParams::Fixed { drop_v, ohms: _ }) if drop_v == 0.0
         );
+        let valve = super::valve::is_valve(supply);
         match supply.rectifier.drop_spread_pct {
             Some(p) => axes.push(Axis::percent(AxisKind::DiodeDrop, p, p)),
+            None if valve => {
+                let (low, high) = ASSUMED_VALVE_DROP_SPREAD_PCT;
+                let mut a = Axis::percent(AxisKind::DiodeDrop, low, high);
+                a.assumed = Some(format!(
+                    "valve drop spread not stated: -{low:.0} % / +{high:.0} % assumed (valves \
+                     of a type differ in emission, and a worn one drops more)"
+                ));
+                axes.push(a);
+            }
             None if !ideal_diode => {
                 let p = ASSUMED_DROP_SPREAD_PCT;
                 let mut a = Axis::percent(AxisKind::DiodeDrop, p, p);
@@ -721,6 +736,11 @@ pub fn voltage_stress(supply: &Supply) -> Result<(Figures, bool), CircuitError> 
             AxisKind::Leakage => cond.leakage_factor = axis.low,
             AxisKind::Capacitance => {}
         }
+    }
+    // A directly heated valve conducts before the amplifier's own valves draw current: the
+    // rail first soars towards its no-load peak, whatever load is stated.
+    if super::valve::warm_up_soar(supply) {
+        assumed_no_load = true;
     }
     if assumed_no_load {
         cond.load = Some(LoadOverride::Amps(0.0));

@@ -1,6 +1,8 @@
 //! Rectifier diode laws, and the current through a string of diodes in series with a resistance.
 
-use crate::supply::{DIODE_OHMS, DROP_V, DiodeSpec, EMISSION_N, IS_A, RS_OHMS, SupplyError};
+use crate::supply::{
+    DIODE_OHMS, DROP_V, DiodeSpec, EMISSION_N, IS_A, RS_OHMS, SupplyError, VALVE_AT_A, VALVE_DROP_V,
+};
 
 /// Boltzmann constant over the electron charge, volts per kelvin.
 const K_OVER_Q: f64 = 8.617_333_262e-5;
@@ -13,6 +15,10 @@ pub enum DiodeLaw {
     /// Shockley diode equation with emission coefficient and series resistance:
     /// i = is (exp(v_j / (n vt)) - 1), v = v_j + i rs.
     Junction { is_a: f64, n_vt: f64, rs_ohms: f64 },
+    /// A rectifier valve's plate: the three-halves-power law of space-charge-limited
+    /// emission (Child-Langmuir), i = perveance v^1.5 for v > 0 and nothing below,
+    /// `perveance` in amps per volt^1.5.
+    Valve { perveance: f64 },
 }
 
 impl DiodeLaw {
@@ -30,10 +36,14 @@ impl DiodeLaw {
                 n_vt: n * K_OVER_Q * (temp_c + 273.15),
                 rs_ohms,
             },
+            DiodeParams::Valve { drop_v, at_a } => DiodeLaw::Valve {
+                perveance: valve_perveance(drop_v, at_a),
+            },
         }
     }
 
-    /// The same law with every forward drop scaled by `factor` (diode spread in the worst case).
+    /// The same law with every forward drop scaled by `factor` (diode spread in the worst case;
+    /// a valve's emission spread and ageing: at the same current a weak valve drops more).
     pub fn with_drop_scaled(self, factor: f64) -> DiodeLaw {
         match self {
             DiodeLaw::Fixed { drop_v, ohms } => DiodeLaw::Fixed {
@@ -49,7 +59,16 @@ impl DiodeLaw {
                 n_vt: n_vt * factor,
                 rs_ohms: rs_ohms * factor,
             },
+            // v = (i / G)^(2/3): scaling v by k at every i divides G by k^1.5.
+            DiodeLaw::Valve { perveance } => DiodeLaw::Valve {
+                perveance: perveance / factor.powf(1.5),
+            },
         }
+    }
+
+    /// Whether the law is a rectifier valve's.
+    pub fn is_valve(&self) -> bool {
+        matches!(self, DiodeLaw::Valve { .. })
     }
 
     /// Forward voltage of one diode at `amps`, volts.
@@ -61,6 +80,7 @@ impl DiodeLaw {
                 n_vt,
                 rs_ohms,
             } => n_vt * (amps / is_a).ln_1p() + amps * rs_ohms,
+            DiodeLaw::Valve { perveance } => (amps.max(0.0) / perveance).powf(2.0 / 3.0),
         }
     }
 
@@ -104,8 +124,41 @@ impl DiodeLaw {
                 let z = wright_omega(w);
                 (a * z / r - is_a).max(0.0)
             }
+            DiodeLaw::Valve { perveance } => {
+                if volts <= 0.0 {
+                    return 0.0;
+                }
+                // With u = (i / G)^(1/3): volts = r G u^3 + m u^2, increasing and convex for
+                // u > 0, so Newton from above (the smaller of the two terms' own roots, each
+                // at or above the root) falls onto it without overshooting.
+                let a = ohms.max(0.0) * perveance;
+                let mut u = (volts / m).sqrt();
+                if a > 0.0 {
+                    u = u.min((volts / a).cbrt());
+                }
+                for _ in 0..60 {
+                    let f = a * u * u * u + m * u * u - volts;
+                    let slope = 3.0 * a * u * u + 2.0 * m * u;
+                    if slope <= 0.0 {
+                        break;
+                    }
+                    let next = u - f / slope;
+                    let settled = (u - next).abs() <= 1e-15 * u;
+                    u = next.max(0.0);
+                    if settled {
+                        break;
+                    }
+                }
+                perveance * u * u * u
+            }
         }
     }
+}
+
+/// A valve plate's perveance (amps per volt^1.5) from one point of its data sheet: `drop_v`
+/// volts at `at_a` amps.
+pub fn valve_perveance(drop_v: f64, at_a: f64) -> f64 {
+    at_a / drop_v.powf(1.5)
 }
 
 /// Solves z + ln z = w for z > 0 (the Wright omega function).
@@ -200,6 +253,11 @@ pub enum DiodeParams {
         rs_ohms: f64,
         temp_c: f64,
     },
+    /// A rectifier valve's plate through its data-sheet point: `drop_v` volts at `at_a` amps.
+    Valve {
+        drop_v: f64,
+        at_a: f64,
+    },
 }
 
 /// A named diode the file can give as `diode = "NAME"`.
@@ -210,11 +268,49 @@ pub struct Preset {
     pub law: DiodeParams,
     /// The drop the paper estimate takes for it, volts (the textbook's round figure).
     pub paper_drop_v: f64,
+    /// A rectifier valve's data-sheet limits, typical of its class; None for a junction.
+    pub valve: Option<ValveLimits>,
+}
+
+/// What a rectifier valve's data sheet limits, per valve (both plates of a full-wave one).
+/// Each is None where the file states none and no preset gives one.
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
+pub struct ValveLimits {
+    /// The largest first (reservoir) capacitance, microfarads.
+    pub max_first_uf: Option<f64>,
+    /// The least plate supply impedance per plate, ohms, at two RMS plate voltages (volts,
+    /// ohms), drawn straight between them and held beyond: data sheets ask more of the winding
+    /// the higher its voltage.
+    pub min_plate_ohms: Option<[(f64, f64); 2]>,
+    /// The peak current of one plate, amps.
+    pub peak_a: Option<f64>,
+    /// The peak inverse voltage, volts.
+    pub piv_v: Option<f64>,
+    /// The DC output current, amps.
+    pub dc_a: Option<f64>,
+    /// A directly heated filament: the valve conducts within seconds, before the amplifier's
+    /// own valves draw current, so the rail first soars to its no-load peak.
+    pub directly_heated: bool,
+}
+
+impl ValveLimits {
+    /// The least plate supply impedance per plate at `plate_vrms` volts RMS, ohms.
+    pub fn min_plate_ohms_at(&self, plate_vrms: f64) -> Option<f64> {
+        let [(v0, r0), (v1, r1)] = self.min_plate_ohms?;
+        let s = ((plate_vrms - v0) / (v1 - v0)).clamp(0.0, 1.0);
+        Some(r0 + (r1 - r0) * s)
+    }
 }
 
 /// Every preset, in the order the form offers them. One table: the law, the name the file
-/// uses and the paper estimate's drop.
-pub const PRESETS: [Preset; 4] = [
+/// uses, the paper estimate's drop and a valve's limits.
+///
+/// The three valve classes stand for the usual range of full-wave rectifier valves. Their
+/// drop points are the typical published figures of each class (common practice: about 60 V
+/// at 125 mA, 45 V at 225 mA, 17 V at 250 mA per plate); their limits are typical published
+/// values of the class from memory, rounded, not any one maker's sheet: a technician with the
+/// valve's own sheet states its figures in `[rectifier]`, which take precedence.
+pub const PRESETS: [Preset; 7] = [
     // Junction parameters near a generic 1 A silicon rectifier's simulator model (domain
     // notes, memory): 0.9 V at 1 A.
     Preset {
@@ -226,6 +322,7 @@ pub const PRESETS: [Preset; 4] = [
             temp_c: 27.0,
         },
         paper_drop_v: 0.7,
+        valve: None,
     },
     // Fast-recovery silicon: about 1.0 V at 1 A (our own round figures).
     Preset {
@@ -237,6 +334,7 @@ pub const PRESETS: [Preset; 4] = [
             temp_c: 27.0,
         },
         paper_drop_v: 0.7,
+        valve: None,
     },
     // Schottky: about 0.37 V at 1 A, inside the 0.3-0.6 V of practice.
     Preset {
@@ -248,6 +346,7 @@ pub const PRESETS: [Preset; 4] = [
             temp_c: 27.0,
         },
         paper_drop_v: 0.4,
+        valve: None,
     },
     Preset {
         name: "ideal",
@@ -256,6 +355,60 @@ pub const PRESETS: [Preset; 4] = [
             ohms: 0.0,
         },
         paper_drop_v: 0.0,
+        valve: None,
+    },
+    // A high-drop, directly heated valve of modest current (the small receiver and
+    // practice-amplifier class).
+    Preset {
+        name: "valve-high-drop",
+        law: DiodeParams::Valve {
+            drop_v: 60.0,
+            at_a: 0.125,
+        },
+        paper_drop_v: 60.0,
+        valve: Some(ValveLimits {
+            max_first_uf: Some(20.0),
+            min_plate_ohms: Some([(350.0, 50.0), (500.0, 140.0)]),
+            peak_a: Some(0.44),
+            piv_v: Some(1400.0),
+            dc_a: Some(0.125),
+            directly_heated: true,
+        }),
+    },
+    // A medium-drop, directly heated valve for larger amplifiers.
+    Preset {
+        name: "valve-medium-drop",
+        law: DiodeParams::Valve {
+            drop_v: 45.0,
+            at_a: 0.225,
+        },
+        paper_drop_v: 45.0,
+        valve: Some(ValveLimits {
+            max_first_uf: Some(40.0),
+            min_plate_ohms: Some([(300.0, 21.0), (450.0, 67.0)]),
+            peak_a: Some(1.0),
+            piv_v: Some(1550.0),
+            dc_a: Some(0.275),
+            directly_heated: true,
+        }),
+    },
+    // A low-drop, indirectly heated valve (close spaced, slow to warm, like the amplifier's
+    // own valves).
+    Preset {
+        name: "valve-low-drop",
+        law: DiodeParams::Valve {
+            drop_v: 17.0,
+            at_a: 0.25,
+        },
+        paper_drop_v: 17.0,
+        valve: Some(ValveLimits {
+            max_first_uf: Some(60.0),
+            min_plate_ohms: Some([(300.0, 75.0), (450.0, 150.0)]),
+            peak_a: Some(0.75),
+            piv_v: Some(1500.0),
+            dc_a: Some(0.25),
+            directly_heated: false,
+        }),
     },
 ];
 
@@ -278,14 +431,15 @@ impl crate::supply::Supply {
                     rs_ohms,
                     temp_c,
                 },
-                Some(fixed @ DiodeParams::Fixed { .. }) => fixed,
+                Some(other @ (DiodeParams::Fixed { .. } | DiodeParams::Valve { .. })) => other,
                 None => {
                     let names: Vec<&str> = PRESETS.iter().map(|p| p.name).collect();
                     return Err(SupplyError::out_of_range(
                         "rectifier.diode",
                         format!("{name:?}"),
                         format!(
-                            "{}, or a table {{ drop_v, ohms }} or {{ is_a, n, rs_ohms }}",
+                            "{}, or a table {{ drop_v, ohms }}, {{ is_a, n, rs_ohms }} or \
+                             {{ law = \"valve\", drop_v, at_a }}",
                             names.join(", ")
                         ),
                     ));
@@ -297,6 +451,14 @@ impl crate::supply::Supply {
                 DiodeParams::Fixed {
                     drop_v: *drop_v,
                     ohms: *ohms,
+                }
+            }
+            DiodeSpec::Valve { drop_v, at_a, .. } => {
+                VALVE_DROP_V.check(*drop_v)?;
+                VALVE_AT_A.check(*at_a)?;
+                DiodeParams::Valve {
+                    drop_v: *drop_v,
+                    at_a: *at_a,
                 }
             }
             DiodeSpec::Junction { is_a, n, rs_ohms } => {

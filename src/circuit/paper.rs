@@ -54,6 +54,8 @@ pub fn hand_estimate(supply: &Supply) -> Result<HandEstimate, SupplyError> {
         }
         crate::supply::DiodeSpec::Fixed { drop_v, .. } => *drop_v,
         crate::supply::DiodeSpec::Junction { .. } => 0.7,
+        // A valve's data-sheet drop at its stated current: the paper figure of a plate.
+        crate::supply::DiodeSpec::Valve { drop_v, .. } => *drop_v,
     };
     let secondary_peak = supply.mains.vrms / winding.ratio * supply.mains.crest();
     // Each capacitor of a doubler charges to the winding's peak through one diode (the two

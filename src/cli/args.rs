@@ -41,6 +41,10 @@ pub enum Command {
         /// Add a seeded statistical spread (2,000 samples): each figure's 1st-99th percentile.
         #[arg(long)]
         spread: bool,
+        /// A rectifier valve's supply: add the same with silicon junctions in the valve's place
+        /// (the rise in B+, the peak currents, the switch-on soar).
+        #[arg(long)]
+        solid_state: bool,
     },
     /// The smallest E6 and E12 filter capacitor meeting a target at the worst case.
     #[command(group(

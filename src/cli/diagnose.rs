@@ -36,6 +36,7 @@ pub fn fault_words(fault: Fault) -> &'static str {
         Fault::ChokeOpen => "choke open",
         Fault::PhaseLost => "a phase lost (a blown fuse or an open line)",
         Fault::ReactorShorted => "line reactor shorted (its inductance gone)",
+        Fault::WeakValve => "rectifier valve weak (its emission fallen)",
     }
 }
 
@@ -94,6 +95,10 @@ pub fn estimate_words(h: &Hypothesis, supply: &Supply) -> Option<String> {
         (Fault::ChokeOpen, _) => crate::diagnose::CHOKE_OPEN_WORDS.into(),
         (Fault::PhaseLost, _) => crate::diagnose::PHASE_LOST_WORDS.into(),
         (Fault::ReactorShorted, _) => crate::diagnose::REACTOR_SHORTED_WORDS.into(),
+        (Fault::WeakValve, Some((_, v))) => format!(
+            "the valve drops about {} V at its data sheet's current",
+            format_number((v * 10.0).round() / 10.0)
+        ),
         (_, Some((key, v))) if !key.is_empty() => format!("{key} about {}", format_number(v)),
         _ => return None,
     };

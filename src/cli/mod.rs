@@ -84,7 +84,19 @@ pub fn dispatch(cli: Cli, out: &mut impl Write) -> Result<ExitCode> {
             json,
             touch_v,
             spread,
-        }) => report::run(out, &files, json, touch_v, spread, dir, no_demo),
+            solid_state,
+        }) => report::run(
+            out,
+            &files,
+            json,
+            touch_v,
+            report::Extras {
+                spread,
+                solid_state,
+            },
+            dir,
+            no_demo,
+        ),
         Some(Command::Size {
             file,
             ripple_pp,

@@ -21,6 +21,15 @@ pub fn render(out: &mut impl Write, r: &Report, json: bool, first: bool) -> std:
     }
 }
 
+/// What a report adds on request.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Extras {
+    /// The seeded statistical spread.
+    pub spread: bool,
+    /// A valve rectifier's solid-state what-if.
+    pub solid_state: bool,
+}
+
 /// Reports each file in turn; a file that cannot be read or solved is named on stderr and the
 /// rest still report (exit status 2 if any failed, else 1 if a rating check failed).
 pub fn run(
@@ -28,7 +37,7 @@ pub fn run(
     files: &[String],
     json: bool,
     touch_v: f64,
-    spread: bool,
+    extras: Extras,
     cli_dir: &Option<PathBuf>,
     no_demo: bool,
 ) -> Result<ExitCode> {
@@ -42,10 +51,14 @@ pub fn run(
     let mut check_failed = false;
     for (i, path) in files.iter().enumerate() {
         let outcome = resolve(path, cli_dir, no_demo).and_then(|(supply, file)| {
-            let built = if spread {
+            let built = if extras.spread {
                 report::build_with_spread(supply, &file, touch_v)
             } else {
                 report::build(supply, &file, touch_v)
+            };
+            let built = match built {
+                Ok(r) if extras.solid_state => r.with_solid_state(),
+                other => other,
             };
             built.map_err(|e| anyhow::anyhow!("{file}: {e}"))
         });

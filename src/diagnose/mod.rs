@@ -174,10 +174,13 @@ pub enum Fault {
     PhaseLost,
     /// The line reactor (or DC link choke's line side) shorted: its inductance gone.
     ReactorShorted,
+    /// A rectifier valve whose emission has fallen: it drops more, B+ sits lower, the ripple
+    /// keeps its frequency.
+    WeakValve,
 }
 
 impl Fault {
-    pub const ALL: [Fault; 16] = [
+    pub const ALL: [Fault; 17] = [
         Fault::Healthy,
         Fault::CapacitanceLow,
         Fault::EsrHigh,
@@ -194,6 +197,7 @@ impl Fault {
         Fault::ChokeOpen,
         Fault::PhaseLost,
         Fault::ReactorShorted,
+        Fault::WeakValve,
     ];
 
     /// The name used in JSON and on screen.
@@ -215,6 +219,7 @@ impl Fault {
             Fault::ChokeOpen => "choke-open",
             Fault::PhaseLost => "phase-lost",
             Fault::ReactorShorted => "reactor-shorted",
+            Fault::WeakValve => "weak-rectifier-valve",
         }
     }
 
@@ -226,6 +231,7 @@ impl Fault {
             Fault::MainsLow | Fault::MainsHigh => &[AxisKind::Mains],
             Fault::LoadHeavy | Fault::LoadLight => &[AxisKind::LoadAmps, AxisKind::LoadOhms],
             Fault::SecondaryLow => &[AxisKind::Ratio],
+            Fault::WeakValve => &[AxisKind::DiodeDrop],
             Fault::Healthy
             | Fault::EsrHigh
             | Fault::RectifierLegOpen
@@ -281,6 +287,11 @@ impl Fault {
             Fault::ReactorShorted => {
                 "power off and discharge; measure the reactor's inductance out of circuit and \
                  look for a bridge across its terminals"
+            }
+            Fault::WeakValve => {
+                "read the DC between each plate and the cathode under load (the drop against \
+                 the data sheet's), or try a known-good valve of the type; a valve tester's \
+                 emission reading settles it"
             }
         }
     }
@@ -403,6 +414,7 @@ fn conditions(fault: Fault, x: f64, base: &Conditions, supply: &Supply) -> Condi
         Fault::ChokeOpen => c.choke_open = true,
         Fault::PhaseLost => c.phase_lost = true,
         Fault::ReactorShorted => c.reactor_shorted = true,
+        Fault::WeakValve => c.drop_factor = x,
         Fault::Healthy | Fault::RegulatorDropout | Fault::NoOutput => {}
     }
     c
@@ -433,6 +445,16 @@ fn search_range(fault: Fault, supply: &Supply, mains_known: bool) -> Option<(f64
         Fault::SecondaryLow => Some((1.03, 3.0)),
         Fault::LoadHeavy => Some((1.15, 8.0)),
         Fault::LoadLight => Some((0.0, 0.85)),
+        // Beyond the drop's stated or assumed spread: a worn valve, up to four times the
+        // data sheet's drop (past that the rail is all but gone, a dead valve).
+        Fault::WeakValve => {
+            let high = crate::analysis::worst_case::ToleranceBox::of(supply)
+                .axes
+                .iter()
+                .find(|a| a.kind == AxisKind::DiodeDrop)
+                .map_or(1.3, |a| a.high);
+            Some((high * 1.02, 4.0))
+        }
         Fault::MainsLow
         | Fault::MainsHigh
         | Fault::Healthy
@@ -644,6 +666,7 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             Fault::RectifierLegOpen => full_wave && !three_phase,
             Fault::PhaseLost => three_phase,
             Fault::ReactorShorted => reactor,
+            Fault::WeakValve => crate::analysis::valve::is_valve(supply),
             Fault::MainsLow | Fault::MainsHigh => true,
             Fault::RegulatorDropout => supply.regulator.is_some(),
             Fault::ChokeShorted | Fault::ChokeOpen => choke,
@@ -714,7 +737,8 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             | Fault::ChokeShorted
             | Fault::ChokeOpen
             | Fault::PhaseLost
-            | Fault::ReactorShorted => match search_range(fault, supply, mains_known) {
+            | Fault::ReactorShorted
+            | Fault::WeakValve => match search_range(fault, supply, mains_known) {
                 Some((lo, hi)) if lo < hi => {
                     let (x, chi2) = fit(lo, hi, |x| {
                         judged(fault, conditions(fault, x, &base, supply))
@@ -767,7 +791,8 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
                             | Fault::ChokeShorted
                             | Fault::ChokeOpen
                             | Fault::PhaseLost
-                            | Fault::ReactorShorted => false,
+                            | Fault::ReactorShorted
+                            | Fault::WeakValve => false,
                         };
                         if !outside {
                             continue;
@@ -801,7 +826,8 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             | Fault::ChokeShorted
             | Fault::ChokeOpen
             | Fault::PhaseLost
-            | Fault::ReactorShorted => FAULT_PRIOR,
+            | Fault::ReactorShorted
+            | Fault::WeakValve => FAULT_PRIOR,
         };
         let penalty = implausibility(fault, estimate, supply);
         hyps.push(Hypothesis {
@@ -886,6 +912,13 @@ fn estimate_of(fault: Fault, x: f64, supply: &Supply, base: &Conditions) -> (&'s
                 .unwrap_or(0.0);
             ("load_a", amps)
         }
+        Fault::WeakValve => (
+            "plate_drop_v",
+            match supply.rectifier_diode() {
+                Ok(crate::circuit::diode::DiodeParams::Valve { drop_v, .. }) => drop_v * x,
+                _ => x,
+            },
+        ),
         Fault::Healthy
         | Fault::CapacitorOpen
         | Fault::RectifierLegOpen
@@ -922,7 +955,8 @@ fn implausibility(fault: Fault, estimate: Option<(&'static str, f64)>, supply: &
         | Fault::ChokeShorted
         | Fault::ChokeOpen
         | Fault::PhaseLost
-        | Fault::ReactorShorted => 0.0,
+        | Fault::ReactorShorted
+        | Fault::WeakValve => 0.0,
     }
 }
 
@@ -1013,6 +1047,10 @@ fn reason(h: &Hypothesis, supply: &Supply, ex: &[Expectation]) -> String {
         (Fault::ChokeOpen, _) => format!("{} ({off})", CHOKE_OPEN_WORDS),
         (Fault::PhaseLost, _) => format!("{} ({off})", PHASE_LOST_WORDS),
         (Fault::ReactorShorted, _) => format!("{} ({off})", REACTOR_SHORTED_WORDS),
+        (Fault::WeakValve, Some((_, v))) => format!(
+            "the valve behaves as if it dropped about {v:.0} V at its data sheet's current: \
+             its emission has fallen ({off})"
+        ),
         _ => off,
     }
 }

@@ -81,6 +81,14 @@ pub fn supplies() -> Vec<(&'static str, String)> {
             "workshop-bench-converter-front-end",
             include_str!("../../examples/bench-converter-front-end.toml").to_string(),
         ),
+        (
+            "hall-gramophone-amplifier-ht-rail",
+            format!(
+                "{}{}",
+                include_str!("../../examples/hall-gramophone-amplifier-ht.toml"),
+                GRAMOPHONE_VISITS
+            ),
+        ),
     ]
 }
 
@@ -182,6 +190,28 @@ mains_vrms = 229.0
 dc_v = 10.5
 ripple_rms_v = 0.52
 notes = "Radio drops out on transmit (demo)."
+"#;
+
+// Invented readings: the rectifier valve wears, and B+ falls with the ripple's frequency and
+// depth as they were (a weak valve, not a capacitor).
+const GRAMOPHONE_VISITS: &str = r#"
+[[visit]]
+date = 2023-04-14
+technician = "M. Ferreira"
+mains_vrms = 231.0
+dc_v = 249.0
+ripple_pp_v = 0.18
+ripple_hz = 100.0
+notes = "Serviced; valves tested good (demo)."
+
+[[visit]]
+date = 2026-03-09
+technician = "M. Ferreira"
+mains_vrms = 230.0
+dc_v = 198.0
+ripple_pp_v = 0.17
+ripple_hz = 100.0
+notes = "Quiet and thin at the dance; rectifier valve glows unevenly (demo)."
 "#;
 
 const RECORDER_VISITS: &str = r#"

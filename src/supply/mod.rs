@@ -354,6 +354,20 @@ pub struct Rectifier {
     pub rated_a: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub surge_a: Option<f64>,
+    /// A rectifier valve's data-sheet limits (a valve preset gives its class's when these
+    /// are left out): the largest first capacitance (uF), the least plate supply impedance
+    /// per plate (ohms), one plate's peak current and the valve's DC output current (amps),
+    /// and whether its filament is directly heated (the warm-up soar).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_first_uf: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub min_plate_ohms: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rated_peak_a: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rated_dc_a: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub directly_heated: Option<bool>,
 }
 
 /// A rectifier diode: a preset name, a fixed drop with resistance, or a Shockley junction.
@@ -372,6 +386,18 @@ pub enum DiodeSpec {
         #[serde(default)]
         ohms: f64,
     },
+    /// A rectifier valve's plate through one data-sheet point: `law = "valve"`.
+    Valve {
+        #[serde(serialize_with = "valve_law")]
+        law: (),
+        drop_v: f64,
+        at_a: f64,
+    },
+}
+
+/// Writes a valve's table with its `law = "valve"` key.
+fn valve_law<S: serde::Serializer>(_: &(), s: S) -> Result<S::Ok, S::Error> {
+    s.serialize_str("valve")
 }
 
 /// Read by hand rather than as an untagged enum, so that a table mixing the two laws
@@ -385,18 +411,25 @@ impl<'de> Deserialize<'de> for DiodeSpec {
             type Value = DiodeSpec;
             fn expecting(&self, f: &mut fmt::Formatter) -> fmt::Result {
                 f.write_str(
-                    "a preset (silicon, fast, schottky, ideal) or a table \
-                     { drop_v, ohms } or { is_a, n, rs_ohms }",
+                    "a preset (silicon, fast, schottky, ideal, valve-high-drop, \
+                     valve-medium-drop, valve-low-drop) or a table { drop_v, ohms }, \
+                     { is_a, n, rs_ohms } or { law = \"valve\", drop_v, at_a }",
                 )
             }
             fn visit_str<E: de::Error>(self, v: &str) -> Result<DiodeSpec, E> {
                 Ok(DiodeSpec::Preset(v.to_string()))
             }
             fn visit_map<M: MapAccess<'de>>(self, mut map: M) -> Result<DiodeSpec, M::Error> {
-                let (mut is_a, mut n, mut rs_ohms, mut drop_v, mut ohms) =
-                    (None, None, None, None, None);
+                let (mut is_a, mut n, mut rs_ohms, mut drop_v, mut ohms, mut at_a) =
+                    (None, None, None, None, None, None);
+                let mut law: Option<String> = None;
                 while let Some(key) = map.next_key::<String>()? {
                     let slot = match key.as_str() {
+                        "law" => {
+                            law = Some(map.next_value::<String>()?);
+                            continue;
+                        }
+                        "at_a" => &mut at_a,
                         "is_a" => &mut is_a,
                         "n" => &mut n,
                         "rs_ohms" => &mut rs_ohms,
@@ -411,6 +444,34 @@ impl<'de> Deserialize<'de> for DiodeSpec {
                     *slot = Some(map.next_value::<f64>()?);
                 }
                 let junction = is_a.is_some() || n.is_some() || rs_ohms.is_some();
+                match law.as_deref() {
+                    Some("valve") => {
+                        if junction || ohms.is_some() {
+                            return Err(de::Error::custom(
+                                "a valve's diode table takes { law = \"valve\", drop_v, at_a } \
+                                 (its plate's drop at a current), not a junction's or a \
+                                 fixed drop's keys",
+                            ));
+                        }
+                        return Ok(DiodeSpec::Valve {
+                            law: (),
+                            drop_v: drop_v.ok_or_else(|| de::Error::missing_field("drop_v"))?,
+                            at_a: at_a.ok_or_else(|| de::Error::missing_field("at_a"))?,
+                        });
+                    }
+                    Some(other) => {
+                        return Err(de::Error::custom(format!(
+                            "rectifier.diode.law = {other:?}: the one law named this way is \
+                             \"valve\" (a junction or a fixed drop is given by its keys)"
+                        )));
+                    }
+                    None if at_a.is_some() => {
+                        return Err(de::Error::custom(
+                            "rectifier.diode.at_a belongs to a valve: add law = \"valve\"",
+                        ));
+                    }
+                    None => {}
+                }
                 let fixed = drop_v.is_some() || ohms.is_some();
                 match (junction, fixed) {
                     (true, true) => Err(de::Error::custom(

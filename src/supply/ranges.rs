@@ -287,6 +287,34 @@ pub const SURGE_A: Range = range(
     "A",
     "a diode rated under 1 mA is no rectifier",
 );
+pub const MAX_FIRST_UF: Range = range(
+    "rectifier.max_first_uf",
+    AtLeast(0.1),
+    1e4,
+    "uF",
+    "a valve's data sheet allows its first capacitor a few to a hundred-odd microfarads",
+);
+pub const MIN_PLATE_OHMS: Range = range(
+    "rectifier.min_plate_ohms",
+    AtLeast(0.0),
+    1e5,
+    "ohms",
+    "0 asks for no impedance at all",
+);
+pub const RATED_PEAK_A: Range = range(
+    "rectifier.rated_peak_a",
+    AtLeast(1e-3),
+    1e6,
+    "A",
+    "a plate or diode rated under 1 mA peak is no rectifier",
+);
+pub const RATED_DC_A: Range = range(
+    "rectifier.rated_dc_a",
+    AtLeast(1e-3),
+    1e6,
+    "A",
+    "a rectifier rated under 1 mA of output is none",
+);
 pub const DROP_V: Range = range(
     "rectifier.diode.drop_v",
     ZeroOr(1e-3),
@@ -321,6 +349,22 @@ pub const RS_OHMS: Range = range(
     100.0,
     "ohms",
     "0 is no series resistance; under 1 micro-ohm is none",
+);
+pub const VALVE_DROP_V: Range = range(
+    "rectifier.diode.drop_v",
+    AtLeast(1.0),
+    200.0,
+    "V",
+    "a rectifier valve's plate drops from about 15 V (indirectly heated, close spaced) to \
+     60 V or so (directly heated) at its rated current",
+);
+pub const VALVE_AT_A: Range = range(
+    "rectifier.diode.at_a",
+    AtLeast(1e-3),
+    5.0,
+    "A",
+    "the plate current the drop is read at; a rectifier valve's lies between tens of mA and \
+     about an ampere",
 );
 pub const FILTER_UF: Range = range("filter.uf", AtLeast(1e-6), 1e7, "uF", UF_WHY);
 pub const ESR_OHMS: Range = range(
@@ -480,11 +524,17 @@ pub const RANGES: &[Range] = &[
     RATED_PIV_V,
     DIODE_RATED_A,
     SURGE_A,
+    MAX_FIRST_UF,
+    MIN_PLATE_OHMS,
+    RATED_PEAK_A,
+    RATED_DC_A,
     DROP_V,
     DIODE_OHMS,
     IS_A,
     EMISSION_N,
     RS_OHMS,
+    VALVE_DROP_V,
+    VALVE_AT_A,
     FILTER_UF,
     ESR_OHMS,
     CAP_LOW_PCT,

@@ -73,6 +73,10 @@ impl Supply {
             (&RATED_PIV_V, r.rated_piv_v),
             (&DIODE_RATED_A, r.rated_a),
             (&SURGE_A, r.surge_a),
+            (&MAX_FIRST_UF, r.max_first_uf),
+            (&MIN_PLATE_OHMS, r.min_plate_ohms),
+            (&RATED_PEAK_A, r.rated_peak_a),
+            (&RATED_DC_A, r.rated_dc_a),
         ] {
             if let Some(v) = v {
                 range.check(v)?;

@@ -132,6 +132,8 @@ pub struct Solved {
     pub stress_no_load: bool,
     /// The worst low corner, its words and its solve, for the sketch.
     pub low: Option<(String, Operating)>,
+    /// A valve rectifier's supply with silicon in its place.
+    pub solid_state: Option<crate::analysis::valve::SolidState>,
 }
 
 /// Solves `supply` for the screen: nominal, worst case, checks, cautions, low corner.
@@ -174,7 +176,14 @@ pub fn solve_for_screen_while(
             .ok()
             .map(|op| (words.to_string(), op))
     });
+    // Two more solves, for a valve only: cheap beside the worst case.
+    let solid_state = if crate::analysis::valve::is_valve(supply) {
+        crate::analysis::valve::solid_state_what_if(supply, &nominal.figures).ok()
+    } else {
+        None
+    };
     Some(Ok(Solved {
+        solid_state,
         nominal,
         hand,
         worst,
@@ -208,6 +217,8 @@ pub struct Open {
     pub solved: Box<Result<Solved, String>>,
     /// The results panel shows the visits instead of the figures.
     pub show_visits: bool,
+    /// The results panel adds the solid-state what-if (a valve rectifier only).
+    pub show_solid_state: bool,
     /// The diagnosis of the visit recorded last, shown above the visits.
     pub last_diagnosis: Option<crate::diagnose::Diagnosis>,
     /// The capacitance trend across the visits, worked out when the visits are shown.
@@ -249,6 +260,7 @@ impl Open {
             what_if: None,
             solved,
             show_visits: false,
+            show_solid_state: false,
             results_scroll: 0,
             texts: Vec::new(),
             results_scroll_max: std::cell::Cell::new(u16::MAX),
@@ -676,6 +688,26 @@ impl App {
                     self.panel = Panel::Results;
                     if want {
                         self.request_trend();
+                    }
+                }
+            }
+            Action::SolidState => {
+                if let Some(o) = &mut self.open {
+                    if crate::analysis::valve::is_valve(&o.supply) {
+                        o.show_solid_state = !o.show_solid_state;
+                        o.show_visits = false;
+                        self.panel = Panel::Results;
+                        self.status = if o.show_solid_state {
+                            "solid-state what-if: silicon in the valve's place, at the foot of \
+                             the results (S hides it)"
+                                .into()
+                        } else {
+                            "solid-state what-if hidden".into()
+                        };
+                    } else {
+                        self.status = "S is for a valve rectifier: this supply's diodes are \
+                                       already solid-state"
+                            .into();
                     }
                 }
             }

@@ -56,6 +56,9 @@ pub enum When {
     Choke,
     FixedDiode,
     JunctionDiode,
+    ValveDiode,
+    /// Any rectifier valve, a preset's or a law of one's own.
+    Valve,
     CurrentLoad,
     ResistiveLoad,
     /// A constant-power load (a converter).
@@ -129,7 +132,7 @@ const fn text(
 use When::*;
 
 /// Every key of the supply file, in the file's order and groups.
-pub const FIELDS: [Field; 63] = [
+pub const FIELDS: [Field; 69] = [
     text("Name", "name", true, "the name the library lists it by"),
     text(
         "Site",
@@ -213,18 +216,25 @@ pub const FIELDS: [Field; 63] = [
         "Diode",
         "rectifier.diode",
         Choice::Diode,
-        "a preset, or your own law: a fixed drop, or a Shockley junction",
+        "a preset (three rectifier-valve classes among them), or your own law: a fixed \
+         drop, a Shockley junction, or a valve's plate drop at a current",
     ),
     number("Rectifier", "Drop V", &s::DROP_V, FixedDiode),
     number("Rectifier", "Drop ohm", &s::DIODE_OHMS, FixedDiode),
     number("Rectifier", "IS A", &s::IS_A, JunctionDiode),
     number("Rectifier", "Emission N", &s::EMISSION_N, JunctionDiode),
     number("Rectifier", "RS ohm", &s::RS_OHMS, JunctionDiode),
+    number("Rectifier", "Plate drop V", &s::VALVE_DROP_V, ValveDiode),
+    number("Rectifier", "Drop at A", &s::VALVE_AT_A, ValveDiode),
     number("Rectifier", "Junction degC", &s::TEMP_C, Always),
     number("Rectifier", "Drop spread %", &s::DROP_SPREAD_PCT, Always),
     number("Rectifier", "Rated PIV V", &s::RATED_PIV_V, Always),
     number("Rectifier", "Rated A", &s::DIODE_RATED_A, Always),
     number("Rectifier", "Surge A", &s::SURGE_A, Always),
+    number("Rectifier", "Max 1st cap uF", &s::MAX_FIRST_UF, Valve),
+    number("Rectifier", "Min plate ohm", &s::MIN_PLATE_OHMS, Valve),
+    number("Rectifier", "Peak plate A", &s::RATED_PEAK_A, Always),
+    number("Rectifier", "Rated DC A", &s::RATED_DC_A, Always),
     choice(
         "Filter",
         "Kind",
@@ -294,7 +304,7 @@ fn diode_words() -> Vec<&'static str> {
         .iter()
         .map(|p| p.name)
         .collect();
-    words.extend(["fixed drop", "junction"]);
+    words.extend(["fixed drop", "junction", "valve"]);
     words
 }
 
@@ -327,6 +337,10 @@ impl Field {
             Choke => s.filter.kind.has_choke(),
             FixedDiode => matches!(s.rectifier.diode, DiodeSpec::Fixed { .. }),
             JunctionDiode => matches!(s.rectifier.diode, DiodeSpec::Junction { .. }),
+            ValveDiode => matches!(s.rectifier.diode, DiodeSpec::Valve { .. }),
+            Valve => s
+                .rectifier_diode()
+                .is_ok_and(|d| matches!(d, crate::circuit::diode::DiodeParams::Valve { .. })),
             CurrentLoad => s.load.amps.is_some(),
             ResistiveLoad => s.load.amps.is_none() && s.load.watts.is_none(),
             PowerLoad => s.load.watts.is_some(),
@@ -494,6 +508,7 @@ fn choice_word(c: Choice, s: &Supply) -> String {
             DiodeSpec::Preset(p) => p.clone(),
             DiodeSpec::Fixed { .. } => "fixed drop".into(),
             DiodeSpec::Junction { .. } => "junction".into(),
+            DiodeSpec::Valve { .. } => "valve".into(),
         },
         Choice::FilterKind => s.filter.kind.key().into(),
         Choice::TransformerForm => if s.transformer.is_absent() {
@@ -553,6 +568,16 @@ fn choose(
             out.rectifier.diode = match (word, &out.rectifier.diode) {
                 ("fixed drop", d @ DiodeSpec::Fixed { .. }) => d.clone(),
                 ("junction", d @ DiodeSpec::Junction { .. }) => d.clone(),
+                ("valve", d @ DiodeSpec::Valve { .. }) => d.clone(),
+                ("valve", _) => {
+                    // The medium class's typical point (practice), to be read off the sheet.
+                    guesses.extend(["rectifier.diode.drop_v", "rectifier.diode.at_a"]);
+                    DiodeSpec::Valve {
+                        law: (),
+                        drop_v: 45.0,
+                        at_a: 0.225,
+                    }
+                }
                 ("fixed drop", _) => {
                     // A silicon rectifier's usual 0.7 V (practice), to be measured.
                     guesses.extend(["rectifier.diode.drop_v", "rectifier.diode.ohms"]);

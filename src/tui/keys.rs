@@ -22,6 +22,7 @@ pub enum Action {
     Undo,
     Redo,
     WhatIf,
+    SolidState,
     Sketch,
     New,
     Copy,
@@ -125,6 +126,12 @@ pub const BINDINGS: &[Binding] = &[
         &[Msg::Char('x')],
         Action::WhatIf,
         "what-if: scratch changes; x again to keep or discard",
+    ),
+    bind(
+        "S",
+        &[Msg::Char('S')],
+        Action::SolidState,
+        "valve rectifier: what silicon in its place does",
     ),
     bind(
         "w",

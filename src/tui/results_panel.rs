@@ -68,6 +68,7 @@ fn estimate_words(key: &str, v: f64) -> String {
     match key {
         "uf" => format!("about {}", format_uf(v)),
         "esr_ohms" => format!("ESR about {} ohm", sig3(v)),
+        "plate_drop_v" => format!("valve drops about {} V", sig3(v)),
         "vrms" => format!("mains about {} V", sig3(v)),
         "ratio" => format!("ratio about {}:1", sig3(v)),
         "load_a" => format!("load about {}", format_si(v, "A")),
@@ -224,6 +225,10 @@ impl Widget for &ResultsPanel<'_> {
         };
         let inner = area.inner(ratatui::layout::Margin::new(1, 1));
         let mut text = Text::new(inner.width);
+        // A valve's law and the limits it is held to, above the figures.
+        for line in crate::report::valve_words(&open.supply) {
+            text.wrapped(&line, look.dim(), 2);
+        }
         let last_head = if before.is_some() { "Change" } else { "Paper" };
         text.fixed(Line::styled(
             format!(
@@ -269,6 +274,18 @@ impl Widget for &ResultsPanel<'_> {
                 .trim_end()
                 .to_string(),
             ));
+        }
+        // The what-if right under the figures it changes, above the checks.
+        if open.show_solid_state
+            && let Some(w) = &solved.solid_state
+        {
+            text.fixed(Line::styled(
+                "Solid-state replacement (S hides)",
+                look.heading(),
+            ));
+            for line in w.lines() {
+                text.wrapped(&format!("- {line}"), Style::default(), 2);
+            }
         }
         for c in &solved.checks {
             let style = match c.status {
