@@ -158,6 +158,24 @@ fn main() {
     app.update(Msg::NextPanel);
     go_to(&mut app, "line.reactor_pct");
     shot(&app, "drive-bus-100x30", 100, 30);
+    // A rectifier valve: its law and limits above the results, the solid-state what-if (S)
+    // under the figures, scrolled into view.
+    app.panel = railcheck::tui::app::Panel::List;
+    for _ in 0..app.entries.len() {
+        app.update(Msg::Up);
+    }
+    while app.open.as_ref().expect("open").supply.name
+        != "Members' hall gramophone amplifier, HT rail"
+    {
+        app.update(Msg::Down);
+    }
+    app.wait_idle();
+    // S also puts the focus on the results.
+    app.update(Msg::Char('S'));
+    for _ in 0..2 {
+        app.update(Msg::PageDown);
+    }
+    shot(&app, "valve-solid-state-100x30", 100, 30);
 }
 
 /// Moves the form's cursor to the row of the file key `path`.
