@@ -698,8 +698,8 @@ impl App {
                         o.show_visits = false;
                         self.panel = Panel::Results;
                         self.status = if o.show_solid_state {
-                            "solid-state what-if: silicon in the valve's place, at the foot of \
-                             the results (S hides it)"
+                            "solid-state what-if: silicon in the valve's place, under the \
+                             figures (S hides it)"
                                 .into()
                         } else {
                             "solid-state what-if hidden".into()

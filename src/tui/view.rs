@@ -240,12 +240,18 @@ fn caution(app: &App, width: usize) -> Vec<String> {
         v,
     );
     let high = o.supply.mains.high_pct;
-    let load = if s.stress_no_load {
+    // A directly heated rectifier valve's rail soars at switch-on: said where the peak is.
+    let warm_up = crate::analysis::valve::warm_up_soar(&o.supply);
+    let load = if warm_up {
+        "no load, as the valve warms up"
+    } else if s.stress_no_load {
         "no load"
     } else {
         "the lightest load"
     };
-    let load_short = if s.stress_no_load {
+    let load_short = if warm_up {
+        "valve warm-up"
+    } else if s.stress_no_load {
         "no load"
     } else {
         "lightest load"
