@@ -69,6 +69,13 @@ fn single_solves(c: &mut Criterion) {
             b.iter(|| solve(black_box(&s), &Conditions::default()).unwrap())
         });
     }
+    // Issue 14's: valve rectifiers, a capacitor input and a CLC (ngspice reference cases).
+    for case in ["ci_ct_high_50", "clc_ct_medium_50"] {
+        let s = load(&format!("tests/reference/valves/{case}.toml"));
+        g.bench_function(case, |b| {
+            b.iter(|| solve(black_box(&s), &Conditions::default()).unwrap())
+        });
+    }
     g.finish();
 }
 
@@ -78,6 +85,16 @@ fn three_phase_report(c: &mut Criterion) {
     let s = load("examples/pump-drive-bus.toml");
     c.bench_function("report_six_pulse_drive_bus", |b| {
         b.iter(|| report::build_default(black_box(s.clone()), "bench").unwrap())
+    });
+    // A valve amplifier's HT rail with the solid-state what-if (issue 14).
+    let s = load("examples/hall-gramophone-amplifier-ht.toml");
+    c.bench_function("report_valve_with_solid_state", |b| {
+        b.iter(|| {
+            report::build_default(black_box(s.clone()), "bench")
+                .unwrap()
+                .with_solid_state()
+                .unwrap()
+        })
     });
 }
 
