@@ -3,8 +3,8 @@
 
 use crate::analysis::cautions::{SAFE_TOUCH_V, cautions};
 use crate::analysis::checks::{self, Check, Status};
-use crate::analysis::valve;
 use crate::analysis::worst_case::{self, WorstCase};
+use crate::analysis::{capacitor_life, valve};
 use crate::circuit::diode::DiodeParams;
 use crate::circuit::{self, CircuitError, Figure, Figures, HandEstimate, Operating};
 use crate::escape::printable;
@@ -31,6 +31,8 @@ pub struct Report {
     pub spread: Option<Vec<(&'static str, worst_case::Percentiles)>>,
     /// A rectifier valve's supply with silicon in its place, when asked for.
     pub solid_state: Option<valve::SolidState>,
+    /// The first capacitor's expected life, when the file gives its life rating.
+    pub capacitor_life: Option<capacitor_life::CapacitorLife>,
 }
 
 /// Samples of the statistical spread, and its fixed seed (so a report is reproducible).
@@ -46,7 +48,9 @@ pub fn build(supply: Supply, file: &str, touch_v: f64) -> Result<Report, Circuit
     let (stress, stress_no_load) = worst_case::voltage_stress(&supply)?;
     let (checks, not_rated) = checks::checks(&supply, &worst, &stress, stress_no_load);
     let cautions = cautions(&supply, stress.max_v, touch_v);
+    let capacitor_life = capacitor_life::capacitor_life(&supply, &nominal.figures, &worst);
     Ok(Report {
+        capacitor_life,
         supply,
         file: file.to_string(),
         nominal,
@@ -365,6 +369,16 @@ impl Report {
                 }
             }
         }
+        if let Some(l) = &self.capacitor_life {
+            out.push_str(
+                "\n  Capacitor life (the first capacitor; life doubles every 10 degC cooler)\n",
+            );
+            out.push_str(&format!("  {}\n", l.words()));
+            out.push_str(&format!("  worst at: {}\n", printable(&l.worst_at)));
+            for a in &l.assumed {
+                out.push_str(&format!("  assumed: {a}\n"));
+            }
+        }
         if let Some(w) = &self.solid_state {
             out.push_str("\n  Solid-state replacement (silicon junctions in place of the valve)\n");
             for line in w.lines() {
@@ -466,6 +480,7 @@ impl Report {
             "cautions": self.cautions,
             "valve": valve_json(&self.supply),
             "solid_state": self.solid_state,
+            "capacitor_life": self.capacitor_life,
             "spread": self.spread.as_ref().map(|s| s
                 .iter()
                 .map(|(n, p)| (n.to_string(), serde_json::to_value(p).expect("percentiles")))

@@ -2,6 +2,7 @@
 //! capacitor sizing, and safety cautions.
 
 #![deny(clippy::wildcard_enum_match_arm)]
+pub mod capacitor_life;
 pub mod cautions;
 pub mod checks;
 pub mod choke;

@@ -244,12 +244,12 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
     let f = &supply.filter;
     let stated = Reservoir {
         farads: f.uf.unwrap_or(0.0) * 1e-6 * cap_factor,
-        esr_ohms: f.esr_ohms,
+        esr_ohms: f.esr(),
     };
     // The capacitor a fault concerns is the first the rectifier charges.
     let faulted = Reservoir {
         farads: stated.farads * cond.reservoir_factor,
-        esr_ohms: cond.esr_ohms.unwrap_or(f.esr_ohms),
+        esr_ohms: cond.esr_ohms.unwrap_or(f.esr()),
     };
     let choke = choke_of(f);
     let choke_ohms = f.choke_ohms.unwrap_or(0.0) * cond.choke_factor;

@@ -60,7 +60,7 @@ pub fn estimate_words(h: &Hypothesis, supply: &Supply) -> Option<String> {
             "ESR about {} in the {} (the file states {})",
             ohms(r),
             supply.reservoir_words(),
-            ohms(supply.filter.esr_ohms)
+            ohms(supply.filter.esr())
         ),
         (_, Some(("vrms", v))) => format!(
             "mains about {} against {} nominal",

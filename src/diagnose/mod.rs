@@ -437,7 +437,8 @@ fn search_range(fault: Fault, supply: &Supply, mains_known: bool) -> Option<(f64
             Some((0.01, 1.0 - (f.low_pct + f.aged_pct.unwrap_or(0.0)) / 100.0))
         }
         Fault::EsrHigh => {
-            let lo = (2.0 * f.esr_ohms).max(f.esr_ohms + 0.1);
+            // Twice the initial ESR is the makers' end of life (see capacitor_life).
+            let lo = (2.0 * f.esr()).max(f.esr() + 0.1);
             Some((lo, lo.max(0.5) * 200.0))
         }
         Fault::MainsLow if !mains_known => Some((0.4, low)),
@@ -1010,7 +1011,7 @@ fn reason(h: &Hypothesis, supply: &Supply, ex: &[Expectation]) -> String {
         ),
         (Fault::EsrHigh, Some((_, r))) => format!(
             "an ESR of about {r:.2} ohm (stated {:.2}) in the {} would explain it ({off})",
-            supply.filter.esr_ohms,
+            supply.filter.esr(),
             supply.reservoir_words()
         ),
         (Fault::CapacitorOpen, _) if supply.filter.kind == FilterKind::Crc => {

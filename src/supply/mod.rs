@@ -619,6 +619,49 @@ pub struct Filter {
     /// Extra capacitance lost to ageing, percent, on top of the low tolerance.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub aged_pct: Option<f64>,
+    /// The first capacitor's life rating off its can or data sheet: hours at degC
+    /// ("2,000 h at 105 degC"); the frequency its ripple current is rated at (Hz, 120 when
+    /// left out); its core's rise at that rated ripple (degC, 5 when left out).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rated_life_h: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rated_life_c: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rated_ripple_hz: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub rise_c: Option<f64>,
+    /// The air around the capacitor, or its can's measured temperature, degC (40 nominal and
+    /// 55 at worst when left out).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub ambient_c: Option<f64>,
+    /// The hours a day the unit runs (24 when left out).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub duty_h_per_day: Option<f64>,
+    /// The data sheet's dissipation factor and the frequency it is given at (120 Hz when left
+    /// out): the ESR when `esr_ohms` is left out.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tan_delta: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tan_delta_hz: Option<f64>,
+}
+
+impl Filter {
+    /// The first capacitor's ESR, ohms: `esr_ohms`, or from the data sheet's `tan_delta` when
+    /// that is given instead (tan delta / (2 pi f C)), else 0.
+    pub fn esr(&self) -> f64 {
+        match (self.esr_ohms, self.tan_delta, self.uf) {
+            (e, _, _) if e > 0.0 => e,
+            (_, Some(td), Some(uf)) if uf > 0.0 => {
+                crate::analysis::capacitor_life::esr_from_tan_delta(
+                    td,
+                    self.tan_delta_hz
+                        .unwrap_or(crate::analysis::capacitor_life::DEFAULT_RATING_HZ),
+                    uf,
+                )
+            }
+            _ => 0.0,
+        }
+    }
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]

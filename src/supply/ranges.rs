@@ -390,6 +390,62 @@ pub const RATED_RIPPLE_A: Range = range(
     "A",
     "ripple ratings start at a few mA (practice)",
 );
+pub const RATED_LIFE_H: Range = range(
+    "filter.rated_life_h",
+    AtLeast(100.0),
+    1e6,
+    "h",
+    "electrolytics are rated from 1,000 h (practice)",
+);
+pub const RATED_LIFE_C: Range = range(
+    "filter.rated_life_c",
+    AtLeast(40.0),
+    200.0,
+    "degC",
+    "life ratings are given at 85, 105, 125 or 150 degC (practice)",
+);
+pub const RATED_RIPPLE_HZ: Range = range(
+    "filter.rated_ripple_hz",
+    AtLeast(1.0),
+    1e6,
+    "Hz",
+    "catalogues rate ripple at 100 or 120 Hz, switching parts at 10-100 kHz",
+);
+pub const RISE_C: Range = range(
+    "filter.rise_c",
+    AtLeast(0.0),
+    40.0,
+    "degC",
+    "0 is no heating by the rated ripple; makers allow a few degrees",
+);
+pub const AMBIENT_C: Range = range(
+    "filter.ambient_c",
+    AtLeast(-55.0),
+    150.0,
+    "degC",
+    "the coldest electrolytics are rated down to -55 degC",
+);
+pub const DUTY_H_PER_DAY: Range = range(
+    "filter.duty_h_per_day",
+    AtLeast(0.1),
+    24.0,
+    "h",
+    "a day has 24 hours; under 6 minutes a day is storage, not service",
+);
+pub const TAN_DELTA: Range = range(
+    "filter.tan_delta",
+    AtLeast(1e-4),
+    2.0,
+    "",
+    "data sheets give 0.03 to 0.3 or so for electrolytics",
+);
+pub const TAN_DELTA_HZ: Range = range(
+    "filter.tan_delta_hz",
+    AtLeast(1.0),
+    1e6,
+    "Hz",
+    "data sheets give tan delta at 100 or 120 Hz",
+);
 pub const SERIES_OHMS: Range = range(
     "filter.series_ohms",
     AtLeast(1e-3),
@@ -541,6 +597,14 @@ pub const RANGES: &[Range] = &[
     CAP_HIGH_PCT,
     CAP_RATED_V,
     RATED_RIPPLE_A,
+    RATED_LIFE_H,
+    RATED_LIFE_C,
+    RATED_RIPPLE_HZ,
+    RISE_C,
+    AMBIENT_C,
+    DUTY_H_PER_DAY,
+    TAN_DELTA,
+    TAN_DELTA_HZ,
     SERIES_OHMS,
     SECOND_UF,
     CHOKE_H,

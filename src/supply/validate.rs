@@ -187,10 +187,43 @@ impl Supply {
             (&RATED_RIPPLE_A, f.rated_ripple_a),
             (&BLEEDER_OHMS, f.bleeder_ohms),
             (&AGED_PCT, f.aged_pct),
+            (&RATED_LIFE_H, f.rated_life_h),
+            (&RATED_LIFE_C, f.rated_life_c),
+            (&RATED_RIPPLE_HZ, f.rated_ripple_hz),
+            (&RISE_C, f.rise_c),
+            (&AMBIENT_C, f.ambient_c),
+            (&DUTY_H_PER_DAY, f.duty_h_per_day),
+            (&TAN_DELTA, f.tan_delta),
+            (&TAN_DELTA_HZ, f.tan_delta_hz),
         ] {
             if let Some(v) = v {
                 range.check(v)?;
             }
+        }
+        // A life needs both halves of its rating; an ESR is given one way.
+        if f.rated_life_h.is_some() != f.rated_life_c.is_some() {
+            return Err(SupplyError::out_of_range(
+                if f.rated_life_h.is_some() {
+                    "filter.rated_life_c"
+                } else {
+                    "filter.rated_life_h"
+                },
+                "missing",
+                "given with its other half: a life is hours at a temperature (rated_life_h \
+                 and rated_life_c, e.g. 2000 h at 105 degC)",
+            ));
+        }
+        if f.tan_delta.is_some() && f.esr_ohms > 0.0 {
+            return Err(SupplyError::out_of_range(
+                "filter.tan_delta",
+                format!(
+                    "{} with esr_ohms = {}",
+                    f.tan_delta.unwrap_or(0.0),
+                    f.esr_ohms
+                ),
+                "one or the other: the ESR is esr_ohms, or tan delta / (2 pi f C) from the \
+                 data sheet's tan_delta",
+            ));
         }
         self.validate_load()?;
         if let Some(c) = &self.calibration {
