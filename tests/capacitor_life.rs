@@ -142,3 +142,81 @@ fn toml_text(filter_extra: &str) -> String {
          [filter]\nkind = \"capacitor\"\nuf = 2200.0\n{filter_extra}\n[load]\namps = 1.5\n"
     )
 }
+
+/// The replacement grades at the unit's duty: a 105 degC part outlives an 85 degC one of the
+/// same hours by 2^2 (the rule: 20 degC), and at the same grade a higher ripple rating heats
+/// less and lives longer.
+#[test]
+fn a_105_degc_part_outlives_an_85_degc_part_and_more_ripple_rating_helps() {
+    use railcheck::analysis::capacitor_life::rank_grades;
+    let s = bench_supply("esr_ohms = 0.05\nrated_ripple_a = 1.0\nambient_c = 45.0");
+    let ranked = rank_grades(&s, 1.2, 1.2, 100.0);
+    let find = |c: f64, h: f64, ripple: f64| {
+        ranked
+            .iter()
+            .find(|g| g.rated_c == c && g.rated_h == h && g.ripple_a == Some(ripple))
+            .unwrap_or_else(|| panic!("{c} {h} {ripple}"))
+    };
+    let cool = find(85.0, 2000.0, 1.0);
+    let warm = find(105.0, 2000.0, 1.0);
+    assert!((warm.worst.hours / cool.worst.hours - 4.0).abs() < 1e-9);
+    let more_ripple = find(105.0, 10_000.0, 1.5);
+    let plain = find(105.0, 10_000.0, 1.0);
+    assert!(more_ripple.worst.rise_c < plain.worst.rise_c);
+    assert!(more_ripple.worst.hours > plain.worst.hours);
+    // Longest-lived first.
+    assert!(
+        ranked
+            .windows(2)
+            .all(|w| w[0].worst.hours >= w[1].worst.hours)
+    );
+    assert_eq!(ranked.last().unwrap().rated_c, 85.0);
+}
+
+/// The storage advice (common practice, from memory) by the gap since the visit before:
+/// nothing under a year, then gentler to firmer; and the measured drift against the rule.
+#[test]
+fn storage_advice_follows_the_gap_and_fast_ageing_is_named() {
+    use railcheck::analysis::capacitor_life::{ageing_check, reforming_advice, storage_caution};
+    assert!(reforming_advice(300).is_none());
+    assert!(reforming_advice(500).unwrap().contains("no load"));
+    assert!(reforming_advice(900).unwrap().contains("slowly"));
+    assert!(reforming_advice(1500).unwrap().contains("reform"));
+    let mut s = bench_supply("esr_ohms = 0.05");
+    s.visits = Supply::from_toml_str(&format!(
+        "{}\n[[visit]]\ndate = 2020-01-10\ndc_v = 30.0\n",
+        toml_text("esr_ohms = 0.05")
+    ))
+    .unwrap()
+    .visits;
+    let day = |y, m, d| railcheck::visit::days_from_civil(y, m, d);
+    assert!(storage_caution(&s, day(2020, 6, 1)).is_none());
+    let c = storage_caution(&s, day(2023, 6, 1)).expect("a caution after 3.4 years");
+    assert!(c.contains("3.4 years") && c.contains("reform"), "{c}");
+    // Measured drift against the rule: a part reaching its limit in a fifth of the rule's
+    // time is called out; within a factor of two they agree.
+    let rule = life(&rating(None), 65.0, 0.0, 120.0, 24.0);
+    assert!(
+        ageing_check(rule.years / 5.0, &rule)
+            .words
+            .contains("faster")
+    );
+    assert!(
+        ageing_check(rule.years * 0.8, &rule)
+            .words
+            .contains("agree")
+    );
+}
+
+/// The demo dosing controller (invented data: its capacitor dries out over three visits, a
+/// 2,000 h / 105 degC part at 35 degC): the trend puts its measured life against the rule's.
+#[test]
+fn the_demo_trend_compares_its_drift_with_the_rule() {
+    let s = Supply::from_toml_str(&railcheck::library::demo::supplies()[1].1).unwrap();
+    let t = railcheck::diagnose::trend::trend(&s);
+    let a = t.ageing.expect("a comparison");
+    // At the fitted drift, 20 % of 1000 uF is lost in (1000 - 800) / |drift| years.
+    let want = 200.0 / -t.uf_per_year.unwrap();
+    assert!((a.measured_years - want).abs() < 1e-9 * want);
+    assert!(a.words.contains("faster"), "{}", a.words);
+}

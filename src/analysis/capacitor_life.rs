@@ -163,10 +163,15 @@ impl CapacitorLife {
     }
 }
 
-/// Years as a technician says them: "3.4 years", "over 50 years".
+/// Beyond this many years the rule's figure is not quoted: makers trust the doubling rule to
+/// about 15 years, past which the seal and the electrolyte's slow loss rule instead (common
+/// practice, from memory).
+pub const TRUSTED_YEARS: f64 = 15.0;
+
+/// Years as a technician says them: "3.4 years", "12 years", "over 15 years".
 pub fn years_words(years: f64) -> String {
-    if years > 50.0 {
-        "over 50 years".into()
+    if years > TRUSTED_YEARS {
+        format!("over {TRUSTED_YEARS:.0} years")
     } else if years >= 10.0 {
         format!("{years:.0} years")
     } else {
@@ -174,14 +179,17 @@ pub fn years_words(years: f64) -> String {
     }
 }
 
-/// The first capacitor's expected life (see [`CapacitorLife`]); None when the file gives no
-/// life rating or no capacitor. `nominal` is the supply's nominal solve, `worst` its worst
-/// case.
-pub fn capacitor_life(
-    supply: &crate::supply::Supply,
-    nominal: &crate::circuit::Figures,
-    worst: &super::worst_case::WorstCase,
-) -> Option<CapacitorLife> {
+/// What the file says of the first capacitor's life and duty, and what was taken for what it
+/// leaves out; None without a life rating or a capacitor.
+struct Inputs {
+    rating: LifeRating,
+    ambient_c: f64,
+    ambient_high_c: f64,
+    duty_h_per_day: f64,
+    assumed: Vec<String>,
+}
+
+fn inputs(supply: &crate::supply::Supply) -> Option<Inputs> {
     let f = &supply.filter;
     if !f.kind.has_capacitor() {
         return None;
@@ -194,7 +202,7 @@ pub fn capacitor_life(
         rise_c: f.rise_c.unwrap_or(DEFAULT_RISE_C),
     };
     let mut assumed = Vec::new();
-    let (ambient, ambient_high) = match f.ambient_c {
+    let (ambient_c, ambient_high_c) = match f.ambient_c {
         Some(a) => (a, a),
         None => {
             let (a, hi) = ASSUMED_AMBIENT_C;
@@ -205,7 +213,7 @@ pub fn capacitor_life(
             (a, hi)
         }
     };
-    let duty = f.duty_h_per_day.unwrap_or_else(|| {
+    let duty_h_per_day = f.duty_h_per_day.unwrap_or_else(|| {
         assumed.push("duty not stated: 24 hours a day taken (always on)".into());
         DEFAULT_DUTY_H_PER_DAY
     });
@@ -222,13 +230,40 @@ pub fn capacitor_life(
              usual figure)"
         ));
     }
-    let nominal_life = life(
-        &rating,
-        ambient,
+    Some(Inputs {
+        rating,
+        ambient_c,
+        ambient_high_c,
+        duty_h_per_day,
+        assumed,
+    })
+}
+
+/// The first capacitor's life at the supply's nominal (`nominal`, its nominal solve): the
+/// ambient's nominal and the nominal ripple current; None without a life rating.
+pub fn nominal_life(
+    supply: &crate::supply::Supply,
+    nominal: &crate::circuit::Figures,
+) -> Option<Life> {
+    let i = inputs(supply)?;
+    Some(life(
+        &i.rating,
+        i.ambient_c,
         nominal.cap_ripple_rms_a,
         nominal.ripple_hz,
-        duty,
-    );
+        i.duty_h_per_day,
+    ))
+}
+
+/// The first capacitor's expected life (see [`CapacitorLife`]); None when the file gives no
+/// life rating or no capacitor. `nominal` is the supply's nominal solve, `worst` its worst
+/// case.
+pub fn capacitor_life(
+    supply: &crate::supply::Supply,
+    nominal: &crate::circuit::Figures,
+    worst: &super::worst_case::WorstCase,
+) -> Option<CapacitorLife> {
+    let i = inputs(supply)?;
     let (worst_at, worst_fig) = worst
         .solved
         .iter()
@@ -236,20 +271,179 @@ pub fn capacitor_life(
         .map(|(w, f)| (w.clone(), f))
         .unwrap_or(("nominal".into(), nominal));
     let worst_life = life(
-        &rating,
-        ambient_high,
+        &i.rating,
+        i.ambient_high_c,
         worst_fig.cap_ripple_rms_a,
         worst_fig.ripple_hz,
-        duty,
+        i.duty_h_per_day,
     );
     Some(CapacitorLife {
-        rating,
-        duty_h_per_day: duty,
-        nominal: nominal_life,
+        nominal: nominal_life(supply, nominal)?,
+        rating: i.rating,
+        duty_h_per_day: i.duty_h_per_day,
         worst: worst_life,
         worst_at,
-        assumed,
+        assumed: i.assumed,
     })
+}
+
+/// The usual grades of aluminium electrolytic on a supplier's shelf, as (rated degC, rated
+/// hours, ripple rating against the file's part): the general-purpose 85 degC part, 105 degC
+/// parts of 2,000 to 10,000 hours, and a low-impedance 105 degC part taking half as much ripple
+/// again (typical catalogue grades from memory, not any one maker's).
+pub const GRADES: [(f64, f64, f64); 5] = [
+    (85.0, 2_000.0, 1.0),
+    (105.0, 2_000.0, 1.0),
+    (105.0, 5_000.0, 1.0),
+    (105.0, 10_000.0, 1.0),
+    (105.0, 10_000.0, 1.5),
+];
+
+/// A replacement grade and its expected life at the unit's duty.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct GradeLife {
+    pub rated_c: f64,
+    pub rated_h: f64,
+    /// Its ripple rating, amps RMS (None when the file gives no rating to scale).
+    pub ripple_a: Option<f64>,
+    /// At the nominal ambient and ripple, and at the warmest ambient with the worst ripple.
+    pub nominal: Life,
+    pub worst: Life,
+}
+
+/// Each of [`GRADES`] at the unit's duty, the longest-lived first: the nominal ripple current
+/// `ripple_a` at `ripple_hz`, and `worst_ripple_a` at the warmest ambient. Each grade's ripple
+/// rating is the file's part's scaled by the grade's factor (none when the file states none:
+/// the ripple heating is then left out alike for all, and said so by the caller).
+pub fn rank_grades(
+    supply: &crate::supply::Supply,
+    ripple_a: f64,
+    worst_ripple_a: f64,
+    ripple_hz: f64,
+) -> Vec<GradeLife> {
+    let f = &supply.filter;
+    let (ambient, ambient_high) = f.ambient_c.map_or(ASSUMED_AMBIENT_C, |a| (a, a));
+    let duty = f.duty_h_per_day.unwrap_or(DEFAULT_DUTY_H_PER_DAY);
+    let mut out: Vec<GradeLife> = GRADES
+        .iter()
+        .map(|&(rated_c, rated_h, ripple_factor)| {
+            let rating = LifeRating {
+                rated_h,
+                rated_c,
+                ripple_a: f.rated_ripple_a.map(|a| a * ripple_factor),
+                ripple_hz: f.rated_ripple_hz.unwrap_or(DEFAULT_RATING_HZ),
+                rise_c: f.rise_c.unwrap_or(DEFAULT_RISE_C),
+            };
+            GradeLife {
+                rated_c,
+                rated_h,
+                ripple_a: rating.ripple_a,
+                nominal: life(&rating, ambient, ripple_a, ripple_hz, duty),
+                worst: life(&rating, ambient_high, worst_ripple_a, ripple_hz, duty),
+            }
+        })
+        .collect();
+    out.sort_by(|a, b| b.worst.hours.total_cmp(&a.worst.hours));
+    out
+}
+
+/// The field advice for an electrolytic that has sat unpowered for `days`, or None under a
+/// year: its oxide thins without voltage, and full voltage at once can pass a large leakage
+/// current that heats and vents it. The bands are common practice from memory (drive makers
+/// publish reforming procedures by storage time in the same spirit; their own figures for
+/// their units take precedence).
+pub fn reforming_advice(days: i64) -> Option<&'static str> {
+    let years = days as f64 / 365.25;
+    if years < 1.0 {
+        None
+    } else if years < 2.0 {
+        Some(
+            "run it at no load for an hour before loading it, and watch for heat or hum from \
+             the capacitors",
+        )
+    } else if years < 3.0 {
+        Some(
+            "bring the voltage up slowly, over 30 to 60 minutes (a variac, or a series lamp or \
+             resistor that limits the current), before loading it",
+        )
+    } else {
+        Some(
+            "reform the capacitors before full voltage: raise it in steps over several hours \
+             with the current limited, watching the leakage current fall; one that stays warm \
+             or keeps leaking is replaced",
+        )
+    }
+}
+
+/// A gap between visits this long (days) earns the storage caution: yearly rounds that slip a
+/// few months are routine, and a unit visited that often is seldom one left unpowered.
+pub const LONG_GAP_DAYS: i64 = 2 * 365;
+
+/// The storage caution for a visit on day `on` (days since 1970) after the supply's visit
+/// before it: when two years or more lie between, what to do if the unit sat unpowered over
+/// that gap; None otherwise or with no visit before.
+pub fn storage_caution(supply: &crate::supply::Supply, on: i64) -> Option<String> {
+    let before = supply
+        .visits
+        .iter()
+        .filter_map(|v| v.days())
+        .filter(|&d| d < on)
+        .max()?;
+    let gap = on - before;
+    if gap < LONG_GAP_DAYS {
+        return None;
+    }
+    let advice = reforming_advice(gap)?;
+    Some(format!(
+        "{:.1} years since the visit before; if it sat unpowered: {advice}",
+        gap as f64 / 365.25
+    ))
+}
+
+/// How the capacitor's measured drift compares with the temperature rule.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct AgeingCheck {
+    /// Years the measured drift takes from the label's capacitance to the end-of-life limit.
+    pub measured_years: f64,
+    /// The rule's life at nominal, years at the duty.
+    pub rule_years: f64,
+    pub words: String,
+}
+
+/// Compares the measured time to end of life (`measured_years`) with the rule's (`rule`):
+/// within a factor of two they agree; a part ageing more than twice as fast as its
+/// temperature explains points at heat or ripple beyond what the file says.
+pub fn ageing_check(measured_years: f64, rule: &Life) -> AgeingCheck {
+    let ratio = measured_years / rule.years.max(1e-9);
+    let words = if ratio < 0.5 {
+        format!(
+            "ageing faster than its temperature explains: at the measured drift it goes from \
+             its label to its limit in {}, the temperature rule gives {} (core {:.0} degC): look for \
+             overheating (a hot neighbour, blocked airflow, a can warmer than the ambient taken) \
+             or ripple beyond its rating",
+            years_words(measured_years),
+            years_words(rule.years),
+            rule.core_c
+        )
+    } else if ratio > 2.0 {
+        format!(
+            "ageing slower than the temperature rule: {} by the drift against {} by the rule \
+             (the rule is the makers' conservative one, or it runs cooler than taken)",
+            years_words(measured_years),
+            years_words(rule.years)
+        )
+    } else {
+        format!(
+            "the drift and the temperature rule agree: {} against {}",
+            years_words(measured_years),
+            years_words(rule.years)
+        )
+    };
+    AgeingCheck {
+        measured_years,
+        rule_years: rule.years,
+        words,
+    }
 }
 
 #[cfg(test)]

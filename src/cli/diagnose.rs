@@ -226,6 +226,15 @@ pub fn run(
     if let Some(fit) = &fitted {
         written(calibrate::render_text(out, &supply, fit))?;
     }
+    // Today's readings after a long gap since the unit's last visit: the storage advice.
+    if let Some(c) = today
+        .parse::<crate::visit::Date>()
+        .ok()
+        .and_then(|d| crate::visit::Visit::day_of(&d))
+        .and_then(|on| crate::analysis::capacitor_life::storage_caution(&supply, on))
+    {
+        written(writeln!(out, "  ! Storage: {c}"))?;
+    }
     Ok(ExitCode::SUCCESS)
 }
 

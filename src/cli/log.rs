@@ -112,6 +112,9 @@ pub fn render_text(out: &mut impl Write, supply: &Supply, trend: &Trend) -> std:
             )?;
         }
     }
+    if let Some(a) = &trend.ageing {
+        writeln!(out, "  Against the temperature rule: {}", a.words)?;
+    }
     writeln!(out, "  {}", trend.note)
 }
 
@@ -152,6 +155,7 @@ mod tests {
             limit: "20 % below the stated capacitance".into(),
             crossing: None,
             note: "one visit".into(),
+            ageing: None,
         };
         let mut out = Vec::new();
         render_text(&mut out, &s, &trend).unwrap();

@@ -3,6 +3,7 @@
 //! critical inductance.
 
 use super::written;
+use crate::analysis::capacitor_life;
 use crate::analysis::sizing::{self, Sized, SizedChoke, Target};
 use crate::escape::printable;
 use crate::supply::{FilterKind, Supply};
@@ -106,6 +107,7 @@ pub fn render_text(
         "  voltage rating keeps the worst peak within {:.0} % of it (usual derating)",
         sizing::DERATING * 100.0
     )?;
+    grades_text(out, supply, sized)?;
     if let Some(c) = chokes.first() {
         writeln!(
             out,
@@ -121,6 +123,66 @@ pub fn render_text(
             "  {:<4} {} (its inductance at the lightest load's current)",
             c.series,
             format_si(c.henries, "H")
+        )?;
+    }
+    Ok(())
+}
+
+/// The replacement grades for the first (E12) capacitor, the longest-lived first, at the
+/// unit's duty: what to fit from the van.
+fn grades(supply: &Supply, sized: &[Sized]) -> Vec<capacitor_life::GradeLife> {
+    let Some(s) = sized.first() else {
+        return Vec::new();
+    };
+    // The sized part's own worst ripple current; the nominal taken alike (the sizing solves
+    // the worst case only), so the ranking is at the worst corner.
+    let hz = supply.rectifier.topology.pulses_per_cycle() as f64 * supply.mains.hz;
+    capacitor_life::rank_grades(supply, s.ripple_a, s.ripple_a, hz)
+}
+
+fn grades_text(out: &mut impl Write, supply: &Supply, sized: &[Sized]) -> std::io::Result<()> {
+    let ranked = grades(supply, sized);
+    let Some(s) = sized.first() else {
+        return Ok(());
+    };
+    let f = &supply.filter;
+    writeln!(
+        out,
+        "  replacement grades for the {} {}, longest-lived first (worst ripple {} RMS at {}, \
+         {} h a day):",
+        s.series,
+        format_uf(s.uf),
+        format_si(s.ripple_a, "A"),
+        match f.ambient_c {
+            Some(a) => format!("{} degC", format_number(a)),
+            None => format!(
+                "{:.0} degC, ambient not stated",
+                capacitor_life::ASSUMED_AMBIENT_C.1
+            ),
+        },
+        format_number(
+            f.duty_h_per_day
+                .unwrap_or(capacitor_life::DEFAULT_DUTY_H_PER_DAY)
+        )
+    )?;
+    for g in &ranked {
+        let ripple = match g.ripple_a {
+            Some(a) => format!("ripple rated {}", format_si(a, "A")),
+            None => "ripple rating not stated".into(),
+        };
+        writeln!(
+            out,
+            "    {:>3.0} degC {:>6} h, {ripple:<24} {} (core {:.0} degC)",
+            g.rated_c,
+            format_number(g.rated_h),
+            capacitor_life::years_words(g.worst.years),
+            g.worst.core_c
+        )?;
+    }
+    if f.rated_ripple_a.is_none() {
+        writeln!(
+            out,
+            "    (no filter.rated_ripple_a: the ripple's own heating is left out for every grade)"
         )?;
     }
     Ok(())
@@ -145,6 +207,7 @@ pub fn render_json(
             "derating": sizing::DERATING,
             "capacitors": sized,
             "chokes": chokes,
+            "replacement_grades": grades(supply, sized),
         })
     )
 }

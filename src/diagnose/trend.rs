@@ -48,6 +48,9 @@ pub struct Trend {
     pub limit: String,
     pub crossing: Option<Crossing>,
     pub note: String,
+    /// The measured drift against the temperature rule's life, when the file gives the
+    /// capacitor's life rating and the drift projects a crossing.
+    pub ageing: Option<Box<crate::analysis::capacitor_life::AgeingCheck>>,
 }
 
 /// The capacitance factors a visit is fitted over: 2 % to 160 % of the stated value, the range
@@ -556,6 +559,7 @@ pub fn trend(supply: &Supply) -> Trend {
         limit,
         crossing: None,
         note: String::new(),
+        ageing: None,
     };
     if xy.len() < 2 {
         if let Some(r) = replaced_at {
@@ -587,6 +591,20 @@ pub fn trend(supply: &Supply) -> Trend {
             earliest: Some(date(earliest)),
             latest: latest.map(date),
         });
+        // The measured time to the limit against the temperature rule's life.
+        if let Ok(op) = circuit::solve(supply, &Conditions::default())
+            && let Some(rule) = crate::analysis::capacitor_life::nominal_life(supply, &op.figures)
+        {
+            // At the measured drift, the years from the label's value to the limit: the
+            // part's whole life at this rate, whenever it was fitted (the first visit need
+            // not be its first day).
+            let stated = supply.filter.uf.unwrap_or(0.0);
+            let measured_years = (stated - limit_uf).max(0.0) / (-fit.slope * 365.25);
+            out.ageing = Some(Box::new(crate::analysis::capacitor_life::ageing_check(
+                measured_years,
+                &rule,
+            )));
+        }
         out.note = match latest {
             Some(_) => "range: 90 % band from the meters' uncertainty and the visits' scatter",
             None => {

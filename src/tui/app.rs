@@ -134,6 +134,8 @@ pub struct Solved {
     pub low: Option<(String, Operating)>,
     /// A valve rectifier's supply with silicon in its place.
     pub solid_state: Option<crate::analysis::valve::SolidState>,
+    /// The first capacitor's expected life, when the file gives its rating.
+    pub capacitor_life: Option<crate::analysis::capacitor_life::CapacitorLife>,
 }
 
 /// Solves `supply` for the screen: nominal, worst case, checks, cautions, low corner.
@@ -182,7 +184,10 @@ pub fn solve_for_screen_while(
     } else {
         None
     };
+    let capacitor_life =
+        crate::analysis::capacitor_life::capacitor_life(supply, &nominal.figures, &worst);
     Some(Ok(Solved {
+        capacitor_life,
         solid_state,
         nominal,
         hand,

@@ -275,6 +275,30 @@ impl Widget for &ResultsPanel<'_> {
                 .to_string(),
             ));
         }
+        // The capacitor's life under the figures; in what-if, against the life before.
+        if let Some(l) = &solved.capacitor_life {
+            let was = before
+                .and_then(|b| b.capacitor_life.as_ref())
+                .map(|b| {
+                    format!(
+                        " (was {})",
+                        crate::analysis::capacitor_life::years_words(b.nominal.years)
+                    )
+                })
+                .unwrap_or_default();
+            text.wrapped(
+                &format!(
+                    "Capacitor life {}{was}, worst {} (core {:.0} / {:.0} degC, {} h a day)",
+                    crate::analysis::capacitor_life::years_words(l.nominal.years),
+                    crate::analysis::capacitor_life::years_words(l.worst.years),
+                    l.nominal.core_c,
+                    l.worst.core_c,
+                    crate::units::format_number(l.duty_h_per_day)
+                ),
+                Style::default(),
+                2,
+            );
+        }
         // The what-if right under the figures it changes, above the checks.
         if open.show_solid_state
             && let Some(w) = &solved.solid_state
@@ -423,6 +447,12 @@ fn visits(app: &App, open: &Open, look: &Look, focused: bool, area: Rect, buf: &
         if !v.technician.is_empty() {
             text.wrapped(&format!("  by {}", v.technician), look.dim(), 4);
         }
+        if let Some(c) = v
+            .days()
+            .and_then(|d| crate::analysis::capacitor_life::storage_caution(&open.supply, d))
+        {
+            text.wrapped(&format!("  storage: {c}"), look.warn(), 4);
+        }
         match judged {
             Some(Judgement::Judged { expectations, .. }) => {
                 for e in expectations {
@@ -510,6 +540,9 @@ fn visits(app: &App, open: &Open, look: &Look, focused: bool, area: Rect, buf: &
             _ => t.note.clone(),
         };
         foot.wrapped(&summary, look.heading(), 2);
+        if let Some(a) = &t.ageing {
+            foot.wrapped(&a.words, look.dim(), 2);
+        }
         let points = t.points.iter().filter(|p| p.uf.is_some()).count();
         // The chart, when it has two visits to join and the panel room for it beside at
         // least five lines of visits.
