@@ -17,4 +17,5 @@ pub use circuit::{Conditions, Figures, HandEstimate, Operating, solve, solve_nom
 pub use supply::{Supply, SupplyError, Topology};
 pub mod analysis;
 pub mod library;
+pub mod record;
 pub mod report;

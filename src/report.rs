@@ -147,6 +147,18 @@ fn filter_words(s: &Supply) -> String {
     }
 }
 
+/// The supply in one line, as the report's header gives it: "230 V 50 Hz mains, bridge
+/// rectifier, 2200 uF 50 V capacitor filter".
+pub fn supply_line(s: &Supply) -> String {
+    format!(
+        "{} V {} Hz mains, {} rectifier, {}",
+        format_number(s.mains.vrms),
+        format_number(s.mains.hz),
+        s.rectifier.topology.key(),
+        filter_words(s)
+    )
+}
+
 /// The choke as a technician names it: "10 H 150 ohm choke", a swinging one "5-20 H
 /// swinging choke (200 mA), 90 ohm".
 fn choke_words(s: &Supply) -> String {
@@ -245,7 +257,8 @@ fn valve_json(s: &Supply) -> Value {
     })
 }
 
-fn show(value: Option<f64>, unit: &str) -> String {
+/// A figure's value in its unit as the report's table shows it ("unlimited" for None).
+pub(crate) fn show(value: Option<f64>, unit: &str) -> String {
     match (value, unit) {
         (None, _) => "unlimited".into(),
         (Some(v), "deg") => format!("{v:.0} deg"),
@@ -268,13 +281,7 @@ impl Report {
         // character in them cannot drive the terminal.
         out.push_str(&format!("{}\n", printable(&s.name)));
         out.push_str(&format!("  file: {}\n", printable(&self.file)));
-        out.push_str(&format!(
-            "  {} V {} Hz mains, {} rectifier, {}\n",
-            format_number(s.mains.vrms),
-            format_number(s.mains.hz),
-            s.rectifier.topology.key(),
-            filter_words(s)
-        ));
+        out.push_str(&format!("  {}\n", supply_line(s)));
         if s.rectifier.topology.rails() == 2 {
             out.push_str("  split rail: figures are the + rail; the - rail mirrors it\n");
         }

@@ -654,7 +654,7 @@ fn diagnose_and_log_speak_in_words_and_units() {
     let _ = std::fs::remove_dir_all(&dir);
 }
 
-const SUBCOMMANDS: [&str; 9] = [
+const SUBCOMMANDS: [&str; 10] = [
     "report",
     "size",
     "list",
@@ -663,6 +663,7 @@ const SUBCOMMANDS: [&str; 9] = [
     "diagnose",
     "calibrate",
     "log",
+    "record",
     "completions",
 ];
 

@@ -979,3 +979,43 @@ fn a_guessed_choke_is_marked_and_clears_the_critical_check() {
         s.unconfirmed
     );
 }
+
+#[test]
+fn p_in_the_visits_writes_the_record_of_the_newest_visit_beside_the_library() {
+    let (mut app, dir) = demo("record");
+    select(&mut app, PUMP);
+    app.wait_idle();
+    let records = dir.join("records");
+    // Outside the visits view the key says where it works, and writes nothing.
+    keys(&mut app, &[Msg::Char('P')]);
+    assert!(app.status.contains("visits view"), "{}", app.status);
+    assert!(!records.exists());
+    keys(&mut app, &[Msg::Char('v'), Msg::Char('P')]);
+    // The newest demo visit of the pump house is 2026-11-30 (src/library/demo.rs).
+    let first = records.join("pump-house-2-relay-rail-2026-11-30.html");
+    assert!(
+        app.status.contains(&first.display().to_string()),
+        "{}",
+        app.status
+    );
+    let html = std::fs::read_to_string(&first).unwrap();
+    assert!(html.starts_with("<!DOCTYPE html>") && html.contains("J. Brandt"));
+    // Again: a second file, the first kept as it was.
+    std::fs::write(&first, "kept").unwrap();
+    keys(&mut app, &[Msg::Char('P')]);
+    let second = records.join("pump-house-2-relay-rail-2026-11-30-2.html");
+    assert!(
+        app.status.contains(&second.display().to_string()),
+        "{}",
+        app.status
+    );
+    assert!(second.is_file());
+    assert_eq!(std::fs::read_to_string(&first).unwrap(), "kept");
+    // The records folder is never taken for supplies.
+    let names: Vec<String> = app.entries.iter().map(|e| e.name()).collect();
+    app.update(Msg::Char('R'));
+    assert_eq!(
+        names,
+        app.entries.iter().map(|e| e.name()).collect::<Vec<_>>()
+    );
+}

@@ -169,6 +169,23 @@ pub enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// A visit's service record: one self-contained printable HTML page (the unit, the visit,
+    /// the readings against their windows, the verdict, what the supply should read, the
+    /// sketches, the capacitor's life, the checks and cautions, room to sign) to leave with
+    /// the customer.
+    Record {
+        #[arg(value_name = "NAME_OR_FILE")]
+        name: String,
+        /// The visit's date (YYYY-MM-DD); the newest visit when left out.
+        #[arg(long, value_name = "DATE")]
+        visit: Option<String>,
+        /// Write the page to FILE (which must not exist yet, see --force) instead of stdout.
+        #[arg(short, long, value_name = "FILE")]
+        output: Option<PathBuf>,
+        /// Replace FILE if it exists (its previous version is kept as FILE.bak).
+        #[arg(long, requires = "output")]
+        force: bool,
+    },
     /// Write the completion script for SHELL to stdout (see the README for where it goes).
     Completions {
         #[arg(value_name = "SHELL")]
@@ -190,6 +207,7 @@ impl Command {
             Some(Command::Export { .. }) => "the exported file",
             Some(Command::Diagnose { .. }) => "the diagnosis",
             Some(Command::Log { .. }) => "the log",
+            Some(Command::Record { .. }) => "the service record",
             Some(Command::Calibrate { .. }) => "the calibration",
             Some(Command::Completions { .. }) => "the completion script",
             Some(Command::Manpage) => "the manual page",

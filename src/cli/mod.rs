@@ -9,6 +9,7 @@ pub mod diagnose;
 mod files;
 pub mod list;
 pub mod log;
+pub mod record;
 pub mod report;
 pub mod shell;
 pub mod size;
@@ -204,6 +205,20 @@ pub fn dispatch(cli: Cli, out: &mut impl Write) -> Result<ExitCode> {
             let (supply, _) = resolve(&name, dir, no_demo)?;
             log::run(out, &supply, json)
         }
+        Some(Command::Record {
+            name,
+            visit,
+            output,
+            force,
+        }) => record::run(
+            out,
+            &name,
+            visit.as_deref(),
+            output.as_deref(),
+            force,
+            dir,
+            no_demo,
+        ),
         Some(Command::Completions { shell }) => {
             written(out.write_all(&shell::completions(shell)))?;
             Ok(ExitCode::SUCCESS)

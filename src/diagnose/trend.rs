@@ -53,6 +53,28 @@ pub struct Trend {
     pub ageing: Option<Box<crate::analysis::capacitor_life::AgeingCheck>>,
 }
 
+impl Trend {
+    /// The trend in one line, as the screen and the service record say it: "Trend -180 uF a
+    /// year; reaches the 1760 uF limit about 2027-03-01 (2026-09-12..2027-11-30)", or its
+    /// note when there is no crossing to project.
+    pub fn summary(&self) -> String {
+        match (&self.crossing, self.uf_per_year) {
+            (Some(c), Some(s)) => format!(
+                "Trend {s:+.0} uF a year; {} the {} limit about {}{}",
+                if c.already { "crossed" } else { "reaches" },
+                crate::units::format_uf(self.limit_uf),
+                c.date,
+                match (&c.earliest, &c.latest) {
+                    (Some(a), Some(b)) => format!(" ({a}..{b})"),
+                    (Some(a), None) => format!(" ({a}.., no later bound)"),
+                    _ => String::new(),
+                }
+            ),
+            _ => self.note.clone(),
+        }
+    }
+}
+
 /// The capacitance factors a visit is fitted over: 2 % to 160 % of the stated value, the range
 /// the diagnosis searches for a shrunken capacitor.
 const FACTOR_LO: f64 = 0.02;

@@ -77,6 +77,12 @@ fn write_err(path: &Path) -> impl FnOnce(io::Error) -> LibraryError + '_ {
 /// the others.
 pub const LOCK_WAIT: Duration = Duration::from_secs(10);
 
+/// The folder of the screen's service records, inside the library folder.
+pub const RECORDS_DIR: &str = "records";
+/// How many records of one visit the screen writes before it asks for some to be moved (a
+/// bound, so a full folder is an error rather than a long search).
+const RECORD_SUFFIXES: usize = 999;
+
 /// The per-library lock file; hidden, so never listed as a supply.
 pub const LOCK_FILE: &str = ".lock";
 
@@ -330,6 +336,52 @@ impl Library {
             fs::symlink_metadata(self.dir.join(f)).is_ok()
         });
         self.dir.join(file)
+    }
+
+    /// The folder the screen writes service records into (`records`; the library lists only
+    /// `*.toml` files, so nothing there is ever taken for a supply).
+    pub fn records_dir(&self) -> PathBuf {
+        self.dir.join(RECORDS_DIR)
+    }
+
+    /// Writes a service record as `records/<supply file stem>-<date>.html`, or with `-2`,
+    /// `-3`, ... when that name is taken: an earlier record is never replaced. Returns the
+    /// path written.
+    pub fn write_record(
+        &self,
+        supply_file: &Path,
+        date: &str,
+        html: &str,
+    ) -> Result<PathBuf, LibraryError> {
+        let dir = self.records_dir();
+        fs::create_dir_all(&dir).map_err(io_err(&dir))?;
+        // The stem of a library file is already a slug; a file from elsewhere is made one, and
+        // the date is the visit's YYYY-MM-DD, so the name cannot leave the folder.
+        let stem = supply_file
+            .file_stem()
+            .map(|s| slug::slug(&s.to_string_lossy()))
+            .unwrap_or_else(|| "supply".into());
+        let base = format!("{stem}-{}", slug::slug(date));
+        for n in 1..=RECORD_SUFFIXES {
+            let name = if n == 1 {
+                format!("{base}.html")
+            } else {
+                format!("{base}-{n}.html")
+            };
+            let path = dir.join(name);
+            match store::write_new(&path, html.as_bytes()) {
+                Ok(()) => return Ok(path),
+                Err(e) if e.kind() == io::ErrorKind::AlreadyExists => continue,
+                Err(e) => return Err(io_err(&path)(e)),
+            }
+        }
+        Err(LibraryError::Io {
+            path: dir.join(format!("{base}.html")),
+            error: io::Error::new(
+                io::ErrorKind::AlreadyExists,
+                format!("{RECORD_SUFFIXES} records of this visit already exist; move some away"),
+            ),
+        })
     }
 
     /// The library's trash folder, where deleted supplies go (`.trash`).

@@ -227,6 +227,41 @@ fn write_atomic_inner(
     Ok(())
 }
 
+/// Writes `bytes` to `path`, which must not exist yet, never replacing anything: a temporary
+/// file beside it is written and synced, then linked to `path` (a hard link is refused when
+/// the name is taken, so of two writers racing for one name only one gets it; the other has
+/// `AlreadyExists`). Where links are not supported the file is created with `create_new`,
+/// which refuses a taken name too, and written in place.
+pub fn write_new(path: &Path, bytes: &[u8]) -> io::Result<()> {
+    let tmp = temp_beside(path, "new");
+    let staged = (|| {
+        let mut f = OpenOptions::new().write(true).create_new(true).open(&tmp)?;
+        f.write_all(bytes)?;
+        f.sync_all()
+    })();
+    let linked = staged.and_then(|_| fs::hard_link(&tmp, path));
+    let _ = fs::remove_file(&tmp);
+    match linked {
+        Ok(()) => {}
+        Err(e) if e.kind() == io::ErrorKind::AlreadyExists => return Err(e),
+        Err(_) => {
+            let mut f = OpenOptions::new().write(true).create_new(true).open(path)?;
+            let written = f.write_all(bytes).and_then(|_| f.sync_all());
+            if let Err(e) = written {
+                drop(f);
+                let _ = fs::remove_file(path);
+                return Err(e);
+            }
+        }
+    }
+    let dir = path
+        .parent()
+        .filter(|d| !d.as_os_str().is_empty())
+        .unwrap_or(Path::new("."));
+    let _ = File::open(dir).and_then(|d| d.sync_all());
+    Ok(())
+}
+
 /// Gives the old file at `path` the name `bak_tmp`: a hard link (no bytes copied, so a full
 /// disk cannot cut it short), or where links are not supported, a synced copy.
 fn make_backup(
@@ -268,6 +303,26 @@ mod tests {
         let _ = fs::remove_dir_all(&d);
         fs::create_dir_all(&d).unwrap();
         d
+    }
+
+    /// A new file is written whole; a taken name is refused and left as it was, and no
+    /// temporary file stays behind either way.
+    #[test]
+    fn write_new_never_replaces_a_file() {
+        let d = dir("new");
+        let path = d.join("r.html");
+        write_new(&path, b"first").unwrap();
+        assert_eq!(fs::read(&path).unwrap(), b"first");
+        let err = write_new(&path, b"second").unwrap_err();
+        assert_eq!(err.kind(), io::ErrorKind::AlreadyExists);
+        assert_eq!(fs::read(&path).unwrap(), b"first");
+        let names: Vec<_> = fs::read_dir(&d)
+            .unwrap()
+            .flatten()
+            .map(|e| e.file_name())
+            .collect();
+        assert_eq!(names, vec![std::ffi::OsString::from("r.html")]);
+        let _ = fs::remove_dir_all(&d);
     }
 
     /// The copying backup (for file systems without hard links) keeps the old backup whole

@@ -31,6 +31,7 @@ pub enum Action {
     Visits,
     AddVisit,
     Calibrate,
+    Record,
     Reload,
     Help,
     Quit,
@@ -180,6 +181,12 @@ pub const BINDINGS: &[Binding] = &[
         &[Msg::Char('b')],
         Action::Calibrate,
         "visits: calibrate on the newest visit (known good)",
+    ),
+    bind(
+        "P",
+        &[Msg::Char('P')],
+        Action::Record,
+        "visits: print record of the newest visit (HTML file)",
     ),
     bind(
         "R",

@@ -525,20 +525,7 @@ fn visits(app: &App, open: &Open, look: &Look, focused: bool, area: Rect, buf: &
     let mut foot = Text::new(inner.width);
     let mut chart_h = 0;
     if let Some(t) = &open.trend {
-        let summary = match (&t.crossing, t.uf_per_year) {
-            (Some(c), Some(s)) => format!(
-                "Trend {s:+.0} uF a year; {} the {} limit about {}{}",
-                if c.already { "crossed" } else { "reaches" },
-                format_uf(t.limit_uf),
-                c.date,
-                match (&c.earliest, &c.latest) {
-                    (Some(a), Some(b)) => format!(" ({a}..{b})"),
-                    (Some(a), None) => format!(" ({a}.., no later bound)"),
-                    _ => String::new(),
-                }
-            ),
-            _ => t.note.clone(),
-        };
+        let summary = t.summary();
         foot.wrapped(&summary, look.heading(), 2);
         if let Some(a) = &t.ageing {
             foot.wrapped(&a.words, look.dim(), 2);
