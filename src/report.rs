@@ -281,6 +281,16 @@ impl Report {
         // character in them cannot drive the terminal.
         out.push_str(&format!("{}\n", printable(&s.name)));
         out.push_str(&format!("  file: {}\n", printable(&self.file)));
+        // Where the unit is and what the file says of it, typed by people: escaped like the
+        // name. The notes keep their own lines and are not wrapped here: a terminal wraps a
+        // long line itself, and a report copied into a ticket keeps the text as it was typed.
+        if let Some(site) = s.site.as_deref().filter(|x| !x.trim().is_empty()) {
+            out.push_str(&format!("  site: {}\n", printable(site)));
+        }
+        for (i, line) in s.notes.trim_end().lines().enumerate() {
+            let lead = if i == 0 { "  notes: " } else { "         " };
+            out.push_str(&format!("{lead}{}\n", printable(line)));
+        }
         out.push_str(&format!("  {}\n", supply_line(s)));
         if s.rectifier.topology.rails() == 2 {
             out.push_str("  split rail: figures are the + rail; the - rail mirrors it\n");
@@ -463,6 +473,8 @@ impl Report {
             .collect();
         json!({
             "name": self.supply.name,
+            "site": self.supply.site,
+            "notes": self.supply.notes,
             "file": self.file,
             "topology": self.supply.rectifier.topology.key(),
             "rail": if self.supply.rectifier.topology.rails() == 2 { "+" } else { "single" },

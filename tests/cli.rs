@@ -765,3 +765,54 @@ fn the_examples_report_what_their_comments_say() {
     }
     assert!(checked >= 3, "{checked} examples state their DC");
 }
+
+/// Issue 15: the report says where the unit is and what its file says of it, under its name
+/// and file; the JSON has both. The values checked are the example file's own lines.
+#[test]
+fn the_report_shows_the_site_and_notes_under_the_name() {
+    let file = Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("examples/backwash-actuator-rail.toml")
+        .display()
+        .to_string();
+    let site = "Larchmere Valley Water Co-op, pump house 3";
+    let notes = "Demo data (invented). The filter backwash valve's motor drive on a 400 VA \
+                 toroid: a bridge and a large capacitor bank. The toroid's label gives its \
+                 percent impedance, which the leakage comes from.";
+    let out = railcheck(&["report", &file]);
+    assert!(out.status.success());
+    let text = String::from_utf8(out.stdout).unwrap();
+    let lines: Vec<&str> = text.lines().collect();
+    assert_eq!(lines[0], "Pump house 3, backwash actuator rail");
+    assert!(lines[1].starts_with("  file: "), "{text}");
+    assert_eq!(lines[2], format!("  site: {site}"));
+    assert_eq!(lines[3], format!("  notes: {notes}"));
+    let out = railcheck(&["report", "--json", &file]);
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["site"], site);
+    assert_eq!(v["notes"], notes);
+
+    // Notes of several lines keep them, each escaped (an ESC would drive the terminal); a file
+    // without a site has no site line, and JSON null.
+    let text = GOOD.replace(
+        "name = \"cli test\"",
+        "name = \"cli test\"\nnotes = \"Fed from DB-2, way 7.\\nBench PSU \\u001b[2J nearby, \
+         Süd wing\"",
+    );
+    let f = write_temp("site_notes.toml", &text).display().to_string();
+    let out = railcheck(&["report", &f]);
+    let shown = String::from_utf8(out.stdout).unwrap();
+    let lines: Vec<&str> = shown.lines().collect();
+    assert_eq!(lines[2], "  notes: Fed from DB-2, way 7.");
+    assert_eq!(lines[3], "         Bench PSU \\x1b[2J nearby, Süd wing");
+    assert!(
+        !shown.contains('\u{1b}') && !shown.contains("  site:"),
+        "{shown}"
+    );
+    let out = railcheck(&["report", "--json", &f]);
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert!(v["site"].is_null());
+    assert_eq!(
+        v["notes"],
+        "Fed from DB-2, way 7.\nBench PSU \u{1b}[2J nearby, Süd wing"
+    );
+}

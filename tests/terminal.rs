@@ -204,6 +204,14 @@ fn control_characters_from_a_file_print_escaped_everywhere() {
             "{args:?}: shown escaped:\n{all}"
         );
     }
+    // The report's site and notes lines (issue 15), escaped like its name.
+    let report = String::from_utf8(railcheck(&["report", &file]).stdout).unwrap();
+    for shown in [
+        "  site: Site\\x1b]0;title\\x07\n",
+        "  notes: Notes\\x1b[31m\n",
+    ] {
+        assert!(report.contains(shown), "{shown} not in:\n{report}");
+    }
     let log = String::from_utf8(railcheck(&["log", &file]).stdout).unwrap();
     for shown in [
         "Evil\\x1b[2J\\x1b]0;owned\\x07\\rpump\\u{9b}2J\\u{202e}",

@@ -161,13 +161,18 @@ pub enum Command {
         #[arg(long)]
         json: bool,
     },
-    /// A supply's visits, newest first, with their readings and the capacitance trend.
+    /// A supply's visits, newest first: each reading against its window, the verdict, the
+    /// capacitance trend.
     Log {
         #[arg(value_name = "NAME_OR_FILE")]
         name: String,
         /// One JSON line instead of text (for scripts).
         #[arg(long)]
         json: bool,
+        /// The visits as CSV for a spreadsheet, oldest first: every field, the recorded
+        /// verdict, and the windows and verdict worked out now.
+        #[arg(long, conflicts_with = "json")]
+        csv: bool,
     },
     /// A visit's service record: one self-contained printable HTML page (the unit, the visit,
     /// the readings against their windows, the verdict, what the supply should read, the

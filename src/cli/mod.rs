@@ -201,9 +201,14 @@ pub fn dispatch(cli: Cli, out: &mut impl Write) -> Result<ExitCode> {
         Some(Command::Calibrate { name, visit, json }) => {
             calibrate::run(out, &name, visit.as_deref(), json, dir, no_demo)
         }
-        Some(Command::Log { name, json }) => {
+        Some(Command::Log { name, json, csv }) => {
             let (supply, _) = resolve(&name, dir, no_demo)?;
-            log::run(out, &supply, json)
+            let format = match (json, csv) {
+                (true, _) => log::Format::Json,
+                (false, true) => log::Format::Csv,
+                (false, false) => log::Format::Text,
+            };
+            log::run(out, &supply, format)
         }
         Some(Command::Record {
             name,

@@ -25,6 +25,16 @@ pub fn reading_value(key: &str, value: f64) -> String {
     with_unit(&format!("{name} {}", format_number(value)), unit)
 }
 
+/// A three-phase unit's three line-to-line readings: "lines a-b 401 V, b-c 398 V, c-a 404 V".
+pub fn lines_value(v: [f64; 3]) -> String {
+    format!(
+        "lines a-b {} V, b-c {} V, c-a {} V",
+        format_number(v[0]),
+        format_number(v[1]),
+        format_number(v[2])
+    )
+}
+
 fn with_unit(text: &str, unit: &str) -> String {
     if unit.is_empty() {
         text.to_string()
@@ -82,6 +92,10 @@ mod tests {
         assert_eq!(reading_value("ripple_rms_v", 0.31), "ripple RMS 0.31 V");
         assert_eq!(reading_value("ripple_hz", 100.0), "ripple frequency 100 Hz");
         assert_eq!(reading_value("load_a", 0.34), "load current 0.34 A");
+        assert_eq!(
+            lines_value([401.0, 398.0, 404.5]),
+            "lines a-b 401 V, b-c 398 V, c-a 404.5 V"
+        );
         // Every key a visit can hold has words, not the key itself.
         for (key, _) in (crate::visit::Readings {
             mains_vrms: Some(1.0),

@@ -4,6 +4,7 @@
 
 #![deny(clippy::wildcard_enum_match_arm)]
 pub mod calibrate;
+pub mod judge;
 mod nuisance;
 pub mod trend;
 

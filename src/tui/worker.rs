@@ -5,10 +5,10 @@
 //! stages, rather than finish work nobody will see.
 
 use super::app::{Solved, solve_for_screen_while};
+use crate::diagnose::judge;
+pub use crate::diagnose::judge::Judgement;
 use crate::diagnose::trend::{Trend, trend};
-use crate::diagnose::{Expectation, diagnose};
 use crate::supply::Supply;
-use crate::visit::Readings;
 use std::sync::Arc;
 use std::sync::atomic::{AtomicU64, Ordering};
 use std::sync::mpsc::{self, Receiver, RecvTimeoutError, Sender, TryRecvError};
@@ -159,61 +159,9 @@ impl Worker {
 /// older visits show their readings and any verdict they kept.
 pub const JUDGED_VISITS: usize = 12;
 
-/// One visit's readings against their windows, as the diagnosis of the file as it is now
-/// gives them.
-#[derive(Debug, Clone, PartialEq)]
-pub enum Judgement {
-    /// Older than the newest [`JUDGED_VISITS`].
-    NotJudged,
-    /// The diagnosis refused the readings (none of the rail, or one the unit cannot show).
-    Refused(String),
-    Judged {
-        /// Each reading with its window: "within", "above" or "below".
-        expectations: Vec<Expectation>,
-        /// The verdict and the top-ranked fault with its score, for a visit that kept none.
-        verdict: &'static str,
-        fault: &'static str,
-        score: f64,
-    },
-}
-
 /// Judges the newest [`JUDGED_VISITS`] visits of `supply` (in the order of its visits),
 /// asking `keep_going` between visits; None when it says no. Visits with the same readings
-/// share one diagnosis.
+/// share one diagnosis. The judging itself is the core's, the same `railcheck log` uses.
 pub fn judge_visits(supply: &Supply, keep_going: &dyn Fn() -> bool) -> Option<Vec<Judgement>> {
-    let n = supply.visits.len();
-    let mut order: Vec<usize> = (0..n).collect();
-    // Newest first, as the visits view lists them.
-    order.sort_by_key(|&i| std::cmp::Reverse(supply.visits[i].date_text()));
-    let mut out = vec![Judgement::NotJudged; n];
-    let mut seen: Vec<(Readings, Judgement)> = Vec::new();
-    for &i in order.iter().take(JUDGED_VISITS) {
-        if !keep_going() {
-            return None;
-        }
-        let readings = supply.visits[i].readings;
-        if let Some((_, j)) = seen.iter().find(|(r, _)| *r == readings) {
-            out[i] = j.clone();
-            continue;
-        }
-        let j = match diagnose(supply, &readings) {
-            Ok(d) => {
-                let (fault, score) = d
-                    .hypotheses
-                    .first()
-                    .map(|h| (h.fault.key(), h.score))
-                    .unwrap_or(("", 0.0));
-                Judgement::Judged {
-                    verdict: d.verdict,
-                    fault,
-                    score,
-                    expectations: d.expectations,
-                }
-            }
-            Err(e) => Judgement::Refused(e.to_string()),
-        };
-        seen.push((readings, j.clone()));
-        out[i] = j;
-    }
-    Some(out)
+    judge::judge_visits(supply, JUDGED_VISITS, keep_going)
 }
