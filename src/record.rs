@@ -98,6 +98,13 @@ pub fn service_record(
         for c in &report.cautions {
             let _ = write!(h, "<li><strong>CAUTION:</strong> {}</li>", escape_html(c));
         }
+        // A visit long after the one before: the storage (reforming) advice.
+        if let Some(c) = visit
+            .days()
+            .and_then(|d| crate::analysis::capacitor_life::storage_caution(&report.supply, d))
+        {
+            let _ = write!(h, "<li><strong>STORAGE:</strong> {}</li>", escape_html(&c));
+        }
         h.push_str("</ul>");
     });
 

@@ -220,3 +220,31 @@ fn the_demo_trend_compares_its_drift_with_the_rule() {
     assert!((a.measured_years - want).abs() < 1e-9 * want);
     assert!(a.words.contains("faster"), "{}", a.words);
 }
+
+/// The service record carries the storage advice of a visit that follows a long gap (the demo
+/// chart recorder: four years between its visits, invented data), and the life when rated.
+#[test]
+fn the_record_carries_the_storage_advice_and_the_life() {
+    let demo = railcheck::library::demo::supplies();
+    let find = |name: &str| {
+        demo.iter()
+            .map(|(_, text)| Supply::from_toml_str(text).unwrap())
+            .find(|s| s.name == name)
+            .unwrap()
+    };
+    let recorder = find("Flow chart recorder, HT rail");
+    let newest = recorder.visits.iter().max_by_key(|v| v.days()).unwrap();
+    let html = railcheck::record::of_visit(&recorder, newest, "recorder.toml").unwrap();
+    assert!(
+        html.contains("STORAGE:") && html.contains("reform"),
+        "no storage advice"
+    );
+    let pump = find("Pump-house 2, relay rail");
+    let newest = pump.visits.iter().max_by_key(|v| v.days()).unwrap();
+    let html = railcheck::record::of_visit(&pump, newest, "pump.toml").unwrap();
+    assert!(html.contains("Expected capacitor life"));
+    assert!(
+        !html.contains("STORAGE:"),
+        "yearly visits need no storage advice"
+    );
+}
