@@ -392,6 +392,7 @@ impl Report {
             );
             out.push_str(&format!("  {}\n", l.words()));
             out.push_str(&format!("  worst at: {}\n", printable(&l.worst_at)));
+            out.push_str(&format!("  {}\n", l.end_of_life_words()));
             for a in &l.assumed {
                 out.push_str(&format!("  assumed: {a}\n"));
             }

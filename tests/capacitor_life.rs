@@ -248,3 +248,19 @@ fn the_record_carries_the_storage_advice_and_the_life() {
         "yearly visits need no storage advice"
     );
 }
+
+/// The end-of-life criteria in the part's values (makers' usual: capacitance 20 % under its
+/// label, ESR twice its first): 2200 uF and 0.05 ohm give 1760 uF and 0.1 ohm.
+#[test]
+fn the_end_of_life_criteria_are_in_the_parts_own_values() {
+    let s = bench_supply("esr_ohms = 0.05\nrated_life_h = 2000.0\nrated_life_c = 105.0");
+    let r = railcheck::report::build_default(s, "t").unwrap();
+    let l = r.capacitor_life.unwrap();
+    assert!((l.end_of_life_uf - 1760.0).abs() < 1e-9);
+    assert!((l.end_of_life_esr_ohms.unwrap() - 0.1).abs() < 1e-12);
+    assert!(
+        l.end_of_life_words().contains("1760 uF"),
+        "{}",
+        l.end_of_life_words()
+    );
+}

@@ -140,9 +140,29 @@ pub struct CapacitorLife {
     pub worst_at: String,
     /// What the file left out and was taken instead.
     pub assumed: Vec<String>,
+    /// The end-of-life criteria in the part's own values: capacitance at or below this
+    /// (microfarads, 20 % under its label), or ESR at or above this (ohms, twice its first;
+    /// None when the file gives no ESR).
+    pub end_of_life_uf: f64,
+    pub end_of_life_esr_ohms: Option<f64>,
 }
 
 impl CapacitorLife {
+    /// The end-of-life criteria in words: "end of life below 1760 uF or above 0.10 ohm ESR".
+    pub fn end_of_life_words(&self) -> String {
+        let mut out = format!(
+            "end of life: below {} (20 % under its label)",
+            crate::units::format_uf(self.end_of_life_uf)
+        );
+        if let Some(esr) = self.end_of_life_esr_ohms {
+            out.push_str(&format!(
+                " or ESR above {} ohm (twice its first)",
+                crate::units::format_number((esr * 1000.0).round() / 1000.0)
+            ));
+        }
+        out
+    }
+
     /// One line for the report and the screen.
     pub fn words(&self) -> String {
         format!(
@@ -277,7 +297,11 @@ pub fn capacitor_life(
         worst_fig.ripple_hz,
         i.duty_h_per_day,
     );
+    let f = &supply.filter;
+    let esr = f.esr();
     Some(CapacitorLife {
+        end_of_life_uf: f.uf.unwrap_or(0.0) * (1.0 - END_OF_LIFE_CAP_DROP),
+        end_of_life_esr_ohms: (esr > 0.0).then_some(esr * END_OF_LIFE_ESR_FACTOR),
         nominal: nominal_life(supply, nominal)?,
         rating: i.rating,
         duty_h_per_day: i.duty_h_per_day,

@@ -198,10 +198,13 @@ pub fn render_json(
                 }
                 Judgement::NotJudged => (serde_json::json!([]), serde_json::Value::Null, None),
             };
+            let storage = v
+                .days()
+                .and_then(|d| crate::analysis::capacitor_life::storage_caution(supply, d));
             serde_json::json!({"date": v.date_text(), "technician": v.technician,
                 "readings": readings, "notes": v.notes, "replaced": v.replaced,
                 "baseline": v.baseline, "windows": windows, "verdict": verdict,
-                "worked_out_now": now, "not_judged": refused})
+                "worked_out_now": now, "not_judged": refused, "storage": storage})
         })
         .collect();
     writeln!(
@@ -270,6 +273,12 @@ pub fn render_text(
         }
         if !v.technician.is_empty() {
             writeln!(out, "{INDENT}by {}", printable(&v.technician))?;
+        }
+        if let Some(c) = v
+            .days()
+            .and_then(|d| crate::analysis::capacitor_life::storage_caution(supply, d))
+        {
+            writeln!(out, "{INDENT}storage: {c}")?;
         }
         if let Some(lines) = v.readings.line_vrms {
             writeln!(out, "{INDENT}{}", lines_value(lines))?;

@@ -298,6 +298,7 @@ impl Widget for &ResultsPanel<'_> {
                 Style::default(),
                 2,
             );
+            text.wrapped(&l.end_of_life_words(), look.dim(), 2);
         }
         // The what-if right under the figures it changes, above the checks.
         if open.show_solid_state
