@@ -88,11 +88,23 @@ pub fn check_export_target(out: &Path, force: bool, cli_dir: &Option<PathBuf>) -
             out.display()
         );
     }
+    check_replace(out, force)
+}
+
+/// A file the command is about to write over: never a symbolic link or a folder, and an
+/// existing file only with `--force` (the writer keeps the old one as .bak).
+pub fn check_replace(out: &Path, force: bool) -> Result<()> {
     if let Ok(meta) = std::fs::symlink_metadata(out) {
         if meta.file_type().is_symlink() {
             bail!(
                 "{}: is a symbolic link; railcheck does not replace a link with a file; nothing \
                  was written (name its target)",
+                out.display()
+            );
+        }
+        if !meta.is_file() {
+            bail!(
+                "{}: exists and is not a file; nothing was written",
                 out.display()
             );
         }

@@ -70,33 +70,6 @@ fn is_date(text: &str) -> bool {
         })
 }
 
-/// `record -o FILE` never replaces a file unasked, and never a symbolic link.
-fn check_target(target: &Path, force: bool) -> Result<()> {
-    if let Ok(meta) = std::fs::symlink_metadata(target) {
-        if meta.file_type().is_symlink() {
-            bail!(
-                "{}: is a symbolic link; railcheck does not replace a link with a file; nothing \
-                 was written (name its target)",
-                target.display()
-            );
-        }
-        if !meta.is_file() {
-            bail!(
-                "{}: exists and is not a file; nothing was written",
-                target.display()
-            );
-        }
-        if !force {
-            bail!(
-                "{}: already exists; nothing was written (give --force to replace it, keeping \
-                 the old one as .bak)",
-                target.display()
-            );
-        }
-    }
-    Ok(())
-}
-
 /// Writes the service record of `name`'s visit of `date` (the newest when None) to `output`,
 /// or to `out` when there is none.
 pub fn run(
@@ -110,7 +83,7 @@ pub fn run(
 ) -> Result<ExitCode> {
     // Refuse an existing file before the solves, not after them.
     if let Some(target) = output {
-        check_target(target, force)?;
+        super::files::check_replace(target, force)?;
     }
     let (supply, file) = resolve(name, cli_dir, no_demo)?;
     let visit = pick_visit(&supply, date)?;
