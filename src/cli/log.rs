@@ -403,16 +403,11 @@ const READINGS: [(&str, &str); 7] = [
 
 /// The readings that get a window, in the CSV's order: the visit's own, and the lines'
 /// imbalance worked out from its three line voltages.
-const WINDOWS: [(&str, &str); 8] = [
-    ("mains_vrms", "V"),
-    ("secondary_vac", "V"),
-    ("dc_v", "V"),
-    ("ripple_pp_v", "V"),
-    ("ripple_rms_v", "V"),
-    ("ripple_hz", "Hz"),
-    ("load_a", "A"),
-    ("line_imbalance_pct", "%"),
-];
+fn windowed() -> impl Iterator<Item = (&'static str, &'static str)> {
+    READINGS
+        .into_iter()
+        .chain(std::iter::once(("line_imbalance_pct", "%")))
+}
 
 /// The CSV's header: each column named by its key, a unit in brackets where it has one.
 pub fn csv_header() -> Vec<String> {
@@ -438,7 +433,7 @@ pub fn csv_header() -> Vec<String> {
     ] {
         h.push(k.into());
     }
-    for (k, u) in WINDOWS {
+    for (k, u) in windowed() {
         h.push(format!("{k} window low ({u})"));
         h.push(format!("{k} window high ({u})"));
         h.push(format!("{k} now"));
@@ -539,7 +534,7 @@ fn csv_row(v: &Visit, j: &Judgement) -> Vec<String> {
             &[]
         }
     };
-    for (k, _) in WINDOWS {
+    for (k, _) in windowed() {
         match expectations.iter().find(|e| e.reading == k) {
             Some(e) => {
                 row.push(worked(e.min));
