@@ -55,6 +55,54 @@ pub struct FileCase {
     pub values: BTreeMap<String, f64>,
 }
 
+impl FileCase {
+    /// Each (CSV column, engine JSON key, relative tolerance) of `checks` the case has a value
+    /// for, against the engine's figures `got`; a figure the engine does not give is a failure
+    /// of the test itself (these are figures every supply has).
+    pub fn compare(
+        &self,
+        got: &serde_json::Value,
+        checks: &[(&str, &str, f64)],
+        compared: &mut Comparison,
+    ) {
+        for &(column, key, tol) in checks {
+            let Some(&w) = self.values.get(column) else {
+                continue;
+            };
+            let g = got[key]
+                .as_f64()
+                .unwrap_or_else(|| panic!("{}: {key} missing", self.name));
+            compared.figure(&self.name, column, g, w, tol);
+        }
+    }
+
+    /// As [`FileCase::compare`], for figures a supply may not have (a second capacitor's):
+    /// compared where both sides give one.
+    pub fn compare_where_given(
+        &self,
+        got: &serde_json::Value,
+        checks: &[(&str, &str, f64)],
+        compared: &mut Comparison,
+    ) {
+        for &(column, key, tol) in checks {
+            if let (Some(&w), Some(g)) = (self.values.get(column), got[key].as_f64()) {
+                compared.figure(&self.name, column, g, w, tol);
+            }
+        }
+    }
+
+    /// The ripple's frequency: the same harmonic as ngspice's, within half a hertz.
+    pub fn compare_ripple_hz(&self, got: &serde_json::Value, compared: &mut Comparison) {
+        let hz = got["ripple_hz"].as_f64().unwrap();
+        if (hz - self.values["ripple_hz"]).abs() > 0.5 {
+            compared.fail(format!(
+                "{} ripple_hz: engine {hz}, ngspice {}",
+                self.name, self.values["ripple_hz"]
+            ));
+        }
+    }
+}
+
 /// The rows of such a CSV: the case, its file and fault (text), its figures by column.
 pub fn file_cases(csv: &str) -> Vec<FileCase> {
     reference_rows(csv)
