@@ -259,6 +259,12 @@ fn inputs(supply: &crate::supply::Supply) -> Option<Inputs> {
     })
 }
 
+/// Whether the file gives the first capacitor's life rating (and has one to rate).
+pub fn is_rated(supply: &crate::supply::Supply) -> bool {
+    let f = &supply.filter;
+    f.kind.has_capacitor() && f.rated_life_h.is_some() && f.rated_life_c.is_some()
+}
+
 /// The first capacitor's life at the supply's nominal (`nominal`, its nominal solve): the
 /// ambient's nominal and the nominal ripple current; None without a life rating.
 pub fn nominal_life(
@@ -297,12 +303,19 @@ pub fn capacitor_life(
         worst_fig.ripple_hz,
         i.duty_h_per_day,
     );
+    let nominal_life = life(
+        &i.rating,
+        i.ambient_c,
+        nominal.cap_ripple_rms_a,
+        nominal.ripple_hz,
+        i.duty_h_per_day,
+    );
     let f = &supply.filter;
     let esr = f.esr();
     Some(CapacitorLife {
         end_of_life_uf: f.uf.unwrap_or(0.0) * (1.0 - END_OF_LIFE_CAP_DROP),
         end_of_life_esr_ohms: (esr > 0.0).then_some(esr * END_OF_LIFE_ESR_FACTOR),
-        nominal: nominal_life(supply, nominal)?,
+        nominal: nominal_life,
         rating: i.rating,
         duty_h_per_day: i.duty_h_per_day,
         worst: worst_life,

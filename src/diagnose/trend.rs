@@ -614,7 +614,9 @@ pub fn trend(supply: &Supply) -> Trend {
             latest: latest.map(date),
         });
         // The measured time to the limit against the temperature rule's life.
-        if let Ok(op) = circuit::solve(supply, &Conditions::default())
+        // (Solved only when the file rates the part: a trend without one needs no nominal.)
+        if crate::analysis::capacitor_life::is_rated(supply)
+            && let Ok(op) = circuit::solve(supply, &Conditions::default())
             && let Some(rule) = crate::analysis::capacitor_life::nominal_life(supply, &op.figures)
         {
             // At the measured drift, the years from the label's value to the limit: the
