@@ -24,5 +24,12 @@ fn main() -> anyhow::Result<()> {
         println!();
         print!("{}", field::report(&tally));
     }
+    let with_rms = field::with_scope_rms(&units);
+    for variant in field::Variant::BOTH {
+        let tally = field::tally(&with_rms, variant).map_err(|e| anyhow!(e))?;
+        println!();
+        println!("(with the scope's ripple RMS read as well)");
+        print!("{}", field::report(&tally));
+    }
     Ok(())
 }

@@ -816,3 +816,46 @@ fn the_report_shows_the_site_and_notes_under_the_name() {
         "Fed from DB-2, way 7.\nBench PSU \u{1b}[2J nearby, Süd wing"
     );
 }
+
+/// A scope shows the ripple's peak to peak and its RMS from one capture: `diagnose` takes
+/// both, sets each against its window and weighs both. The readings are the simulated unit
+/// ct_amp-04 of tests/reference/field_population.csv (ngspice-39: its filter capacitor at
+/// half its value), judged against its file with the winding stated.
+#[test]
+fn diagnose_takes_the_ripples_peak_to_peak_and_rms_together() {
+    let file = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/reference/field/ct_amp.toml");
+    let out = railcheck(&[
+        "diagnose",
+        file,
+        "--mains",
+        "234.339",
+        "--dc",
+        "18.7207",
+        "--ripple-pp",
+        "1.59852",
+        "--ripple-rms",
+        "0.498928",
+        "--ripple-hz",
+        "100",
+        "--json",
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let d: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let keys: Vec<&str> = d["readings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r["reading"].as_str().unwrap_or(""))
+        .collect();
+    for k in ["ripple_pp_v", "ripple_rms_v"] {
+        assert!(keys.contains(&k), "{k} in {keys:?}");
+    }
+    // Both ripples well above their windows: the filter capacitor, worn one way or the
+    // other, comes first.
+    let top = d["hypotheses"][0]["fault"].as_str().unwrap();
+    assert!(["capacitance-low", "esr-high"].contains(&top), "{top}");
+}

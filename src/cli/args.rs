@@ -111,14 +111,11 @@ pub enum Command {
         #[arg(long, value_name = "V", allow_negative_numbers = true)]
         dc: Option<f64>,
         /// Ripple peak-peak, scope AC coupled (volts).
-        #[arg(
-            long,
-            value_name = "V",
-            conflicts_with = "ripple_rms",
-            allow_negative_numbers = true
-        )]
+        #[arg(long, value_name = "V", allow_negative_numbers = true)]
         ripple_pp: Option<f64>,
-        /// Ripple RMS, true-RMS meter on AC volts across the rail.
+        /// Ripple RMS, true-RMS meter on AC volts across the rail, or the scope's RMS of the
+        /// same capture as the peak-peak (the two together tell a dried capacitor from a
+        /// high ESR better than either).
         #[arg(long, value_name = "V", allow_negative_numbers = true)]
         ripple_rms: Option<f64>,
         /// Ripple frequency (hertz).

@@ -72,6 +72,21 @@ pub struct FieldUnit {
     pub fault_param: Option<f64>,
     /// Mains, DC, ripple peak to peak and ripple frequency as read (volts, hertz).
     pub readings: Readings,
+    /// The ripple's RMS as the scope measures it on the same capture (volts), kept apart
+    /// from `readings`: see [`with_scope_rms`]. None where the CSV has no such column.
+    pub scope_rms_v: Option<f64>,
+}
+
+/// The same units with the scope's ripple RMS read as well as its peak to peak.
+pub fn with_scope_rms(units: &[FieldUnit]) -> Vec<FieldUnit> {
+    units
+        .iter()
+        .map(|u| {
+            let mut u = u.clone();
+            u.readings.ripple_rms_v = u.scope_rms_v;
+            u
+        })
+        .collect()
 }
 
 /// Parses the population's CSV: `#` comment lines, a header, one row per unit.
@@ -133,6 +148,10 @@ pub fn parse(text: &str) -> Result<Vec<FieldUnit>, String> {
                 ripple_pp_v: Some(number("ripple_pp_v")?),
                 ripple_hz: Some(number("ripple_hz")?),
                 ..Readings::default()
+            },
+            scope_rms_v: match row.get("ripple_rms_v") {
+                Some(_) => maybe("ripple_rms_v")?,
+                None => None,
             },
         });
     }

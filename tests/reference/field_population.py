@@ -35,7 +35,10 @@ CRC, the top capacitor of a doubler, the + rail of a split rail):
 The readings a technician takes, with meter error: the rail's DC (average over the last mains
 period, +-0.3 %), its ripple peak to peak (+-3 %), the ripple frequency (the stronger of the line
 frequency and twice it), and the mains RMS (+-0.5 %) in half the units, never in mains-low
-ones. The true values are stored beside the readings.
+ones. The true values are stored beside the readings. A last column, ripple_rms_v, holds the
+ripple's RMS as the scope measures it on the same capture (+-3 %, drawn after every other draw,
+so adding it left the rest of the population as it was): the tests judge the units on the
+columns before it, and `cargo run --release --example field_population` shows what it adds.
 
 Every transient runs from near the working voltage until two successive periods agree (DC drift
 below 2e-5 per period, 1e-3 for an unfiltered rail), as generate.py does, or the script stops.
@@ -176,6 +179,8 @@ def draw_unit(s, index, condition, read_mains):
     u["dc_err"] = rng.uniform(-0.003, 0.003)
     u["ripple_err"] = rng.uniform(-0.03, 0.03)
     u["mains_err"] = rng.uniform(-0.005, 0.005)
+    # Drawn last, so that adding it left every earlier draw as it was.
+    u["ripple_rms_err"] = rng.uniform(-0.03, 0.03)
     return u
 
 
@@ -300,7 +305,11 @@ def period_figures(rows, t0, t1):
     T = seg[-1][0] - seg[0][0]
     acc = sum(0.5 * (a[1] + b[1]) * (b[0] - a[0]) for a, b in zip(seg, seg[1:]))
     vals = [r[1] for r in seg]
-    return dict(dc_v=acc / T, ripple_pp_v=max(vals) - min(vals),
+    dc = acc / T
+    # The ripple's RMS about the DC, as a scope's AC RMS measurement of the same capture.
+    sq = sum(0.5 * ((a[1] - dc) ** 2 + (b[1] - dc) ** 2) * (b[0] - a[0])
+             for a, b in zip(seg, seg[1:]))
+    return dict(dc_v=dc, ripple_pp_v=max(vals) - min(vals), ripple_rms_v=math.sqrt(sq / T),
                 ripple_hz=dominant_ripple(seg, 1.0 / T))
 
 
@@ -444,6 +453,7 @@ def main():
             worst_drift = max(worst_drift, drift)
             dc = fig["dc_v"] * (1 + u["dc_err"])
             pp = fig["ripple_pp_v"] * (1 + u["ripple_err"])
+            rms = fig["ripple_rms_v"] * (1 + u["ripple_rms_err"])
             mains = u["true_mains"] * (1 + u["mains_err"]) if u["read_mains"] else None
             print(f"{u['unit']} {u['condition']}: dc {fig['dc_v']:.3f} V ripple "
                   f"{fig['ripple_pp_v']:.3f} V {fig['ripple_hz']:.0f} Hz, drift {drift:.1e} "
@@ -453,11 +463,11 @@ def main():
                          fmt(u["winding_factor"]), fmt(u["leakage_h"]), fmt(u["cap_factor"]),
                          fmt(u["cap2_factor"]), fmt(u["load_factor"]), fmt(u["is_factor"]),
                          fmt(u["true_mains"]), fmt(u["fault_param"]), fmt(mains), fmt(dc),
-                         fmt(pp), f"{round(fig['ripple_hz'])}"])
+                         fmt(pp), f"{round(fig['ripple_hz'])}", fmt(rms)])
     with open(CSV, "w") as fh:
         fh.write(f"# {version}; written by tests/reference/field_population.py; simulated real "
                  "units and the readings a technician takes\n")
-        fh.write(",".join(COLUMNS) + "\n")
+        fh.write(",".join(COLUMNS + ["ripple_rms_v"]) + "\n")
         for r in rows:
             fh.write(",".join(r) + "\n")
     print(f"{len(rows)} units in {time.monotonic() - started:.0f} s; worst drift "
