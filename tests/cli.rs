@@ -823,7 +823,10 @@ fn the_report_shows_the_site_and_notes_under_the_name() {
 /// half its value), judged against its file with the winding stated.
 #[test]
 fn diagnose_takes_the_ripples_peak_to_peak_and_rms_together() {
-    let file = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/reference/field/ct_amp.toml");
+    let file = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/reference/field/ct_amp.toml"
+    );
     let out = railcheck(&[
         "diagnose",
         file,
