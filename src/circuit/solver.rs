@@ -94,6 +94,14 @@ pub trait PeriodicCircuit {
     fn state_scale(&self, _i: usize) -> f64 {
         1.0
     }
+    /// The least value state `i` can hold, in its unit: 0 A for a current that flows only
+    /// through diodes (they block the reverse), minus infinity for a capacitor voltage or a
+    /// current free to reverse (the default). Newton's steps stop at it: a step to a negative
+    /// diode current lands on the diodes' kink, and the period that follows spends itself
+    /// letting the impossible current back up instead of moving the capacitors.
+    fn state_floor(&self, _i: usize) -> f64 {
+        f64::NEG_INFINITY
+    }
     /// The smallest voltage change that matters, volts: a small part of the expected ripple,
     /// since the charge a period moves is the ripple times the capacitance.
     fn volts_resolution(&self) -> f64;

@@ -224,6 +224,7 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
             }
             previous_g = worst_g;
             let mut x_new: Vec<f64> = x.iter().zip(&step).map(|(a, b)| a + b).collect();
+            floor_step(c, &x, &mut x_new, &mut step);
             // A long step moves the conduction pulses: let the integrator find its steps anew.
             fresh = longest > 1e-4 * scale;
             let steps = if fresh {
@@ -261,6 +262,7 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
                     step.clone_from(&g);
                 }
                 x_new = x.iter().zip(&step).map(|(a, b)| a + b).collect();
+                floor_step(c, &x, &mut x_new, &mut step);
                 g_new = sub(
                     &period_map(c, &x_new, run, Steps::Adaptive(&mut grid))?,
                     &x_new,
@@ -419,6 +421,23 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
     state.steps = run.steps;
     state.stiff = run.method == Method::Stiff;
     Ok(state)
+}
+
+/// Holds `x_new` (from `x` by `step`) at the circuit's state floors, and `step` to match, so
+/// that Broyden learns from the step taken.
+fn floor_step<Ckt: PeriodicCircuit + ?Sized>(
+    c: &Ckt,
+    x: &[f64],
+    x_new: &mut [f64],
+    step: &mut [f64],
+) {
+    for i in 0..x_new.len() {
+        let floor = c.state_floor(i);
+        if x_new[i] < floor {
+            x_new[i] = floor;
+            step[i] = floor - x[i];
+        }
+    }
 }
 
 /// Newton on the first sub-period's map replayed on `first` (the final pass's own steps over
