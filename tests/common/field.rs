@@ -197,6 +197,11 @@ pub struct Outcome {
     pub score: f64,
     /// The engine's verdict: healthy, suspect or fault (empty when refused).
     pub verdict: String,
+    /// The misfits (chi-square with the hypothesis's prior) of the top hypothesis and of the
+    /// unit's true condition: how far apart the readings put them (NaN when refused or when
+    /// the truth was not among the hypotheses).
+    pub top_misfit: f64,
+    pub truth_misfit: f64,
 }
 
 impl Outcome {
@@ -298,12 +303,29 @@ pub fn tally(units: &[FieldUnit], variant: Variant) -> Result<Tally, String> {
             supplies.insert(u.supply.clone(), load_supply(&u.supply, variant)?);
         }
         let supply = &supplies[&u.supply];
-        let (top, score, verdict) = match diagnose(supply, &u.readings) {
+        let (top, score, verdict, top_misfit, truth_misfit) = match diagnose(supply, &u.readings) {
             Ok(d) => {
                 let h = &d.hypotheses[0];
-                (h.fault.key().to_string(), h.score, d.verdict.to_string())
+                let truth = d
+                    .hypotheses
+                    .iter()
+                    .find(|t| t.fault.key() == u.condition)
+                    .map_or(f64::NAN, |t| t.misfit);
+                (
+                    h.fault.key().to_string(),
+                    h.score,
+                    d.verdict.to_string(),
+                    h.misfit,
+                    truth,
+                )
             }
-            Err(e) => (format!("refused: {e}"), 0.0, String::new()),
+            Err(e) => (
+                format!("refused: {e}"),
+                0.0,
+                String::new(),
+                f64::NAN,
+                f64::NAN,
+            ),
         };
         outcomes.push(Outcome {
             unit: u.unit.clone(),
@@ -312,6 +334,8 @@ pub fn tally(units: &[FieldUnit], variant: Variant) -> Result<Tally, String> {
             top,
             score,
             verdict,
+            top_misfit,
+            truth_misfit,
         });
     }
     Ok(Tally { variant, outcomes })
@@ -359,14 +383,14 @@ pub fn report(t: &Tally) -> String {
     let misses = t.misses();
     let _ = writeln!(
         s,
-        "misses ({}): unit, truth -> top hypothesis (score, verdict)",
+        "misses ({}): unit, truth -> top hypothesis (score, verdict; misfit of the top, of the truth)",
         misses.len()
     );
     for o in misses {
         let _ = writeln!(
             s,
-            "  {:<14} {:<20} -> {} ({:.2}, {})",
-            o.unit, o.truth, o.top, o.score, o.verdict
+            "  {:<14} {:<20} -> {} ({:.2}, {}; {:.1}, {:.1})",
+            o.unit, o.truth, o.top, o.score, o.verdict, o.top_misfit, o.truth_misfit
         );
     }
     s
