@@ -478,10 +478,22 @@ fn field(text: &str) -> String {
     }
 }
 
+/// Text a person typed, kept from being taken for a formula: a spreadsheet opening the CSV
+/// runs a cell that starts with `=`, `+`, `-`, `@`, a tab or a carriage return, so such a cell
+/// gets a leading apostrophe, which spreadsheets show as text (OWASP's advice on CSV
+/// injection, from memory). Numbers are written by [`number`] and never pass through here.
+fn typed(text: &str) -> String {
+    if text.starts_with(['=', '+', '-', '@', '\t', '\r']) {
+        format!("'{text}")
+    } else {
+        text.to_string()
+    }
+}
+
 /// One visit's row, in the order of [`csv_header`].
 fn csv_row(v: &Visit, j: &Judgement) -> Vec<String> {
     let r = &v.readings;
-    let mut row = vec![v.date_text(), v.technician.clone()];
+    let mut row = vec![v.date_text(), typed(&v.technician)];
     for (k, _) in READINGS {
         let x = r.present().into_iter().find(|(key, _)| *key == k);
         row.push(maybe(x.map(|(_, x)| x)));
@@ -490,10 +502,10 @@ fn csv_row(v: &Visit, j: &Judgement) -> Vec<String> {
         row.push(maybe(r.line_vrms.map(|l| l[i])));
     }
     row.push(maybe(r.line_imbalance_pct()));
-    row.push(v.notes.clone());
+    row.push(typed(&v.notes));
     // Parts joined as a technician lists them; "; " since a part's own text often has commas
     // ("C3 2200uF, 50V").
-    row.push(v.replaced.join("; "));
+    row.push(typed(&v.replaced.join("; ")));
     row.push(v.baseline.to_string());
     match &v.diagnosis {
         Some(d) => {
@@ -665,5 +677,22 @@ mod tests {
         assert_eq!(worked(253.00000000000003), "253");
         assert_eq!(worked(0.04999999999999999), "0.05");
         assert_eq!(worked(26.022715648321153), "26.0227");
+    }
+
+    /// Typed text that a spreadsheet would run as a formula is written as text (OWASP's CSV
+    /// injection advice, from memory); ordinary notes are left alone.
+    #[test]
+    fn typed_text_is_never_a_formula() {
+        for (typed_in, written) in [
+            ("=HYPERLINK(\"x\")", "'=HYPERLINK(\"x\")"),
+            ("+1 spare fuse", "'+1 spare fuse"),
+            ("-cap bulging", "'-cap bulging"),
+            ("@J. Okafor", "'@J. Okafor"),
+            ("\tindented", "'\tindented"),
+            ("fan noisy", "fan noisy"),
+            ("C3 = 2200uF", "C3 = 2200uF"),
+        ] {
+            assert_eq!(typed(typed_in), written);
+        }
     }
 }
