@@ -24,6 +24,9 @@ pub const FOREIGN_RIPPLE: &str =
     "ripple at another frequency than the healthy rectifier's: not the capacitor's to explain";
 /// A visit with nothing the capacitance moves.
 pub const NO_READING: &str = "no ripple or DC reading";
+/// A visit whose readings this unit cannot show (a mains of 2000 V on a 230 V unit, a DC
+/// above the winding's peak): a typo kept in the file, which the diagnosis refuses too.
+pub const IMPOSSIBLE_READING: &str = "readings this unit cannot show (a typo or a meter's range): left out, as the diagnosis refuses them";
 
 /// The projected crossing of the limit.
 #[derive(Debug, Clone, PartialEq, Serialize)]
@@ -544,7 +547,7 @@ pub fn trend(supply: &Supply) -> Trend {
                 .is_none_or(|hz| (hz - healthy_hz).abs() <= 0.1 * healthy_hz);
             (supply.filter.kind != FilterKind::None
                 && own_ripple
-                && r.check(supply.mains.hz).is_ok())
+                && r.check_against(supply).is_ok())
             .then_some(r)
         })
         .collect();
@@ -564,13 +567,15 @@ pub fn trend(supply: &Supply) -> Trend {
             .readings
             .ripple_hz
             .is_some_and(|hz| (hz - healthy_hz).abs() > 0.1 * healthy_hz);
+        let impossible = v.readings.with_line_mean().check_against(supply).is_err();
         points.push(TrendPoint {
             date: v.date_text(),
             uf: estimate.map(|e| e.uf),
-            why_none: match (estimate, foreign) {
-                (Some(_), _) => None,
-                (None, true) => Some(FOREIGN_RIPPLE),
-                (None, false) => Some(NO_READING),
+            why_none: match (estimate, foreign, impossible) {
+                (Some(_), _, _) => None,
+                (None, true, _) => Some(FOREIGN_RIPPLE),
+                (None, false, true) => Some(IMPOSSIBLE_READING),
+                (None, false, false) => Some(NO_READING),
             },
         });
     }
@@ -726,6 +731,37 @@ mod tests {
             (one / s.filter.uf.unwrap() / 0.8 - 1.0).abs() < 3e-3,
             "{one}"
         );
+    }
+
+    /// A visit kept in the file with a typo (a mains of ten times the nominal, a DC far
+    /// above the winding's peak) gives the trend no point, says why, and leaves the other
+    /// visits' points as they were: the diagnosis refuses the same readings.
+    #[test]
+    fn a_visit_the_diagnosis_refuses_gives_no_point() {
+        let s = demo::supplies()
+            .into_iter()
+            .map(|(_, text)| Supply::from_toml_str(&text).unwrap())
+            .find(|s| s.visits.len() >= 2 && s.filter.uf.is_some())
+            .expect("a demo supply with visits");
+        let before = trend(&s);
+        let mut typo = s.visits.last().unwrap().clone();
+        typo.readings.mains_vrms = Some(10.0 * s.mains.vrms);
+        typo.readings.dc_v = typo.readings.dc_v.map(|v| 10.0 * v);
+        typo.date = "2099-01-01".parse().unwrap();
+        assert!(crate::diagnose::diagnose(&s, &typo.readings).is_err());
+        let mut with_typo = s.clone();
+        with_typo.visits.push(typo);
+        let after = trend(&with_typo);
+        let last = after.points.last().unwrap();
+        assert_eq!((last.uf, last.why_none), (None, Some(IMPOSSIBLE_READING)));
+        assert_eq!(
+            before.points.iter().map(|p| p.uf).collect::<Vec<_>>(),
+            after.points[..before.points.len()]
+                .iter()
+                .map(|p| p.uf)
+                .collect::<Vec<_>>()
+        );
+        assert_eq!(before.uf_per_year, after.uf_per_year);
     }
 
     #[test]
