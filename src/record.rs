@@ -356,10 +356,7 @@ fn figures_table(h: &mut String, report: &Report) {
          <table class=\"grid\"><thead><tr><th>Figure</th><th class=\"num\">Nominal</th>\
          <th class=\"num\">Worst min</th><th class=\"num\">Worst max</th></tr></thead><tbody>",
     );
-    for (label, key, value, unit) in figure_rows(
-        &report.nominal.figures,
-        report.supply.transformer.is_absent(),
-    ) {
+    for (label, key, value, unit) in figure_rows(&report.nominal.figures, &report.supply) {
         let (lo, hi) = match Figure::from_key(key).and_then(|f| report.worst.extent(f)) {
             Some(e) => (show(Some(e.min), unit), show(Some(e.max), unit)),
             None => ("--".into(), "--".into()),

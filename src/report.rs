@@ -93,23 +93,16 @@ pub fn build_default(supply: Supply, file: &str) -> Result<Report, CircuitError>
     build(supply, file, SAFE_TOUCH_V)
 }
 
-/// Each figure's label, JSON name, value and unit, in the report's order.
-/// A supply with no transformer names its winding's figures the line's.
+/// Each figure's label, JSON name, value and unit, in the report's order, in the words of
+/// `supply` (see [`Figure::words`]).
 pub fn figure_rows(
     f: &Figures,
-    straight_off_line: bool,
+    supply: &Supply,
 ) -> Vec<(&'static str, &'static str, Option<f64>, &'static str)> {
     Figure::ALL
         .iter()
         .filter(|fig| fig.applies(f))
-        .map(|fig| {
-            (
-                fig.words(straight_off_line).0,
-                fig.key(),
-                fig.of(f),
-                fig.unit(),
-            )
-        })
+        .map(|fig| (fig.words(supply).0, fig.key(), fig.of(f), fig.unit()))
         .collect()
 }
 
@@ -339,9 +332,7 @@ impl Report {
             "  {:<22}{:>10}{:>12}{:>4}{:>12}{:>4}\n",
             "Figure", "Nominal", "Worst min", "", "Worst max", ""
         ));
-        for (label, name, value, unit) in
-            figure_rows(&self.nominal.figures, self.supply.transformer.is_absent())
-        {
+        for (label, name, value, unit) in figure_rows(&self.nominal.figures, &self.supply) {
             let figure = Figure::from_key(name).expect("a figure of the table");
             let (lo, lo_at, hi, hi_at) = match self.worst.extent(figure) {
                 Some(e) => (
@@ -373,9 +364,7 @@ impl Report {
             out.push_str(&format!(
                 "\n  Typical spread, 1st to 99th percentile ({SPREAD_SAMPLES} seeded samples, uniform in the box)\n"
             ));
-            for (label, name, _, unit) in
-                figure_rows(&self.nominal.figures, self.supply.transformer.is_absent())
-            {
+            for (label, name, _, unit) in figure_rows(&self.nominal.figures, &self.supply) {
                 if let Some((_, p)) = spread.iter().find(|(n, _)| *n == name) {
                     out.push_str(&format!(
                         "  {:<22}{:>12} to {:>10}\n",

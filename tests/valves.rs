@@ -211,6 +211,29 @@ fn silicon_in_the_valves_place_raises_b_plus_and_the_peaks() {
     assert!(r.json()["valve"].is_null());
 }
 
+/// A valve's figures are named the valve's in the report ("Valve peak"), a diode's the
+/// diode's; the JSON keys are the same for both, so scripts read either.
+#[test]
+fn a_valves_figures_are_named_the_valves() {
+    let valve = railcheck::report::build_default(high_drop("", 10.0), "t").unwrap();
+    let mut s = high_drop("", 10.0);
+    s.rectifier.diode = railcheck::supply::DiodeSpec::Preset("silicon".into());
+    let diode = railcheck::report::build_default(s, "t").unwrap();
+    for (words, other) in [
+        ("Valve peak", "Diode peak"),
+        ("Valve average", "Diode average"),
+        ("Valve RMS", "Diode RMS"),
+        ("Valve reverse peak", "Diode reverse peak"),
+    ] {
+        assert!(valve.text().contains(words) && !valve.text().contains(other));
+        assert!(diode.text().contains(other) && !diode.text().contains(words));
+    }
+    for key in ["diode_peak_a", "diode_avg_a", "diode_rms_a", "diode_piv_v"] {
+        assert!(valve.json()["nominal"][key].is_number(), "{key}");
+        assert!(diode.json()["nominal"][key].is_number(), "{key}");
+    }
+}
+
 /// A weak valve named first from ngspice's readings of a unit (tests/reference/valves.py's
 /// ci_ct_high_50: the valve drops 60 V at 125 mA) whose file says its valve should drop only
 /// 30 V there; the same readings against the true file are healthy.

@@ -110,9 +110,47 @@ impl Figure {
         }
     }
 
-    /// The report's and the screen's words for a supply with no transformer, where the
-    /// winding's figures are the line's ("Line RMS"); the same words otherwise.
-    pub fn words(self, straight_off_line: bool) -> (&'static str, &'static str) {
+    /// The report's and the screen's words for `supply`: a supply with no transformer names
+    /// the winding's figures the line's ("Line RMS"), a valve rectifier its rectifier's
+    /// figures the valve's ("Valve peak"); the table's words otherwise. The JSON keys stay.
+    pub fn words(self, supply: &crate::supply::Supply) -> (&'static str, &'static str) {
+        let valve = matches!(
+            supply.rectifier_diode(),
+            Ok(super::diode::DiodeParams::Valve { .. })
+        );
+        let valve_words = match self {
+            Figure::DiodePeakA => Some(("Valve peak", "Valve peak")),
+            Figure::DiodeAvgA => Some(("Valve average", "Valve avg.")),
+            Figure::DiodeRmsA => Some(("Valve RMS", "Valve RMS")),
+            Figure::DiodePivV => Some(("Valve reverse peak", "Valve rev.")),
+            Figure::DcV
+            | Figure::MaxV
+            | Figure::MinV
+            | Figure::RipplePpV
+            | Figure::RippleRmsV
+            | Figure::RippleHz
+            | Figure::LoadA
+            | Figure::WindingRmsA
+            | Figure::WindingPeakA
+            | Figure::WindingVa
+            | Figure::SecondaryRmsV
+            | Figure::CapRippleRmsA
+            | Figure::ConductionDeg
+            | Figure::InrushPeakA
+            | Figure::CapPeakV
+            | Figure::ChokeRmsA
+            | Figure::ChokePeakA
+            | Figure::ChokeDcDropV
+            | Figure::OutCapRippleRmsA => None,
+        };
+        match valve_words {
+            Some(words) if valve => words,
+            _ => self.line_words(supply.transformer.is_absent()),
+        }
+    }
+
+    /// The words with the winding's figures named the line's when `straight_off_line`.
+    fn line_words(self, straight_off_line: bool) -> (&'static str, &'static str) {
         if !straight_off_line {
             return (self.label(), self.short());
         }

@@ -242,7 +242,7 @@ impl Widget for &ResultsPanel<'_> {
             .into_iter()
             .filter(|f| f.applies(&solved.nominal.figures))
         {
-            let label = figure.words(open.supply.transformer.is_absent()).1;
+            let label = figure.words(&open.supply).1;
             let (name, unit) = (figure.key(), figure.unit());
             let e = solved.worst.extent(figure);
             let last = match before {
