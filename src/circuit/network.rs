@@ -665,6 +665,8 @@ impl Network {
             i_load: flow.i_load,
             i_choke: flow.i_choke,
             i_out_cap: flow.i_out_cap,
+            phase_i: [0.0; 3],
+            phase_v: [0.0; 3],
             edges: [f64::NAN; EDGES],
         }
     }
@@ -1016,6 +1018,15 @@ impl PeriodicCircuit for Network {
 
     fn line_period_s(&self) -> f64 {
         1.0 / self.line_hz
+    }
+
+    fn images(&self) -> usize {
+        // The same symmetry `period_s` and `after_period` close the period on.
+        self.symmetric_phases().map_or(1, |pulses| pulses as usize)
+    }
+
+    fn unfold(&self, p: &Probe, k: usize) -> Probe {
+        self.unfold_phases(p, k)
     }
 
     fn volts_scale(&self) -> f64 {
