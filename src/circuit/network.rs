@@ -1025,6 +1025,8 @@ impl PeriodicCircuit for Network {
         self.symmetric_phases().map_or(1, |pulses| pulses as usize)
     }
 
+    // Inlined where the final pass reads one value of an image: the rest is then not built.
+    #[inline]
     fn unfold(&self, p: &Probe, k: usize) -> Probe {
         self.unfold_phases(p, k)
     }

@@ -97,7 +97,9 @@ pub trait PeriodicCircuit {
     /// of one another, the same waveforms with the circuit's parts trading roles (6 for a
     /// balanced six-pulse bridge, 3 for a star); 1 (the default) for a circuit whose figures
     /// need the whole mains period integrated. With more than 1 the final pass integrates one
-    /// period of `period_s` only and unfolds the rest by [`PeriodicCircuit::unfold`].
+    /// period of `period_s` only and unfolds the rest by [`PeriodicCircuit::unfold`]; the
+    /// rail's values (`v_out`, `v_cap`, `i_choke`) must then be the same in every image, as
+    /// its crests are sought on the integrated period alone.
     fn images(&self) -> usize {
         1
     }

@@ -382,6 +382,7 @@ impl Network {
     /// `after_period` has it); a third on, a star's carries what the one before it did
     /// (e_a(t + T/3) = e_c(t)). Phase a's own figures follow from its new current and
     /// terminal; the rail and its currents repeat unchanged.
+    #[inline]
     pub(super) fn unfold_phases(&self, p: &Probe, k: usize) -> Probe {
         let (shift, sign) = if self.arrangement == super::Arrangement::ThreePhaseBridge {
             (k % 3, if k % 2 == 1 { -1.0 } else { 1.0 })

@@ -251,12 +251,13 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     }
     // The crests and troughs lie between the probes: each is found on the dense output near
     // the best probe, and the conduction edges between the probes that straddle them.
-    // The best probes for now; `refine` seeks the crests between them once the pass is the
-    // answer (the closing Newton iterations run many passes whose extremes nobody reads).
+    // The best probes for now; `refine` seeks the crests between them, over the images too,
+    // once the pass is the answer (the closing Newton iterations run many passes whose
+    // extremes nobody reads).
     let best = |g: fn(&Probe) -> f64| {
-        extremes.iter().fold(f64::NEG_INFINITY, |m, (_, p)| {
-            m.max(over_images(c, images, p, g))
-        })
+        extremes
+            .iter()
+            .fold(f64::NEG_INFINITY, |m, (_, p)| m.max(g(p)))
     };
     let i_peak = best(|p| p.i_diode).max(0.0);
     let v_max = best(|p| p.v_out);
@@ -349,14 +350,16 @@ pub(super) fn refine<Ckt: PeriodicCircuit + ?Sized>(
         cyclic: (images > 1).then_some(state.pass_s),
         evaluations: 0,
     };
+    // The rail's values are the same in every image (`PeriodicCircuit::images`); one diode's
+    // are another's an image on.
     let all = |g: fn(&Probe) -> f64| move |p: &Probe| over_images(c, images, p, g);
     state.i_diode_peak = dense.largest(extremes, all(|p| p.i_diode)).max(0.0);
-    state.v_out_max = dense.largest(extremes, all(|p| p.v_out));
-    state.v_out_min = -dense.largest(extremes, all(|p| -p.v_out));
-    state.v_cap_max = dense.largest(extremes, all(|p| p.v_cap));
+    state.v_out_max = dense.largest(extremes, |p| p.v_out);
+    state.v_out_min = -dense.largest(extremes, |p| -p.v_out);
+    state.v_cap_max = dense.largest(extremes, |p| p.v_cap);
     state.v_reverse_max = dense.largest(extremes, all(|p| p.v_reverse));
     if state.i_choke_peak > 0.0 {
-        state.i_choke_peak = dense.largest(extremes, all(|p| p.i_choke)).max(0.0);
+        state.i_choke_peak = dense.largest(extremes, |p| p.i_choke).max(0.0);
     }
     let level = CONDUCTION_SHARE * state.i_diode_peak;
     // Each image's share of the mains period in its own sub-period, added up.
