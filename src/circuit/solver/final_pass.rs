@@ -523,11 +523,21 @@ impl<Ckt: PeriodicCircuit + ?Sized> Dense<'_, Ckt> {
         d: D,
     ) -> f64 {
         let mut kept = 0i8;
+        // Whether the last point left the value of the end it replaced nearly as it was.
+        let mut stalled = false;
         for _ in 0..EDGE_STEPS {
             if b - a <= 1e-9 * self.period {
                 break;
             }
-            let t = ((a * fb - b * fa) / (fb - fa)).clamp(a, b);
+            // After a point that gained nothing the bracket is halved instead: across a jump
+            // (a six-pulse bridge's phase taking over at a crossing) the secant only creeps
+            // from the far end, even with the kept end's value halved, and left the edge half
+            // a step out. A smooth edge's secant gains many-fold at each point.
+            let t = if stalled {
+                0.5 * (a + b)
+            } else {
+                ((a * fb - b * fa) / (fb - fa)).clamp(a, b)
+            };
             let ft = d(&self.probe(t));
             if ft == 0.0 || !ft.is_finite() {
                 return t;
@@ -535,12 +545,14 @@ impl<Ckt: PeriodicCircuit + ?Sized> Dense<'_, Ckt> {
             // Illinois: an end kept twice running has its value halved, so the secant does
             // not creep towards the root from one side (convex pulse edges would).
             if (ft > 0.0) == (fb > 0.0) {
+                stalled = ft.abs() > 0.5 * fb.abs();
                 (b, fb) = (t, ft);
                 if kept == -1 {
                     fa *= 0.5;
                 }
                 kept = -1;
             } else {
+                stalled = ft.abs() > 0.5 * fa.abs();
                 (a, fa) = (t, ft);
                 if kept == 1 {
                     fb *= 0.5;
