@@ -294,9 +294,13 @@ impl Network {
         let theta = std::f64::consts::TAU * self.line_hz * t;
         if self.phases == 3 {
             let amplitude = self.emf_rms_v / 3f64.sqrt();
-            let ph: [f64; 3] = std::array::from_fn(|k| {
-                amplitude * self.wave.at(theta - k as f64 * std::f64::consts::TAU / 3.0)
-            });
+            // One sine and cosine for the three phases, b and c turned from a by a third of a
+            // cycle (sin(x -+ 2 pi / 3) = -sin x / 2 -+ sqrt 3 cos x / 2): three sines were a
+            // seventh of a six-pulse solve.
+            let (s, c) = theta.sin_cos();
+            let turned = 0.5 * 3f64.sqrt() * c;
+            let sines = [s, -0.5 * s - turned, -0.5 * s + turned];
+            let ph: [f64; 3] = std::array::from_fn(|k| amplitude * self.wave.of_sine(sines[k]));
             Emfs {
                 e: ph[0] - ph[1],
                 ph,
