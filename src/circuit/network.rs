@@ -200,10 +200,12 @@ pub struct Network {
     /// Stand-in for zero source resistance: a constrained circuit becomes a very fast RC.
     pub min_path_ohms: f64,
     /// Each inductive path's scale (amps per volt, [`Network::path_scale`]) and knee current
-    /// (amps, `KNEE_SHARE` of what the winding's peak drives through the path), worked out
-    /// once by [`Network::with_path_figures`] rather than at every evaluation.
+    /// (amps, `KNEE_SHARE` of what the winding's peak drives through the path), and one of its
+    /// diodes' forward voltage at that knee (volts), worked out once by
+    /// [`Network::with_path_figures`] rather than at every evaluation.
     pub path_scales: [f64; MAX_PATHS],
     pub path_knees_a: [f64; MAX_PATHS],
+    pub path_knee_drops_v: [f64; MAX_PATHS],
 }
 
 /// Node values of the network for given path currents (volts, amps).
@@ -835,6 +837,7 @@ impl Network {
             let scale = self.path_scale(p);
             self.path_scales[j] = scale;
             self.path_knees_a[j] = KNEE_SHARE * volts * scale;
+            self.path_knee_drops_v[j] = self.diode.forward_v(self.path_knees_a[j]);
         }
         self
     }

@@ -111,10 +111,15 @@ impl Network {
         }
         // The + rail at the bridge, before the choke's own voltage.
         let plus_v = top + dc_ohms * i_dc;
-        let diode_v = |j: usize| {
-            let p = &self.paths[j];
-            self.diode.forward_v(raw[j].abs().max(self.path_knees_a[j])) * p.diodes as f64
-        };
+        // Each phase's diodes' voltage at its current, once: the conducting set's rounds
+        // below ask for it again and again (a logarithm each time was a sixth of a drive
+        // bus's solve).
+        let mut diode_vs = [0.0; MAX_PATHS];
+        for (j, p) in self.paths.iter().enumerate() {
+            diode_vs[j] =
+                self.diode.forward_v(raw[j].abs().max(self.path_knees_a[j])) * p.diodes as f64;
+        }
+        let diode_v = |j: usize| diode_vs[j];
         // What drives phase j's current given the star point, less its inductance's share.
         let drive = |j: usize, leg: Leg| -> f64 {
             let p = &self.paths[j];
@@ -159,7 +164,7 @@ impl Network {
             })
         };
         let knee_drive = |j: usize, c: &Commutation| -> (f64, f64) {
-            let knee_v = self.diode.forward_v(self.path_knees_a[j]) * self.paths[j].diodes as f64;
+            let knee_v = self.path_knee_drops_v[j] * self.paths[j].diodes as f64;
             let open = source[j] + c.star_v;
             (
                 open - plus_v - dc_h * c.upper_slope - knee_v,
@@ -170,7 +175,7 @@ impl Network {
         // when nothing conducts.
         let pair = extremes(source);
         let pair_drive = {
-            let knee_v = 2.0 * self.diode.forward_v(self.path_knees_a[pair.0]);
+            let knee_v = 2.0 * self.path_knee_drops_v[pair.0];
             Some(source[pair.0] - source[pair.1] - plus_v - knee_v)
         };
         // The conducting set: start from the currents, let a blocked phase whose drive has
