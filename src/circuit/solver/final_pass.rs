@@ -34,6 +34,24 @@ fn over_images<Ckt: PeriodicCircuit + ?Sized, G: Fn(&Probe) -> f64>(
     (0..images).fold(f64::NEG_INFINITY, |m, k| m.max(of_image(c, p, k, &g)))
 }
 
+/// The circuit's integrands averaged over the images of `p`: the mean over the mains period
+/// of a figure of one part is the mean over the sub-period of its images' figures.
+fn integrands_over_images<Ckt: PeriodicCircuit + ?Sized>(
+    c: &Ckt,
+    images: usize,
+    p: &Probe,
+    first: &Probe,
+) -> [f64; QUADRATURES] {
+    let mut sum = c.integrands(p, first);
+    for k in 1..images {
+        for (acc, v) in sum.iter_mut().zip(c.integrands(&c.unfold(p, k), first)) {
+            *acc += v;
+        }
+    }
+    let weight = 1.0 / images as f64;
+    sum.map(|v| v * weight)
+}
+
 /// Integrates one mains period from the steady start (or the sub-period its images unfold
 /// from), with the running integrals appended to the state so the averages are as accurate as
 /// the integration itself.
@@ -53,53 +71,38 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     let first = c.evaluate(0.0, x, &mut scratch[..n]);
     let mut y = [0.0; WIDTH];
     y[..n].copy_from_slice(x);
-    // Over a sub-period the integrands are averaged over its images: the mean over the mains
-    // period of a figure of one part is the mean over the sub-period of its images' figures.
-    let weight = 1.0 / images as f64;
     let mut f = |t: f64, y: &Vector, dy: &mut Vector| {
         let p = c.evaluate(t, &y[..n], &mut dy[..n]);
-        if images == 1 {
-            dy[n..n + QUADRATURES].copy_from_slice(&c.integrands(&p, &first));
+        let q = if images == 1 {
+            c.integrands(&p, &first)
         } else {
-            let mut sum = c.integrands(&p, &first);
-            for k in 1..images {
-                for (acc, v) in sum.iter_mut().zip(c.integrands(&c.unfold(&p, k), &first)) {
-                    *acc += v;
-                }
-            }
-            for (d, v) in dy[n..n + QUADRATURES].iter_mut().zip(sum) {
-                *d = v * weight;
-            }
-        }
+            integrands_over_images(c, images, &p, &first)
+        };
+        dy[n..n + QUADRATURES].copy_from_slice(&q);
         p
     };
     // The even samples over the mains period. Unfolded, each is taken at its place in the
-    // integrated span (its instant less whole sub-periods) and unfolded by as many: (instant
-    // in the span, sample index, sub-periods), in the span's time order. Over the whole
-    // period they come in order and are pushed as they come.
+    // integrated span (its instant less whole sub-periods) and unfolded by as many: image k
+    // holds the run of samples `firsts[k]..firsts[k + 1]`, each run in time order, so the
+    // pass keeps one cursor a run. Over the whole period there is one run, pushed in order.
     let dt = line / SAMPLES as f64;
     let t_s: Vec<f64> = (0..SAMPLES).map(|i| i as f64 * dt).collect();
-    let mut order: Vec<(f64, usize, usize)> = Vec::new();
-    let mut probes = Vec::with_capacity(SAMPLES);
-    if images > 1 {
-        order = t_s
-            .iter()
-            .enumerate()
-            .map(|(i, &t)| {
-                let k = ((t / period).floor() as usize).min(images - 1);
-                ((t - k as f64 * period).clamp(0.0, period), i, k)
-            })
-            .collect();
-        order.sort_unstable_by(|a, b| a.0.total_cmp(&b.0));
-        probes.resize(SAMPLES, Probe::default());
-    }
-    let target = |next: usize| {
-        if images > 1 {
-            order[next]
+    let image_of = |t: f64| ((t / period).floor() as usize).min(images - 1);
+    let firsts: Vec<usize> = (0..=images)
+        .map(|k| t_s.partition_point(|&t| image_of(t) < k))
+        .collect();
+    // Sample i's instant within the span (image 0's are there already).
+    let within = |i: usize, k: usize| {
+        if k == 0 {
+            t_s[i]
         } else {
-            (next as f64 * dt, next, 0)
+            (t_s[i] - k as f64 * period).clamp(0.0, period)
         }
     };
+    let mut probes = Vec::with_capacity(SAMPLES);
+    if images > 1 {
+        probes.resize(SAMPLES, Probe::default());
+    }
     // Probes at the start and at every step end, in time order with
     // their instants: where the extremes and the conduction edges are looked for, then found
     // on the dense output between them.
@@ -184,7 +187,7 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
             }
         }
         loop {
-            let mut next = 0usize;
+            let mut heads = firsts[..images].to_vec();
             stiff = run.method == Method::Stiff;
             if images == 1 {
                 probes.clear();
@@ -210,16 +213,18 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
                     // Steps are short wherever the waveform bends (the pulses), so the even
                     // samples are drawn straight between step ends; the extremes start from
                     // the step ends and are sought between them after the pass.
-                    while next < SAMPLES && target(next).0 < t + h {
-                        let (ts, i, k) = target(next);
-                        let s = ((ts - t) / h).clamp(0.0, 1.0);
-                        let p = start.towards(end, s);
-                        if images == 1 {
-                            probes.push(p);
-                        } else {
-                            probes[i] = if k == 0 { p } else { c.unfold(&p, k) };
+                    for k in 0..images {
+                        while heads[k] < firsts[k + 1] && within(heads[k], k) < t + h {
+                            let i = heads[k];
+                            let s = ((within(i, k) - t) / h).clamp(0.0, 1.0);
+                            let p = start.towards(end, s);
+                            if images == 1 {
+                                probes.push(p);
+                            } else {
+                                probes[i] = if k == 0 { p } else { c.unfold(&p, k) };
+                            }
+                            heads[k] += 1;
                         }
-                        next += 1;
                     }
                     let mut span = Span {
                         t,
