@@ -358,6 +358,7 @@ pub fn network(supply: &Supply, cond: &Conditions) -> Result<Network, SupplyErro
         min_path_ohms,
         path_scales: [1.0; MAX_PATHS],
         path_knees_a: [0.0; MAX_PATHS],
+        path_knee_drops_v: [0.0; MAX_PATHS],
     }
     .with_path_figures())
 }

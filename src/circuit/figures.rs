@@ -2,7 +2,7 @@
 //! diodes', winding's and capacitor's currents, the conduction angle and the switch-on surge.
 
 use super::network::{Integral, LoadLaw, Network};
-use super::solver::{self, SteadyState};
+use super::solver::SteadyState;
 use crate::supply::Supply;
 use serde::Serialize;
 use std::f64::consts::PI;
@@ -156,9 +156,9 @@ pub(super) fn figures(
     // to a few hundred of its tolerances) is taken out of the crest and the trough as a
     // straight line through the period, each at the instant of its nearest sample: on a
     // ripple of a few parts in 10^4 of its rail (a drive bus behind a reactor and a choke)
-    // the drift was a tenth of the ripple.
+    // the drift was a tenth of the ripple. Samples unfolded from a sub-period drift over each
+    // sub-period afresh, so each is placed within its own.
     let drift = net.output_volts(&s.end) - net.output_volts(&s.start);
-    let period = 1.0 / net.line_hz;
     let when = |better: fn(f64, f64) -> bool| {
         s.probes
             .iter()
@@ -167,7 +167,7 @@ pub(super) fn figures(
                 Some((v, _)) if !better(p.v_out, v) => best,
                 _ => Some((p.v_out, *t)),
             })
-            .map_or(0.0, |(_, t)| t / period)
+            .map_or(0.0, |(_, t)| into_pass(t, s.pass_s))
     };
     let max_v = s.v_out_max - drift * when(|a, b| a > b);
     let min_v = s.v_out_min - drift * when(|a, b| a < b);
@@ -177,7 +177,7 @@ pub(super) fn figures(
         min_v,
         ripple_pp_v: (max_v - min_v).max(0.0),
         ripple_rms_v: ripple_rms,
-        ripple_hz: ripple_frequency(net.line_hz, &s.probes, drift),
+        ripple_hz: ripple_frequency(net.line_hz, s, drift),
         load_a: mean(Integral::Load),
         diode_peak_a: s.i_diode_peak,
         diode_avg_a: mean(Integral::Diode),
@@ -207,19 +207,26 @@ pub(super) fn figures(
 }
 
 /// The strongest of the rail's components at the multiples of the line frequency a rectifier
-/// shows (hertz). `drift_v` is how far the rail's capacitors ended the period from where they
-/// began (volts): taken out as a straight line, since a ripple filtered down to microvolts
-/// (a six-pulse rail behind an RC stage) can be smaller than what a slow stage still drifts
-/// within the solver's tolerance, and a drift reads as a line-frequency component.
-fn ripple_frequency(line_hz: f64, probes: &[solver::Probe], drift_v: f64) -> f64 {
-    let n = probes.len() as f64;
+/// shows (hertz). `drift_v` is how far the rail's capacitors ended the pass from where they
+/// began (volts): taken out as a straight line through each pass's span, since a ripple
+/// filtered down to microvolts (a six-pulse rail behind an RC stage) can be smaller than what
+/// a slow stage still drifts within the solver's tolerance, and a drift reads as a
+/// line-frequency component.
+fn ripple_frequency(line_hz: f64, steady: &SteadyState, drift_v: f64) -> f64 {
+    // The rail's samples less the drift, once for the four bins.
+    let rail: Vec<f64> = steady
+        .probes
+        .iter()
+        .zip(&steady.t_s)
+        .map(|(p, t)| p.v_out - drift_v * into_pass(*t, steady.pass_s))
+        .collect();
+    let n = rail.len() as f64;
     // One DFT bin, the phasor turned by a fixed rotation each sample instead of a sine call.
     let amplitude = |k: f64| {
         let (step_sin, step_cos) = (2.0 * PI * k / n).sin_cos();
         let (mut c, mut s) = (1.0f64, 0.0f64);
         let (mut re, mut im) = (0.0, 0.0);
-        for (i, p) in probes.iter().enumerate() {
-            let v = p.v_out - drift_v * i as f64 / n;
+        for &v in &rail {
             re += v * c;
             im += v * s;
             (c, s) = (c * step_cos - s * step_sin, s * step_cos + c * step_sin);
@@ -236,6 +243,12 @@ fn ripple_frequency(line_hz: f64, probes: &[solver::Probe], drift_v: f64) -> f64
         }
     }
     best.0 * line_hz
+}
+
+/// How far through the final pass's span (0 to 1) the sample at `t_s` seconds was taken:
+/// the pass covers the mains period, or a sub-period the samples were unfolded from.
+fn into_pass(t_s: f64, pass_s: f64) -> f64 {
+    (t_s / pass_s).fract()
 }
 
 /// The multiples of the line frequency a rectifier's ripple can have (see

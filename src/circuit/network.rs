@@ -200,10 +200,12 @@ pub struct Network {
     /// Stand-in for zero source resistance: a constrained circuit becomes a very fast RC.
     pub min_path_ohms: f64,
     /// Each inductive path's scale (amps per volt, [`Network::path_scale`]) and knee current
-    /// (amps, `KNEE_SHARE` of what the winding's peak drives through the path), worked out
-    /// once by [`Network::with_path_figures`] rather than at every evaluation.
+    /// (amps, `KNEE_SHARE` of what the winding's peak drives through the path), and one of its
+    /// diodes' forward voltage at that knee (volts), worked out once by
+    /// [`Network::with_path_figures`] rather than at every evaluation.
     pub path_scales: [f64; MAX_PATHS],
     pub path_knees_a: [f64; MAX_PATHS],
+    pub path_knee_drops_v: [f64; MAX_PATHS],
 }
 
 /// Node values of the network for given path currents (volts, amps).
@@ -294,9 +296,13 @@ impl Network {
         let theta = std::f64::consts::TAU * self.line_hz * t;
         if self.phases == 3 {
             let amplitude = self.emf_rms_v / 3f64.sqrt();
-            let ph: [f64; 3] = std::array::from_fn(|k| {
-                amplitude * self.wave.at(theta - k as f64 * std::f64::consts::TAU / 3.0)
-            });
+            // One sine and cosine for the three phases, b and c turned from a by a third of a
+            // cycle (sin(x -+ 2 pi / 3) = -sin x / 2 -+ sqrt 3 cos x / 2): three sines were a
+            // seventh of a six-pulse solve.
+            let (s, c) = theta.sin_cos();
+            let turned = 0.5 * 3f64.sqrt() * c;
+            let sines = [s, -0.5 * s - turned, -0.5 * s + turned];
+            let ph: [f64; 3] = std::array::from_fn(|k| amplitude * self.wave.of_sine(sines[k]));
             Emfs {
                 e: ph[0] - ph[1],
                 ph,
@@ -747,6 +753,8 @@ impl Network {
             i_load: flow.i_load,
             i_choke: flow.i_choke,
             i_out_cap: flow.i_out_cap,
+            phase_i: [0.0; 3],
+            phase_v: [0.0; 3],
             edges: [f64::NAN; EDGES],
         }
     }
@@ -911,6 +919,7 @@ impl Network {
             let scale = self.path_scale(p);
             self.path_scales[j] = scale;
             self.path_knees_a[j] = KNEE_SHARE * volts * scale;
+            self.path_knee_drops_v[j] = self.diode.forward_v(self.path_knees_a[j]);
         }
         self
     }
@@ -1109,6 +1118,17 @@ impl PeriodicCircuit for Network {
 
     fn line_period_s(&self) -> f64 {
         1.0 / self.line_hz
+    }
+
+    fn images(&self) -> usize {
+        // The same symmetry `period_s` and `after_period` close the period on.
+        self.symmetric_phases().map_or(1, |pulses| pulses as usize)
+    }
+
+    // Inlined where the final pass reads one value of an image: the rest is then not built.
+    #[inline]
+    fn unfold(&self, p: &Probe, k: usize) -> Probe {
+        self.unfold_phases(p, k)
     }
 
     fn volts_scale(&self) -> f64 {

@@ -46,6 +46,12 @@ pub struct Probe {
     pub i_choke: f64,
     /// Current into the output capacitor (a CRC's or CLC's second; the first otherwise).
     pub i_out_cap: f64,
+    /// Each phase's current into the rectifier (amps) and its terminal's voltage (volts, from
+    /// a reference of the circuit's choosing), on three phases; zero otherwise. The solver
+    /// never reads them: they let the circuit's [`PeriodicCircuit::unfold`] tell what phase
+    /// a's figures are a sub-period on, when another phase has taken its place.
+    pub phase_i: [f64; 3],
+    pub phase_v: [f64; 3],
     /// By how much each charging path's drive exceeds its diodes' conduction threshold, volts,
     /// where the diode law has a corner there (a fixed drop), and the rail's height above a
     /// current load's knee; NaN where the law is smooth.
@@ -68,6 +74,8 @@ impl Probe {
             i_load: mix(self.i_load, other.i_load),
             i_choke: mix(self.i_choke, other.i_choke),
             i_out_cap: mix(self.i_out_cap, other.i_out_cap),
+            phase_i: std::array::from_fn(|k| mix(self.phase_i[k], other.phase_i[k])),
+            phase_v: std::array::from_fn(|k| mix(self.phase_v[k], other.phase_v[k])),
             edges: self.edges,
         }
     }
@@ -85,6 +93,26 @@ pub trait PeriodicCircuit {
     fn after_period(&self, _x: &mut [f64]) {}
     /// The mains period in seconds, over which the figures are taken.
     fn line_period_s(&self) -> f64;
+    /// How many periods of [`PeriodicCircuit::period_s`] make up the mains period as images
+    /// of one another, the same waveforms with the circuit's parts trading roles (6 for a
+    /// balanced six-pulse bridge, 3 for a star); 1 (the default) for a circuit whose figures
+    /// need the whole mains period integrated. With more than 1 the final pass integrates one
+    /// period of `period_s` only and unfolds the rest by [`PeriodicCircuit::unfold`]; the
+    /// rail's values (`v_out`, `v_cap`, `i_choke`) must then be the same in every image, as
+    /// its crests are sought on the integrated period alone.
+    fn images(&self) -> usize {
+        1
+    }
+    /// The probe `k` periods of [`PeriodicCircuit::period_s`] after the instant at which `p`
+    /// was taken (0 < k < [`PeriodicCircuit::images`]), in the same units: what the circuit's
+    /// symmetry makes of it without another evaluation. The even samples are drawn straight
+    /// between step ends before they are unfolded, so a probe drawn between two others should
+    /// unfold to the probe drawn between their images (it does where its values follow `p`'s
+    /// linearly); and the images must close on themselves (k = `images` would give `p`
+    /// back), for the crests are sought across the sub-period's ends.
+    fn unfold(&self, p: &Probe, _k: usize) -> Probe {
+        *p
+    }
     /// Volts that set the scale of the tolerances (the winding's peak).
     fn volts_scale(&self) -> f64;
     /// The size of state `i` against a capacitor voltage, in its unit per volt: its error
@@ -153,8 +181,15 @@ pub enum SolveError {
 pub struct SteadyState {
     /// Capacitor voltages at the start of the period.
     pub start: Vec<f64>,
-    /// The same at its end: equal to `start` within the solver's tolerance.
+    /// The same at the end of the span the final pass integrated (`pass_s`), mapped by
+    /// [`PeriodicCircuit::after_period`] where that span is a sub-period: equal to `start`
+    /// within the solver's tolerance.
     pub end: Vec<f64>,
+    /// The span the final pass integrated, seconds: the mains period, or one period of
+    /// [`PeriodicCircuit::period_s`] whose images ([`PeriodicCircuit::unfold`]) gave the
+    /// rest of the samples and the figures. The rail repeats over it, and whatever the
+    /// states drift within the solver's tolerance, they drift over each such span afresh.
+    pub pass_s: f64,
     /// Sample instants in seconds from the mains zero crossing.
     pub t_s: Vec<f64>,
     pub probes: Vec<Probe>,

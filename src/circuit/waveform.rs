@@ -55,7 +55,14 @@ impl MainsWave {
     /// Instantaneous value in volts per RMS volt at `phase` radians.
     #[inline]
     pub fn at(&self, phase: f64) -> f64 {
-        self.gain * phase.sin().clamp(-self.clip, self.clip)
+        self.of_sine(phase.sin())
+    }
+
+    /// The same at a phase whose sine is `sine` (for phases found from another's sine and
+    /// cosine rather than each by its own sine).
+    #[inline]
+    pub fn of_sine(&self, sine: f64) -> f64 {
+        self.gain * sine.clamp(-self.clip, self.clip)
     }
 
     /// Peak value in volts per RMS volt.

@@ -49,6 +49,19 @@ impl Network {
             && self.arrangement == super::Arrangement::ThreePhaseBridge
     }
 
+    /// Whether a six-pulse bridge whose phases carry their own currents has a DC link choke
+    /// that rings with the bus capacitor slower than the mains (omega^2 L C > 1 at the line's
+    /// angular frequency, the choke at zero current): a ring the period map forgets slowly,
+    /// which Newton settles only in many steps over much of a tolerance box.
+    pub fn dc_link_rings_below_line(&self) -> bool {
+        let omega = std::f64::consts::TAU * self.line_hz;
+        self.is_coupled_bridge()
+            && match (self.paths[0].choke, self.reservoirs.first()) {
+                (Some(choke), Some(r)) => omega * omega * choke.at(0.0) * r.farads > 1.0,
+                _ => false,
+            }
+    }
+
     /// The inductive six-pulse bridge at one instant (see the module's notes): fills the
     /// derivatives of the capacitors and the phase currents.
     pub(super) fn run_coupled_bridge(
@@ -98,10 +111,15 @@ impl Network {
         }
         // The + rail at the bridge, before the choke's own voltage.
         let plus_v = top + dc_ohms * i_dc;
-        let diode_v = |j: usize| {
-            let p = &self.paths[j];
-            self.diode.forward_v(raw[j].abs().max(self.path_knees_a[j])) * p.diodes as f64
-        };
+        // Each phase's diodes' voltage at its current, once: the conducting set's rounds
+        // below ask for it again and again (a logarithm each time was a sixth of a drive
+        // bus's solve).
+        let mut diode_vs = [0.0; MAX_PATHS];
+        for (j, p) in self.paths.iter().enumerate() {
+            diode_vs[j] =
+                self.diode.forward_v(raw[j].abs().max(self.path_knees_a[j])) * p.diodes as f64;
+        }
+        let diode_v = |j: usize| diode_vs[j];
         // What drives phase j's current given the star point, less its inductance's share.
         let drive = |j: usize, leg: Leg| -> f64 {
             let p = &self.paths[j];
@@ -146,7 +164,7 @@ impl Network {
             })
         };
         let knee_drive = |j: usize, c: &Commutation| -> (f64, f64) {
-            let knee_v = self.diode.forward_v(self.path_knees_a[j]) * self.paths[j].diodes as f64;
+            let knee_v = self.path_knee_drops_v[j] * self.paths[j].diodes as f64;
             let open = source[j] + c.star_v;
             (
                 open - plus_v - dc_h * c.upper_slope - knee_v,
@@ -157,7 +175,7 @@ impl Network {
         // when nothing conducts.
         let pair = extremes(source);
         let pair_drive = {
-            let knee_v = 2.0 * self.diode.forward_v(self.path_knees_a[pair.0]);
+            let knee_v = 2.0 * self.path_knee_drops_v[pair.0];
             Some(source[pair.0] - source[pair.1] - plus_v - knee_v)
         };
         // The conducting set: start from the currents, let a blocked phase whose drive has
@@ -249,6 +267,17 @@ impl Network {
             star_v + source[j] - p.ohms * raw[j] - p.leakage_h * slopes[j]
         };
         let bridge_plus = plus_v + dc_h * choke_slope;
+        // Each phase's current and terminal, this from the middle of the bridge's DC side
+        // (half its + against its -): a sixth of a cycle on, the phases' roles move on by
+        // one, and with every voltage reversed the + and - rails trade places about it.
+        let mut phase_i = [0.0; 3];
+        let mut phase_v = [0.0; 3];
+        for (j, p) in self.paths.iter().enumerate() {
+            if let Polarity::Phase(ph) = p.polarity {
+                phase_i[ph] = raw[j];
+                phase_v[ph] = terminal(j) - 0.5 * bridge_plus;
+            }
+        }
         let i_cap = i_dc - nodes.i_out;
         let i_out_cap = if self.second.is_some() {
             nodes.i_out - nodes.i_load
@@ -271,6 +300,8 @@ impl Network {
                 i_dc
             },
             i_out_cap,
+            phase_i,
+            phase_v,
             edges,
         }
     }
@@ -313,19 +344,24 @@ impl Network {
         }
         let share = self.paths[0].emf_share;
         let terminal = |k: usize| share * src.ph[k] - ohms[k] * i_phase[k];
-        let plus = match self.arrangement {
+        // The + rail and the middle of the DC side (a bridge's, between its + and its -; a
+        // star's return), against the star point: the phases' terminals are given from that
+        // middle, about which a bridge's rails trade places a sixth of a cycle on.
+        let (plus, middle) = match self.arrangement {
             super::Arrangement::ThreePhaseBridge => {
                 if i_phase[hi] > 0.0 {
-                    terminal(hi) - conducting_diodes
+                    let plus = terminal(hi) - conducting_diodes;
+                    (plus, 0.5 * (plus + terminal(lo) + conducting_diodes))
                 } else {
-                    0.5 * (share * (src.ph[hi] + src.ph[lo]) + flow.cathode)
+                    let middle = 0.5 * share * (src.ph[hi] + src.ph[lo]);
+                    (middle + 0.5 * flow.cathode, middle)
                 }
             }
             super::Arrangement::ThreePhaseStar
             | super::Arrangement::Direct
             | super::Arrangement::Bridge
             | super::Arrangement::CenterTap
-            | super::Arrangement::SplitRail => flow.cathode,
+            | super::Arrangement::SplitRail => (flow.cathode, 0.0),
         };
         Probe {
             v_out: flow.v_out,
@@ -339,7 +375,38 @@ impl Network {
             i_load: flow.i_load,
             i_choke: flow.i_choke,
             i_out_cap: flow.i_out_cap,
+            phase_i: i_phase,
+            phase_v: std::array::from_fn(|k| terminal(k) - middle),
             edges: [f64::NAN; EDGES],
+        }
+    }
+
+    /// A probe of a balanced three-phase rectifier `k` sub-periods on (see
+    /// [`PeriodicCircuit::unfold`](super::PeriodicCircuit::unfold)): a sixth of a cycle on, a
+    /// bridge's phase carries what the next carried, reversed (e_a(t + T/6) = -e_b(t), as
+    /// `after_period` has it); a third on, a star's carries what the one before it did
+    /// (e_a(t + T/3) = e_c(t)). Phase a's own figures follow from its new current and
+    /// terminal; the rail and its currents repeat unchanged.
+    #[inline]
+    pub(super) fn unfold_phases(&self, p: &Probe, k: usize) -> Probe {
+        let (shift, sign) = if self.arrangement == super::Arrangement::ThreePhaseBridge {
+            (k % 3, if k % 2 == 1 { -1.0 } else { 1.0 })
+        } else {
+            ((2 * k) % 3, 1.0)
+        };
+        let turn =
+            |q: &[f64; 3]| -> [f64; 3] { std::array::from_fn(|j| sign * q[(j + shift) % 3]) };
+        let (i, v) = (turn(&p.phase_i), turn(&p.phase_v));
+        Probe {
+            i_diode: i[0].max(0.0),
+            i_winding: i[0],
+            v_secondary: v[0] - v[1],
+            // The + rail stands as far above the middle as it did: phase a's upper diode
+            // blocks that less its terminal.
+            v_reverse: p.v_reverse + p.phase_v[0] - v[0],
+            phase_i: i,
+            phase_v: v,
+            ..*p
         }
     }
 }
@@ -357,4 +424,80 @@ pub(super) fn extremes(v: &[f64]) -> (usize, usize) {
         }
     }
     (hi, lo)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::super::PeriodicCircuit;
+    use crate::circuit::{Conditions, network, solve};
+    use crate::supply::Supply;
+
+    /// A sub-period's probe unfolded by `k` is the probe the circuit gives `k` sub-periods
+    /// later from the state the phase sequence makes of it: a balanced set of phases shifted
+    /// by a sixth of a cycle is the set reversed and moved on by one (e_a(t + T/6) =
+    /// -e_b(t) for the sequence a, b, c, a third of a cycle apart), by a third moved on by one.
+    /// Checked at instants off the phases' crossings, from the solved start of each kind of
+    /// three-phase network: a bridge with and without its phases' own currents, and a star.
+    #[test]
+    fn an_unfolded_probe_is_the_probe_a_sub_period_later() {
+        let cases = [
+            include_str!("../../../tests/reference/three_phase/vfd_400_bus.toml"),
+            include_str!("../../../tests/reference/three_phase/vfd_400_bus_reactor.toml"),
+            include_str!("../../../tests/reference/three_phase/vfd_400_dc_choke.toml"),
+            include_str!("../../../tests/reference/three_phase/star_400_to_50.toml"),
+            include_str!("../../../tests/reference/three_phase/star_480_60_leak.toml"),
+        ];
+        for text in cases {
+            let supply = Supply::from_toml_str(text).unwrap();
+            let net = network(&supply, &Conditions::default()).unwrap();
+            let images = net.images();
+            assert!(
+                images == 6 || images == 3,
+                "{}: {images} images",
+                supply.name
+            );
+            let span = net.period_s();
+            assert!((span * images as f64 - net.line_period_s()).abs() < 1e-12);
+            let x = solve(&supply, &Conditions::default()).unwrap().steady.start;
+            let n = x.len();
+            let mut dx = vec![0.0; n];
+            for share in [0.1, 0.37, 0.8] {
+                let s = share * span;
+                let here = net.evaluate(s, &x, &mut dx);
+                for k in 1..images {
+                    // The state k sub-periods on: `after_period` maps a sub-period's end onto
+                    // its start, so it is applied the images' remaining times.
+                    let mut y = x.clone();
+                    for _ in 0..images - k {
+                        net.after_period(&mut y);
+                    }
+                    let later = net.evaluate(s + k as f64 * span, &y, &mut dx);
+                    let unfolded = net.unfold(&here, k);
+                    let scale = net.volts_scale();
+                    let amps = here.phase_i.iter().fold(1.0f64, |m, i| m.max(i.abs()));
+                    let pairs = [
+                        ("v_out", unfolded.v_out, later.v_out, scale),
+                        ("v_source", unfolded.v_source, later.v_source, scale),
+                        (
+                            "v_secondary",
+                            unfolded.v_secondary,
+                            later.v_secondary,
+                            scale,
+                        ),
+                        ("v_reverse", unfolded.v_reverse, later.v_reverse, scale),
+                        ("i_diode", unfolded.i_diode, later.i_diode, amps),
+                        ("i_winding", unfolded.i_winding, later.i_winding, amps),
+                        ("i_cap", unfolded.i_cap, later.i_cap, amps),
+                    ];
+                    for (what, got, want, size) in pairs {
+                        assert!(
+                            (got - want).abs() <= 1e-9 * size,
+                            "{} at {share} of the sub-period, {k} on: {what} {got}, {want}",
+                            supply.name
+                        );
+                    }
+                }
+            }
+        }
+    }
 }

@@ -1,5 +1,7 @@
 //! The final pass: one mains period from the steady start, with the running integrals of the
-//! figures appended to the state, the even samples for the sketch, and the extremes.
+//! figures appended to the state, the even samples for the sketch, and the extremes. A circuit
+//! whose mains period is made of images of one sub-period ([`PeriodicCircuit::images`]) is
+//! integrated over that sub-period only, the rest unfolded from it.
 
 // Runge-Kutta stages read best with their indices written out.
 #![allow(clippy::needless_range_loop)]
@@ -11,8 +13,48 @@ use super::{
     WIDTH,
 };
 
-/// Integrates one mains period from the steady start, with the running integrals appended to
-/// the state so the averages are as accurate as the integration itself.
+/// What `g` reads of the probe `k` sub-periods after `p`'s instant (of `p` itself for k = 0,
+/// without a copy: the extremes are read five times over every step end).
+fn of_image<Ckt: PeriodicCircuit + ?Sized, G: Fn(&Probe) -> f64>(
+    c: &Ckt,
+    p: &Probe,
+    k: usize,
+    g: G,
+) -> f64 {
+    if k == 0 { g(p) } else { g(&c.unfold(p, k)) }
+}
+
+/// The largest value `g` takes over the images of `p`.
+fn over_images<Ckt: PeriodicCircuit + ?Sized, G: Fn(&Probe) -> f64>(
+    c: &Ckt,
+    images: usize,
+    p: &Probe,
+    g: G,
+) -> f64 {
+    (0..images).fold(f64::NEG_INFINITY, |m, k| m.max(of_image(c, p, k, &g)))
+}
+
+/// The circuit's integrands averaged over the images of `p`: the mean over the mains period
+/// of a figure of one part is the mean over the sub-period of its images' figures.
+fn integrands_over_images<Ckt: PeriodicCircuit + ?Sized>(
+    c: &Ckt,
+    images: usize,
+    p: &Probe,
+    first: &Probe,
+) -> [f64; QUADRATURES] {
+    let mut sum = c.integrands(p, first);
+    for k in 1..images {
+        for (acc, v) in sum.iter_mut().zip(c.integrands(&c.unfold(p, k), first)) {
+            *acc += v;
+        }
+    }
+    let weight = 1.0 / images as f64;
+    sum.map(|v| v * weight)
+}
+
+/// Integrates one mains period from the steady start (or the sub-period its images unfold
+/// from), with the running integrals appended to the state so the averages are as accurate as
+/// the integration itself.
 pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     c: &Ckt,
     x: &[f64],
@@ -20,18 +62,47 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     mut steps: Steps<'_>,
 ) -> Result<(SteadyState, Trace), SolveError> {
     let n = c.states();
-    let period = c.line_period_s();
+    let line = c.line_period_s();
+    // A circuit without states is sampled over the whole period below, which costs no more.
+    let images = if n > 0 { c.images().max(1) } else { 1 };
+    // The span integrated: the mains period, or the sub-period the rest unfolds from.
+    let period = if images > 1 { c.period_s() } else { line };
     let mut scratch = [0.0; MAX_STATES];
     let first = c.evaluate(0.0, x, &mut scratch[..n]);
     let mut y = [0.0; WIDTH];
     y[..n].copy_from_slice(x);
     let mut f = |t: f64, y: &Vector, dy: &mut Vector| {
         let p = c.evaluate(t, &y[..n], &mut dy[..n]);
-        dy[n..n + QUADRATURES].copy_from_slice(&c.integrands(&p, &first));
+        let q = if images == 1 {
+            c.integrands(&p, &first)
+        } else {
+            integrands_over_images(c, images, &p, &first)
+        };
+        dy[n..n + QUADRATURES].copy_from_slice(&q);
         p
     };
-    let mut t_s = Vec::with_capacity(SAMPLES);
+    // The even samples over the mains period. Unfolded, each is taken at its place in the
+    // integrated span (its instant less whole sub-periods) and unfolded by as many: image k
+    // holds the run of samples `firsts[k]..firsts[k + 1]`, each run in time order, so the
+    // pass keeps one cursor a run. Over the whole period there is one run, pushed in order.
+    let dt = line / SAMPLES as f64;
+    let t_s: Vec<f64> = (0..SAMPLES).map(|i| i as f64 * dt).collect();
+    let image_of = |t: f64| ((t / period).floor() as usize).min(images - 1);
+    let firsts: Vec<usize> = (0..=images)
+        .map(|k| t_s.partition_point(|&t| image_of(t) < k))
+        .collect();
+    // Sample i's instant within the span (image 0's are there already).
+    let within = |i: usize, k: usize| {
+        if k == 0 {
+            t_s[i]
+        } else {
+            (t_s[i] - k as f64 * period).clamp(0.0, period)
+        }
+    };
     let mut probes = Vec::with_capacity(SAMPLES);
+    if images > 1 {
+        probes.resize(SAMPLES, Probe::default());
+    }
     // Probes at the start and at every step end, in time order with
     // their instants: where the extremes and the conduction edges are looked for, then found
     // on the dense output between them.
@@ -42,7 +113,6 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     let mut spans: Vec<Span> = Vec::with_capacity(if n > 0 { SAMPLES } else { 0 });
     let mut stiff = false;
     let mut end = Vec::new();
-    let dt = period / SAMPLES as f64;
     if n == 0 {
         // Nothing to integrate but the averages: Simpson's rule on a fine fixed grid.
         // Simpson's rule with every sample instant a node.
@@ -53,7 +123,6 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
             let p = c.evaluate(t, &[], &mut []);
             extremes.push((t, p));
             if i < fine {
-                t_s.push(t);
                 probes.push(p);
             }
         }
@@ -118,10 +187,11 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
             }
         }
         loop {
-            let mut next = 0usize;
+            let mut heads = firsts[..images].to_vec();
             stiff = run.method == Method::Stiff;
-            t_s.clear();
-            probes.clear();
+            if images == 1 {
+                probes.clear();
+            }
             extremes.clear();
             extremes.push((0.0, first));
             spans.clear();
@@ -143,12 +213,18 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
                     // Steps are short wherever the waveform bends (the pulses), so the even
                     // samples are drawn straight between step ends; the extremes start from
                     // the step ends and are sought between them after the pass.
-                    while next < SAMPLES && (next as f64) * dt < t + h {
-                        let ts = next as f64 * dt;
-                        let s = ((ts - t) / h).clamp(0.0, 1.0);
-                        t_s.push(ts);
-                        probes.push(start.towards(end, s));
-                        next += 1;
+                    for k in 0..images {
+                        while heads[k] < firsts[k + 1] && within(heads[k], k) < t + h {
+                            let i = heads[k];
+                            let s = ((within(i, k) - t) / h).clamp(0.0, 1.0);
+                            let p = start.towards(end, s);
+                            if images == 1 {
+                                probes.push(p);
+                            } else {
+                                probes[i] = if k == 0 { p } else { c.unfold(&p, k) };
+                            }
+                            heads[k] += 1;
+                        }
                     }
                     let mut span = Span {
                         t,
@@ -172,13 +248,17 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
             }
         }
         end = y[..n].to_vec();
+        if images > 1 {
+            c.after_period(&mut end);
+        }
         let q: Vec<f64> = y[n..n + QUADRATURES].to_vec();
         y[..QUADRATURES].copy_from_slice(&q);
     }
     // The crests and troughs lie between the probes: each is found on the dense output near
     // the best probe, and the conduction edges between the probes that straddle them.
-    // The best probes for now; `refine` seeks the crests between them once the pass is the
-    // answer (the closing Newton iterations run many passes whose extremes nobody reads).
+    // The best probes for now; `refine` seeks the crests between them, over the images too,
+    // once the pass is the answer (the closing Newton iterations run many passes whose
+    // extremes nobody reads).
     let best = |g: fn(&Probe) -> f64| {
         extremes
             .iter()
@@ -197,6 +277,7 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
     let state = SteadyState {
         start: x.to_vec(),
         end,
+        pass_s: period,
         t_s,
         probes,
         v_out_max: v_max,
@@ -225,6 +306,7 @@ pub(super) fn final_pass<Ckt: PeriodicCircuit + ?Sized>(
                 extremes,
                 spans,
                 stiff,
+                images,
             },
         ))
     } else {
@@ -248,6 +330,8 @@ pub(super) struct Trace {
     extremes: Vec<(f64, Probe)>,
     spans: Vec<Span>,
     stiff: bool,
+    /// How many images of the integrated span make up the mains period (1: it is the period).
+    images: usize,
 }
 
 /// Seeks the crests (diode current, rail max and min, capacitor, reverse voltage) and the
@@ -260,24 +344,35 @@ pub(super) fn refine<Ckt: PeriodicCircuit + ?Sized>(
     run: &mut Run,
 ) {
     let extremes = &trace.extremes;
+    let images = trace.images;
     let mut dense = Dense {
         c,
         spans: &trace.spans,
         stiff: trace.stiff,
         period: c.line_period_s(),
+        // The largest over the images is the same function a sub-period on: a crest at the
+        // span's ends (a six-pulse bridge's pulses straddle them) is sought across the seam.
+        cyclic: (images > 1).then_some(state.pass_s),
         evaluations: 0,
     };
-    state.i_diode_peak = dense.largest(extremes, |p| p.i_diode).max(0.0);
+    // The rail's values are the same in every image (`PeriodicCircuit::images`); one diode's
+    // are another's an image on.
+    let all = |g: fn(&Probe) -> f64| move |p: &Probe| over_images(c, images, p, g);
+    state.i_diode_peak = dense.largest(extremes, all(|p| p.i_diode)).max(0.0);
     state.v_out_max = dense.largest(extremes, |p| p.v_out);
     state.v_out_min = -dense.largest(extremes, |p| -p.v_out);
     state.v_cap_max = dense.largest(extremes, |p| p.v_cap);
-    state.v_reverse_max = dense.largest(extremes, |p| p.v_reverse);
+    state.v_reverse_max = dense.largest(extremes, all(|p| p.v_reverse));
     if state.i_choke_peak > 0.0 {
         state.i_choke_peak = dense.largest(extremes, |p| p.i_choke).max(0.0);
     }
     let level = CONDUCTION_SHARE * state.i_diode_peak;
+    // Each image's share of the mains period in its own sub-period, added up.
     state.conduction_fraction = if state.i_diode_peak > 0.0 {
-        dense.share_above(extremes, level, |p| p.i_diode)
+        (0..images)
+            .map(|k| dense.share_above(extremes, level, |p| of_image(c, p, k, |q| q.i_diode)))
+            .sum::<f64>()
+            .clamp(0.0, 1.0)
     } else {
         0.0
     };
@@ -305,6 +400,9 @@ struct Dense<'a, Ckt: ?Sized> {
     /// Hermite through each step's end values and slopes (third order).
     stiff: bool,
     period: f64,
+    /// The span the steps cover when the functions sought repeat over it (a sub-period's
+    /// images), so that a crest at its ends is sought across them; None for the mains period.
+    cyclic: Option<f64>,
     /// Circuit evaluations spent.
     evaluations: usize,
 }
@@ -314,6 +412,7 @@ impl<Ckt: PeriodicCircuit + ?Sized> Dense<'_, Ckt> {
     fn probe(&mut self, t: f64) -> Probe {
         let n = self.c.states();
         self.evaluations += 1;
+        let t = self.cyclic.map_or(t, |span| t.rem_euclid(span));
         if n == 0 || self.spans.is_empty() {
             return self.c.evaluate(t, &[], &mut []);
         }
@@ -338,7 +437,8 @@ impl<Ckt: PeriodicCircuit + ?Sized> Dense<'_, Ckt> {
     /// The largest value `g` takes: the best of the time-ordered `samples`, then a few steps
     /// of successive parabolic interpolation (Brent's, without the golden fallback) between
     /// its neighbours. Every value kept is one the solution takes, so the result is never
-    /// below the best sample. A crest at either end of the period is left at the sample.
+    /// below the best sample. A crest at either end of the period is left at the sample,
+    /// unless `g` repeats over the span (`cyclic`): the neighbour across the seam stands in.
     fn largest<G: Fn(&Probe) -> f64>(&mut self, samples: &[(f64, Probe)], g: G) -> f64 {
         // One pass over the probes, each value taken once; a NaN never wins.
         let (mut j, mut fm) = (0, f64::NEG_INFINITY);
@@ -352,11 +452,20 @@ impl<Ckt: PeriodicCircuit + ?Sized> Dense<'_, Ckt> {
             return samples.first().map_or(f64::NAN, |(_, p)| g(p));
         }
         let mut m = samples[j].0;
-        if j == 0 || j + 1 >= samples.len() {
-            return fm;
-        }
-        let (mut a, mut fa) = (samples[j - 1].0, g(&samples[j - 1].1));
-        let (mut b, mut fb) = (samples[j + 1].0, g(&samples[j + 1].1));
+        let last = samples.len() - 1;
+        // The neighbours' indices and the shift of their instants (a span across the seam).
+        let (left, right) = if j > 0 && j < last {
+            ((j - 1, 0.0), (j + 1, 0.0))
+        } else {
+            match self.cyclic {
+                // The first and the last sample are the same instant a span apart.
+                Some(span) if last >= 2 && j == 0 => ((last - 1, -span), (1, 0.0)),
+                Some(span) if last >= 2 => ((last - 1, 0.0), (1, span)),
+                _ => return fm,
+            }
+        };
+        let (mut a, mut fa) = (samples[left.0].0 + left.1, g(&samples[left.0].1));
+        let (mut b, mut fb) = (samples[right.0].0 + right.1, g(&samples[right.0].1));
         for _ in 0..CREST_STEPS {
             // The vertex of the parabola through the three points.
             let (p, q) = ((m - a) * (fm - fb), (m - b) * (fm - fa));
@@ -419,11 +528,21 @@ impl<Ckt: PeriodicCircuit + ?Sized> Dense<'_, Ckt> {
         d: D,
     ) -> f64 {
         let mut kept = 0i8;
+        // Whether the last point left the value of the end it replaced nearly as it was.
+        let mut stalled = false;
         for _ in 0..EDGE_STEPS {
             if b - a <= 1e-9 * self.period {
                 break;
             }
-            let t = ((a * fb - b * fa) / (fb - fa)).clamp(a, b);
+            // After a point that gained nothing the bracket is halved instead: across a jump
+            // (a six-pulse bridge's phase taking over at a crossing) the secant only creeps
+            // from the far end, even with the kept end's value halved, and left the edge half
+            // a step out. A smooth edge's secant gains many-fold at each point.
+            let t = if stalled {
+                0.5 * (a + b)
+            } else {
+                ((a * fb - b * fa) / (fb - fa)).clamp(a, b)
+            };
             let ft = d(&self.probe(t));
             if ft == 0.0 || !ft.is_finite() {
                 return t;
@@ -431,12 +550,14 @@ impl<Ckt: PeriodicCircuit + ?Sized> Dense<'_, Ckt> {
             // Illinois: an end kept twice running has its value halved, so the secant does
             // not creep towards the root from one side (convex pulse edges would).
             if (ft > 0.0) == (fb > 0.0) {
+                stalled = ft.abs() > 0.5 * fb.abs();
                 (b, fb) = (t, ft);
                 if kept == -1 {
                     fa *= 0.5;
                 }
                 kept = -1;
             } else {
+                stalled = ft.abs() > 0.5 * fa.abs();
                 (a, fa) = (t, ft);
                 if kept == 1 {
                     fb *= 0.5;

@@ -311,7 +311,8 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
             // twice over: the same discrete map on both halves keeps the closed period symmetric,
             // where independent steps would let an ill-conditioned light load split its charge
             // unevenly between the two diodes. (Every sub-period alike: six for a six-pulse
-            // bridge, three for a star.)
+            // bridge, three for a star.) A pass over one sub-period whose images unfold the
+            // rest is that sub-period's map already.
             if c.period_s() < 0.75 * c.line_period_s() {
                 let half = c.period_s();
                 let mut t = 0.0;
@@ -323,23 +324,25 @@ pub fn steady_state<Ckt: PeriodicCircuit + ?Sized>(c: &Ckt) -> Result<SteadyStat
                     first.push(step);
                     t += step.h;
                 }
-                let repeats = (c.line_period_s() / half).round().max(1.0) as usize;
-                grid_t = first
-                    .iter()
-                    .cycle()
-                    .take(first.len() * repeats)
-                    .copied()
-                    .collect();
-                (state, trace) = match final_pass(c, &x, run, Steps::Replay(&grid_t)) {
-                    Ok(s) => s,
-                    Err(SolveError::NotFinite) => {
-                        (state, trace) = controlled.clone();
-                        break 'close;
-                    }
-                    Err(e) => return Err(e),
-                };
-                integrations += 1;
-                g = gap(&state);
+                if state.pass_s > 0.75 * c.line_period_s() {
+                    let repeats = (c.line_period_s() / half).round().max(1.0) as usize;
+                    grid_t = first
+                        .iter()
+                        .cycle()
+                        .take(first.len() * repeats)
+                        .copied()
+                        .collect();
+                    (state, trace) = match final_pass(c, &x, run, Steps::Replay(&grid_t)) {
+                        Ok(s) => s,
+                        Err(SolveError::NotFinite) => {
+                            (state, trace) = controlled.clone();
+                            break 'close;
+                        }
+                        Err(e) => return Err(e),
+                    };
+                    integrations += 1;
+                    g = gap(&state);
+                }
                 // The closed period is the first sub-period's discrete map repeated, so it is
                 // closed on that map, a sixth (or a half) of the pass's cost an iteration; one
                 // pass over the whole period then confirms it (the drive bus with a line
