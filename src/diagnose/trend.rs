@@ -534,48 +534,56 @@ pub fn trend(supply: &Supply) -> Trend {
     // Visits whose readings cannot be true, and supplies with no filter capacitor, give none
     // either.
     let healthy_hz = supply.rectifier.topology.pulses_per_cycle() as f64 * supply.mains.hz;
-    let usable: Vec<Option<Readings>> = visits
+    // Each visit's readings for the fit (its ripple frequency set aside: the capacitance does
+    // not move it), or why it gives no point; each visit checked once.
+    let usable: Vec<Result<Readings, &'static str>> = visits
         .iter()
         .map(|v| {
             let r = Readings {
                 ripple_hz: None,
                 ..v.readings.with_line_mean()
             };
-            let own_ripple = v
+            let foreign = v
                 .readings
                 .ripple_hz
-                .is_none_or(|hz| (hz - healthy_hz).abs() <= 0.1 * healthy_hz);
-            (supply.filter.kind != FilterKind::None
-                && own_ripple
-                && r.check_against(supply).is_ok())
-            .then_some(r)
+                .is_some_and(|hz| (hz - healthy_hz).abs() > 0.1 * healthy_hz);
+            if foreign {
+                return Err(FOREIGN_RIPPLE);
+            }
+            match r.check_against(supply) {
+                Err(super::ReadingError::Nothing) => Err(NO_READING),
+                Err(_) => Err(IMPOSSIBLE_READING),
+                Ok(()) if supply.filter.kind == FilterKind::None => Err(NO_READING),
+                Ok(()) => Ok(r),
+            }
         })
         .collect();
-    let tables = CapacitanceFit::new(supply, usable.iter().flatten().map(|r| r.mains_vrms));
+    let tables = CapacitanceFit::new(
+        supply,
+        usable
+            .iter()
+            .filter_map(|r| r.as_ref().ok())
+            .map(|r| r.mains_vrms),
+    );
     let mut points = Vec::new();
     let mut xy = Vec::new();
     let mut old_xy = Vec::new();
     for (i, (v, r)) in visits.iter().zip(&usable).enumerate() {
-        let estimate = r.as_ref().and_then(|r| tables.estimate(r));
+        let estimate = r.as_ref().ok().and_then(|r| tables.estimate(r));
         if let (Some(e), Some(d)) = (estimate, v.days()) {
             match replaced_at {
                 Some(r) if i <= r => old_xy.push((d as f64, e.uf, e.sigma_uf)),
                 _ => xy.push((d as f64, e.uf, e.sigma_uf)),
             }
         }
-        let foreign = v
-            .readings
-            .ripple_hz
-            .is_some_and(|hz| (hz - healthy_hz).abs() > 0.1 * healthy_hz);
-        let impossible = v.readings.with_line_mean().check_against(supply).is_err();
         points.push(TrendPoint {
             date: v.date_text(),
             uf: estimate.map(|e| e.uf),
-            why_none: match (estimate, foreign, impossible) {
-                (Some(_), _, _) => None,
-                (None, true, _) => Some(FOREIGN_RIPPLE),
-                (None, false, true) => Some(IMPOSSIBLE_READING),
-                (None, false, false) => Some(NO_READING),
+            why_none: match (estimate, r) {
+                (Some(_), _) => None,
+                (None, Err(why)) => Some(*why),
+                // Readings the fit could not use (a DC alone that no capacitance moves).
+                (None, Ok(_)) => Some(NO_READING),
             },
         });
     }
@@ -762,6 +770,13 @@ mod tests {
                 .collect::<Vec<_>>()
         );
         assert_eq!(before.uf_per_year, after.uf_per_year);
+        // A visit with notes and no readings is no typo: it has nothing to read.
+        let mut blank = s.visits.last().unwrap().clone();
+        blank.readings = Readings::default();
+        blank.date = "2099-02-01".parse().unwrap();
+        with_typo.visits.push(blank);
+        let last = trend(&with_typo).points.last().unwrap().clone();
+        assert_eq!((last.uf, last.why_none), (None, Some(NO_READING)));
     }
 
     #[test]
