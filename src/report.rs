@@ -6,7 +6,7 @@ use crate::analysis::checks::{self, Check, Status};
 use crate::analysis::worst_case::{self, WorstCase};
 use crate::analysis::{capacitor_life, valve};
 use crate::circuit::diode::DiodeParams;
-use crate::circuit::{self, CircuitError, Figure, Figures, HandEstimate, Operating};
+use crate::circuit::{self, CircuitError, Figure, Figures, HandEstimate, Naming, Operating};
 use crate::escape::printable;
 use crate::supply::{DiodeSpec, FilterKind, Supply, Topology};
 use crate::units::{format_number, format_si, format_uf};
@@ -99,10 +99,11 @@ pub fn figure_rows(
     f: &Figures,
     supply: &Supply,
 ) -> Vec<(&'static str, &'static str, Option<f64>, &'static str)> {
+    let naming = Naming::of(supply);
     Figure::ALL
         .iter()
         .filter(|fig| fig.applies(f))
-        .map(|fig| (fig.words(supply).0, fig.key(), fig.of(f), fig.unit()))
+        .map(|fig| (fig.words(naming).0, fig.key(), fig.of(f), fig.unit()))
         .collect()
 }
 

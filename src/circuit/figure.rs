@@ -33,6 +33,29 @@ pub enum Figure {
     OutCapRippleRmsA,
 }
 
+/// How a supply names its figures in the report and on screen (see [`Figure::words`]),
+/// worked out once for a table rather than for each of its rows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Naming {
+    /// The rectifier is a valve: its figures are the valve's.
+    pub valve: bool,
+    /// No transformer: the winding's figures are the line's.
+    pub straight_off_line: bool,
+}
+
+impl Naming {
+    /// The naming of `supply`'s figures.
+    pub fn of(supply: &crate::supply::Supply) -> Naming {
+        Naming {
+            valve: matches!(
+                supply.rectifier_diode(),
+                Ok(super::diode::DiodeParams::Valve { .. })
+            ),
+            straight_off_line: supply.transformer.is_absent(),
+        }
+    }
+}
+
 impl Figure {
     /// Every figure, in the report's order.
     pub const ALL: [Figure; 23] = [
@@ -110,55 +133,20 @@ impl Figure {
         }
     }
 
-    /// The report's and the screen's words for `supply`: a supply with no transformer names
+    /// The report's and the screen's words under `naming`: a supply with no transformer names
     /// the winding's figures the line's ("Line RMS"), a valve rectifier its rectifier's
     /// figures the valve's ("Valve peak"); the table's words otherwise. The JSON keys stay.
-    pub fn words(self, supply: &crate::supply::Supply) -> (&'static str, &'static str) {
-        let valve = matches!(
-            supply.rectifier_diode(),
-            Ok(super::diode::DiodeParams::Valve { .. })
-        );
-        let valve_words = match self {
-            Figure::DiodePeakA => Some(("Valve peak", "Valve peak")),
-            Figure::DiodeAvgA => Some(("Valve average", "Valve avg.")),
-            Figure::DiodeRmsA => Some(("Valve RMS", "Valve RMS")),
-            Figure::DiodePivV => Some(("Valve reverse peak", "Valve rev.")),
-            Figure::DcV
-            | Figure::MaxV
-            | Figure::MinV
-            | Figure::RipplePpV
-            | Figure::RippleRmsV
-            | Figure::RippleHz
-            | Figure::LoadA
-            | Figure::WindingRmsA
-            | Figure::WindingPeakA
-            | Figure::WindingVa
-            | Figure::SecondaryRmsV
-            | Figure::CapRippleRmsA
-            | Figure::ConductionDeg
-            | Figure::InrushPeakA
-            | Figure::CapPeakV
-            | Figure::ChokeRmsA
-            | Figure::ChokePeakA
-            | Figure::ChokeDcDropV
-            | Figure::OutCapRippleRmsA => None,
-        };
-        match valve_words {
-            Some(words) if valve => words,
-            _ => self.line_words(supply.transformer.is_absent()),
-        }
-    }
-
-    /// The words with the winding's figures named the line's when `straight_off_line`.
-    fn line_words(self, straight_off_line: bool) -> (&'static str, &'static str) {
-        if !straight_off_line {
-            return (self.label(), self.short());
-        }
+    pub fn words(self, naming: Naming) -> (&'static str, &'static str) {
+        let (valve, line) = (naming.valve, naming.straight_off_line);
         match self {
-            Figure::WindingRmsA => ("Line current RMS", "Line RMS"),
-            Figure::WindingPeakA => ("Line current peak", "Line peak"),
-            Figure::WindingVa => ("Line VA", "Line VA"),
-            Figure::SecondaryRmsV => ("Line AC at the rectifier", "Line AC"),
+            Figure::DiodePeakA if valve => ("Valve peak", "Valve peak"),
+            Figure::DiodeAvgA if valve => ("Valve average", "Valve avg."),
+            Figure::DiodeRmsA if valve => ("Valve RMS", "Valve RMS"),
+            Figure::DiodePivV if valve => ("Valve reverse peak", "Valve rev."),
+            Figure::WindingRmsA if line => ("Line current RMS", "Line RMS"),
+            Figure::WindingPeakA if line => ("Line current peak", "Line peak"),
+            Figure::WindingVa if line => ("Line VA", "Line VA"),
+            Figure::SecondaryRmsV if line => ("Line AC at the rectifier", "Line AC"),
             Figure::DcV
             | Figure::MaxV
             | Figure::MinV
@@ -170,6 +158,10 @@ impl Figure {
             | Figure::DiodeAvgA
             | Figure::DiodeRmsA
             | Figure::DiodePivV
+            | Figure::WindingRmsA
+            | Figure::WindingPeakA
+            | Figure::WindingVa
+            | Figure::SecondaryRmsV
             | Figure::CapRippleRmsA
             | Figure::ConductionDeg
             | Figure::InrushPeakA

@@ -14,7 +14,7 @@ pub mod waveform;
 pub mod winding;
 
 pub use build::{Conditions, LoadOverride, choke_of, network, power_cutoff_v};
-pub use figure::Figure;
+pub use figure::{Figure, Naming};
 pub use figures::{Figures, RIPPLE_HARMONICS};
 pub use paper::{
     BELOW_THE_DROPS, BEYOND_THE_WINDING, HandEstimate, hand_differences, hand_estimate,

@@ -6,7 +6,7 @@ use super::app::{App, Open, Panel};
 use super::style::{Look, sig3, wrap_words};
 use super::worker::{JUDGED_VISITS, Judgement};
 use crate::analysis::checks::Status;
-use crate::circuit::Figure;
+use crate::circuit::{Figure, Naming};
 use crate::units::{format_si, format_uf};
 use ratatui::buffer::Buffer;
 use ratatui::layout::Rect;
@@ -237,12 +237,13 @@ impl Widget for &ResultsPanel<'_> {
             ),
             look.heading(),
         ));
+        let naming = Naming::of(&open.supply);
         // A figure the supply does not have (a choke's, without one) is left out.
         for figure in ROWS
             .into_iter()
             .filter(|f| f.applies(&solved.nominal.figures))
         {
-            let label = figure.words(&open.supply).1;
+            let label = figure.words(naming).1;
             let (name, unit) = (figure.key(), figure.unit());
             let e = solved.worst.extent(figure);
             let last = match before {
