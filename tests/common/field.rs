@@ -395,3 +395,100 @@ pub fn report(t: &Tally) -> String {
     }
     s
 }
+
+/// A real unit's circuit as the recipe (tests/reference/field_population.py) draws it, apart
+/// from its file: what the meters never see.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct RealCircuit {
+    pub crest: f64,
+    /// Both windings' resistance over the file's (cold) value.
+    pub winding_factor: f64,
+    /// In series with the whole secondary, henries (half in each half of a center tap).
+    pub leakage_h: f64,
+    /// The measured rail's capacitor over its label (before a fault).
+    pub cap_factor: f64,
+    /// The other capacitor's (a CRC's second, a doubler's lower, a split rail's - rail).
+    pub cap2_factor: Option<f64>,
+    pub load_factor: f64,
+    /// The junctions' saturation current over the silicon preset's.
+    pub is_factor: f64,
+    /// The true mains over the file's nominal.
+    pub mains_factor: f64,
+    /// The fault's size as `FieldUnit::fault_param`.
+    pub fault_param: Option<f64>,
+}
+
+impl FieldUnit {
+    /// This unit's real circuit; `nominal_vrms` is its file's mains.
+    pub fn real_circuit(&self, nominal_vrms: f64) -> RealCircuit {
+        RealCircuit {
+            crest: self.crest,
+            winding_factor: self.winding_factor,
+            leakage_h: self.leakage_h,
+            cap_factor: self.cap_factor,
+            cap2_factor: self.cap2_factor,
+            load_factor: self.load_factor,
+            is_factor: self.is_factor,
+            mains_factor: self.true_mains_vrms / nominal_vrms,
+            fault_param: self.fault_param,
+        }
+    }
+}
+
+/// The silicon preset's junction, as the recipe and the engine both have it (domain notes:
+/// near a generic 1 A rectifier's simulator model, memory).
+const SILICON: (f64, f64, f64) = (7.0e-9, 1.8, 0.034);
+
+/// Solves a real unit with railcheck's engine: `stated` is its supply's file with the winding
+/// stated, `condition` the unit's (`healthy` or a fault key of the recipe, or one of the
+/// diagnosis's other faults `secondary-low`, `load-light` with `fault_param` its factor).
+/// The engine models a split rail's two rails as matched, so a fault on the measured rail
+/// alone (a heavy load, say) is solved as if on both.
+pub fn solve_real(
+    stated: &Supply,
+    condition: &str,
+    real: &RealCircuit,
+) -> Result<railcheck::circuit::Figures, String> {
+    use railcheck::circuit::{Conditions, LoadOverride, solve};
+    use railcheck::supply::DiodeSpec;
+    let mut s = stated.clone();
+    s.transformer.leakage_mh = Some(real.leakage_h * 1e3);
+    let (is_a, n, rs_ohms) = SILICON;
+    s.rectifier.diode = DiodeSpec::Junction {
+        is_a: is_a * real.is_factor,
+        n,
+        rs_ohms,
+    };
+    // Every capacitor at the other's factor, the measured rail's at its own (and the fault's).
+    let others = real.cap2_factor.unwrap_or(real.cap_factor);
+    let size = real.fault_param.unwrap_or(1.0);
+    let heavy = match condition {
+        "load-heavy" | "load-light" => size,
+        _ => 1.0,
+    };
+    let load = match (s.load.amps, s.load.ohms) {
+        (Some(a), _) => LoadOverride::Amps(a * real.load_factor * heavy),
+        (None, Some(r)) => LoadOverride::Ohms(r * real.load_factor / heavy),
+        (None, None) => return Err(format!("{}: no amps or ohms load", s.name)),
+    };
+    let mut cond = Conditions {
+        mains_factor: real.mains_factor,
+        crest: Some(real.crest),
+        winding_factor: real.winding_factor,
+        cap_factor: others,
+        reservoir_factor: real.cap_factor / others,
+        load: Some(load),
+        ..Conditions::default()
+    };
+    match condition {
+        "capacitance-low" => cond.reservoir_factor *= size,
+        "esr-high" => cond.esr_ohms = real.fault_param,
+        "rectifier-leg-open" => cond.leg_open = true,
+        "capacitor-open" => cond.capacitor_open = true,
+        "secondary-low" => cond.ratio_factor = size,
+        _ => {}
+    }
+    solve(&s, &cond)
+        .map(|op| op.figures)
+        .map_err(|e| format!("{}: {e}", s.name))
+}
