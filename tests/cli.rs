@@ -862,3 +862,95 @@ fn diagnose_takes_the_ripples_peak_to_peak_and_rms_together() {
     let top = d["hypotheses"][0]["fault"].as_str().unwrap();
     assert!(["capacitance-low", "esr-high"].contains(&top), "{top}");
 }
+
+/// When two faults of one part are nearly tied, `diagnose` names the part first. The readings
+/// are the simulated unit sr_preamp-04 of tests/reference/field_population.csv (ngspice-39:
+/// its + rail's capacitor at 0.31 of its value), judged against its file with the winding
+/// stated: from a DC and a ripple peak to peak, a lost capacitance and a risen ESR fit alike.
+#[test]
+fn diagnose_names_the_likely_part_when_its_faults_tie() {
+    let file = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/reference/field/sr_preamp.toml"
+    );
+    let args = [
+        "diagnose",
+        file,
+        "--mains",
+        "224.478",
+        "--dc",
+        "23.691",
+        "--ripple-pp",
+        "1.50719",
+        "--ripple-hz",
+        "100",
+    ];
+    let out = railcheck(&args);
+    assert!(out.status.success());
+    let text = String::from_utf8_lossy(&out.stdout);
+    let line = text
+        .lines()
+        .find(|l| l.contains("Likely part:"))
+        .unwrap_or_else(|| panic!("no likely part in\n{text}"));
+    assert!(
+        line.contains("the filter capacitor")
+            && line.contains("ESR high")
+            && line.contains("capacitance low")
+            && line.contains("the next checks below tell which"),
+        "{line}"
+    );
+    // Before the ranking, which keeps both faults in their order.
+    assert!(text.find("Likely part:") < text.find("Most likely first:"));
+    let mut json_args = args.to_vec();
+    json_args.push("--json");
+    let d: serde_json::Value = serde_json::from_slice(&railcheck(&json_args).stdout).unwrap();
+    let p = &d["likely_part"];
+    assert_eq!(p["part"], "filter-capacitor", "{p}");
+    let score = p["score"].as_f64().unwrap();
+    let each: f64 = p["faults"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["score"].as_f64().unwrap())
+        .sum();
+    assert!(score > 0.5 && (score - each).abs() < 0.01, "{p}");
+    let top = d["hypotheses"][0]["fault"].as_str().unwrap();
+    assert!(["capacitance-low", "esr-high"].contains(&top), "{top}");
+}
+
+/// A healthy unit's readings name no part. The readings are the simulated unit ct_amp-00 of
+/// tests/reference/field_population.csv (ngspice-39, healthy), against its file.
+#[test]
+fn diagnose_names_no_part_on_a_healthy_unit() {
+    let file = concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/reference/field/ct_amp.toml"
+    );
+    let row = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/reference/field_population.csv"
+    ))
+    .unwrap()
+    .lines()
+    .find(|l| l.starts_with("ct_amp-00,"))
+    .unwrap()
+    .to_string();
+    let cells: Vec<&str> = row.split(',').collect();
+    // unit,supply,condition,...,mains_vrms,dc_v,ripple_pp_v,ripple_hz (columns 12-15).
+    assert_eq!(cells[2], "healthy");
+    let mut args = vec![
+        "diagnose",
+        file,
+        "--dc",
+        cells[13],
+        "--ripple-pp",
+        cells[14],
+    ];
+    if !cells[12].is_empty() {
+        args.extend(["--mains", cells[12]]);
+    }
+    args.push("--json");
+    let d: serde_json::Value = serde_json::from_slice(&railcheck(&args).stdout).unwrap();
+    assert_eq!(d["verdict"], "healthy", "{d}");
+    assert!(d["likely_part"].is_null(), "{}", d["likely_part"]);
+}

@@ -227,6 +227,31 @@ fn filter_new_duplicate_delete_and_visits() {
     }
 }
 
+/// A visit whose readings point at the filter capacitor without telling its capacitance from
+/// its ESR (a ripple far above its window at a DC still within it): the visits view names the
+/// part under the ranking, as `diagnose` does.
+#[test]
+fn a_visit_pointing_at_one_part_names_it() {
+    let (mut app, _) = demo("likely-part");
+    select(&mut app, PUMP);
+    keys(&mut app, &[Msg::Char('a'), Msg::Down, Msg::Down]);
+    typed(&mut app, "26.5");
+    keys(&mut app, &[Msg::Down]);
+    typed(&mut app, "4");
+    keys(&mut app, &[Msg::Enter]);
+    assert_eq!(app.mode, Mode::Normal, "{:?}", app.mode);
+    let d = app.open.as_ref().unwrap().last_diagnosis.clone().unwrap();
+    let part = d.likely_part().expect("a likely part");
+    assert_eq!(part.part, railcheck::diagnose::Part::FilterCapacitor);
+    let shown = screen(&app, 120, 40);
+    let line = format!(
+        "likely part: the filter capacitor, {:.0} %",
+        100.0 * part.score
+    );
+    assert!(shown.contains(&line), "{line} in\n{shown}");
+    assert!(shown.find(&line) < shown.find("next:"), "{shown}");
+}
+
 #[test]
 fn an_unreadable_file_is_listed_and_left_alone() {
     let (_, dir) = demo("unreadable");

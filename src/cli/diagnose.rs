@@ -40,6 +40,26 @@ pub fn fault_words(fault: Fault) -> &'static str {
     }
 }
 
+/// The part more likely than not at fault, with its faults when more than one shares it: "Likely
+/// part: the filter capacitor, 89.0 % (filter capacitor's ESR high 46.0 %, filter capacitance
+/// low 43.0 %); the next checks below tell which". None when no part holds more than half.
+pub fn likely_part_line(d: &Diagnosis) -> Option<String> {
+    let p = d.likely_part()?;
+    let mut line = format!("Likely part: {}, {:.1} %", p.part.words(), 100.0 * p.score);
+    if p.faults.len() > 1 {
+        let each: Vec<String> = p
+            .faults
+            .iter()
+            .map(|(f, s)| format!("{} {:.1} %", fault_words(*f), 100.0 * s))
+            .collect();
+        line.push_str(&format!(
+            " ({}); the next checks below tell which",
+            each.join(", ")
+        ));
+    }
+    Some(line)
+}
+
 /// What a hypothesis's fitted value says, in words and units ("filter capacitor about 31 uF of
 /// its 47 uF"); what a fault without a value means; None when there is nothing to add.
 pub fn estimate_words(h: &Hypothesis, supply: &Supply) -> Option<String> {
@@ -129,6 +149,9 @@ pub fn render_text(out: &mut impl Write, supply: &Supply, d: &Diagnosis) -> std:
     )?;
     for e in &d.expectations {
         writeln!(out, "  {}", expectation_line(e))?;
+    }
+    if let Some(line) = likely_part_line(d) {
+        writeln!(out, "  {line}")?;
     }
     writeln!(out, "  Most likely first:")?;
     for h in d.hypotheses.iter().take(SHOWN) {

@@ -6,6 +6,7 @@
 pub mod calibrate;
 pub mod judge;
 mod nuisance;
+pub mod part;
 pub mod trend;
 
 use crate::analysis::worst_case::{AxisKind, ToleranceBox, worst_case_in};
@@ -14,6 +15,7 @@ use crate::supply::{FilterKind, Supply};
 use serde::Serialize;
 
 pub use crate::visit::Readings;
+pub use part::{LikelyPart, Part};
 
 /// Meter uncertainty, as a technician's handheld gear gives it (common practice; an ordinary
 /// 4-digit DMM and a scope): DC +-(0.5 % + 2 digits), AC volts +-(1 % + 3 digits), a scope's
@@ -1079,8 +1081,17 @@ pub fn json(supply: &Supply, d: &Diagnosis) -> serde_json::Value {
                 "why": h.why, "next_check": h.next_check})
         })
         .collect();
+    // The part more likely than not at fault, or null.
+    let likely_part = d.likely_part().map(|p| {
+        let faults: Vec<serde_json::Value> = p
+            .faults
+            .iter()
+            .map(|(f, s)| serde_json::json!({"fault": f, "score": s}))
+            .collect();
+        serde_json::json!({"part": p.part, "score": p.score, "faults": faults})
+    });
     serde_json::json!({"name": supply.name, "verdict": d.verdict, "readings": d.expectations,
-        "hypotheses": hyps})
+        "likely_part": likely_part, "hypotheses": hyps})
 }
 
 /// A visit recording `readings` and the verdict of `d`, dated `date` (YYYY-MM-DD).

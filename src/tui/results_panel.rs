@@ -367,6 +367,15 @@ fn visits(app: &App, open: &Open, look: &Look, focused: bool, area: Rect, buf: &
                 7,
             );
         }
+        // The likeliest fault's part, when its faults together hold more than half the
+        // belief (a capacitor's ESR and capacitance nearly tied).
+        if let Some(p) = d.likely_part() {
+            text.wrapped(
+                &format!(" likely part: {}, {:.0} %", p.part.words(), 100.0 * p.score),
+                Style::default(),
+                7,
+            );
+        }
         if let Some(h) = d.hypotheses.first() {
             text.wrapped(&format!(" next: {}", h.next_check), look.dim(), 7);
         }
