@@ -8,7 +8,7 @@
 // A test may use only part of this module.
 #![allow(dead_code)]
 
-use railcheck::diagnose::{Readings, diagnose};
+use railcheck::diagnose::{Fault, Part, Readings, diagnose};
 use railcheck::supply::Supply;
 use std::collections::{BTreeMap, HashMap};
 
@@ -202,6 +202,8 @@ pub struct Outcome {
     /// the truth was not among the hypotheses).
     pub top_misfit: f64,
     pub truth_misfit: f64,
+    /// The part the diagnosis names as more likely than not at fault, if any.
+    pub likely_part: Option<Part>,
 }
 
 impl Outcome {
@@ -257,6 +259,43 @@ impl Tally {
         (right, faulted.len())
     }
 
+    /// (faulted units whose likely part, named when more than half the belief points at one,
+    /// is the part that failed, faulted units).
+    pub fn likely_part_right(&self) -> (usize, usize) {
+        let faulted: Vec<_> = self
+            .outcomes
+            .iter()
+            .filter(|o| o.truth != "healthy")
+            .collect();
+        let right = faulted
+            .iter()
+            .filter(|o| o.likely_part.is_some() && o.likely_part == part_of_key(&o.truth))
+            .count();
+        (right, faulted.len())
+    }
+
+    /// Faulted units whose likely part is named and is not the part that failed: a good part
+    /// the technician would open up on railcheck's word.
+    pub fn likely_part_wrong(&self) -> usize {
+        self.outcomes
+            .iter()
+            .filter(|o| o.truth != "healthy")
+            .filter(|o| o.likely_part.is_some() && o.likely_part != part_of_key(&o.truth))
+            .count()
+    }
+
+    /// (healthy units for which a likely part is named, healthy units): a part named on a
+    /// healthy unit would send the technician to open it up.
+    pub fn likely_part_on_healthy(&self) -> (usize, usize) {
+        let healthy: Vec<_> = self
+            .outcomes
+            .iter()
+            .filter(|o| o.truth == "healthy")
+            .collect();
+        let named = healthy.iter().filter(|o| o.likely_part.is_some()).count();
+        (named, healthy.len())
+    }
+
     /// For each true condition: (condition, ranked right, units), in key order.
     pub fn by_condition(&self) -> Vec<(String, usize, usize)> {
         Self::group(self.outcomes.iter().map(|o| (o.truth.clone(), o.right())))
@@ -283,6 +322,14 @@ impl Tally {
     }
 }
 
+/// The engine's part for a fault key (None for `healthy` or an unknown key).
+pub fn part_of_key(key: &str) -> Option<Part> {
+    Fault::ALL
+        .iter()
+        .find(|f| f.key() == key)
+        .and_then(|f| f.part())
+}
+
 /// The part a fault key concerns, as a technician would go for it.
 pub fn part_of(fault: &str) -> &str {
     match fault {
@@ -303,30 +350,33 @@ pub fn tally(units: &[FieldUnit], variant: Variant) -> Result<Tally, String> {
             supplies.insert(u.supply.clone(), load_supply(&u.supply, variant)?);
         }
         let supply = &supplies[&u.supply];
-        let (top, score, verdict, top_misfit, truth_misfit) = match diagnose(supply, &u.readings) {
-            Ok(d) => {
-                let h = &d.hypotheses[0];
-                let truth = d
-                    .hypotheses
-                    .iter()
-                    .find(|t| t.fault.key() == u.condition)
-                    .map_or(f64::NAN, |t| t.misfit);
-                (
-                    h.fault.key().to_string(),
-                    h.score,
-                    d.verdict.to_string(),
-                    h.misfit,
-                    truth,
-                )
-            }
-            Err(e) => (
-                format!("refused: {e}"),
-                0.0,
-                String::new(),
-                f64::NAN,
-                f64::NAN,
-            ),
-        };
+        let (top, score, verdict, top_misfit, truth_misfit, likely_part) =
+            match diagnose(supply, &u.readings) {
+                Ok(d) => {
+                    let h = &d.hypotheses[0];
+                    let truth = d
+                        .hypotheses
+                        .iter()
+                        .find(|t| t.fault.key() == u.condition)
+                        .map_or(f64::NAN, |t| t.misfit);
+                    (
+                        h.fault.key().to_string(),
+                        h.score,
+                        d.verdict.to_string(),
+                        h.misfit,
+                        truth,
+                        d.likely_part().map(|p| p.part),
+                    )
+                }
+                Err(e) => (
+                    format!("refused: {e}"),
+                    0.0,
+                    String::new(),
+                    f64::NAN,
+                    f64::NAN,
+                    None,
+                ),
+            };
         outcomes.push(Outcome {
             unit: u.unit.clone(),
             supply: u.supply.clone(),
@@ -336,6 +386,7 @@ pub fn tally(units: &[FieldUnit], variant: Variant) -> Result<Tally, String> {
             verdict,
             top_misfit,
             truth_misfit,
+            likely_part,
         });
     }
     Ok(Tally { variant, outcomes })
@@ -371,6 +422,16 @@ pub fn report(t: &Tally) -> String {
         s,
         "failed part:  {part}/{faulted} faulted units with the failed part ranked first ({:.0} %)",
         pct(part, faulted)
+    );
+    let (lp, _) = t.likely_part_right();
+    let (lp_healthy, _) = t.likely_part_on_healthy();
+    let _ = writeln!(
+        s,
+        "likely part:  {lp}/{faulted} faulted units with the failed part named as more likely \
+         than not ({:.0} %); a wrong part named on {} faulted units and a part on \
+         {lp_healthy}/{healthy} healthy units",
+        pct(lp, faulted),
+        t.likely_part_wrong()
     );
     let _ = writeln!(s, "by condition (ranked right / units):");
     for (k, r, n) in t.by_condition() {
