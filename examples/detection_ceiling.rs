@@ -142,7 +142,8 @@ fn log_uniform(rng: &mut Rng, lo: f64, hi: f64) -> f64 {
     rng.uniform(lo.ln(), hi.ln()).exp()
 }
 
-/// One real unit as the judge believes the recipe draws it (its mains set later).
+/// One real unit as the judge believes the recipe draws it (its mains set later, here the
+/// nominal).
 fn draw(s: &Supply, condition: &str, belief: Belief, rng: &mut Rng) -> field::RealCircuit {
     let crest = rng.uniform(1.34, std::f64::consts::SQRT_2);
     // A file that leaves the winding out: anywhere in railcheck's assumed range (log-uniform;
@@ -189,7 +190,7 @@ fn draw(s: &Supply, condition: &str, belief: Belief, rng: &mut Rng) -> field::Re
         cap2_factor: cap2,
         load_factor: load,
         is_factor: is,
-        mains_factor: 1.0,
+        mains_vrms: s.mains.vrms,
         fault_param: fault,
     }
 }
@@ -202,7 +203,7 @@ fn solve(
     mains: f64,
 ) -> Option<(f64, f64, f64)> {
     let real = field::RealCircuit {
-        mains_factor: mains,
+        mains_vrms: mains * s.mains.vrms,
         ..*d
     };
     let f = field::solve_real(s, condition, &real).ok()?;
@@ -348,8 +349,8 @@ fn main() -> anyhow::Result<()> {
     let mut pp_err = Vec::new();
     for u in &units {
         let s = field::load_supply(&u.supply, field::Variant::Stated).map_err(|e| anyhow!(e))?;
-        let d = u.real_circuit(s.mains.vrms);
-        let m = d.mains_factor;
+        let d = u.real;
+        let m = d.mains_vrms / s.mains.vrms;
         let Some((dc, pp, _)) = solve(&s, &u.condition, &d, m) else {
             println!("{}: the engine did not solve it", u.unit);
             continue;

@@ -60,16 +60,8 @@ pub struct FieldUnit {
     pub supply: String,
     /// `healthy` or the fault's key (`capacitance-low`, `esr-high`, ...).
     pub condition: String,
-    pub crest: f64,
-    pub winding_factor: f64,
-    pub leakage_h: f64,
-    pub cap_factor: f64,
-    pub cap2_factor: Option<f64>,
-    pub load_factor: f64,
-    pub is_factor: f64,
-    pub true_mains_vrms: f64,
-    /// The fault's factor (capacitance, load, mains) or ESR in ohms; None without one.
-    pub fault_param: Option<f64>,
+    /// What the unit really is, which its file does not say.
+    pub real: RealCircuit,
     /// Mains, DC, ripple peak to peak and ripple frequency as read (volts, hertz).
     pub readings: Readings,
     /// The ripple's RMS as the scope measures it on the same capture (volts), kept apart
@@ -133,15 +125,17 @@ pub fn parse(text: &str) -> Result<Vec<FieldUnit>, String> {
             visit: row.get("visit").map(|s| s.to_string()).unwrap_or_default(),
             supply: text_of("supply")?,
             condition: text_of("condition")?,
-            crest: number("crest")?,
-            winding_factor: number("winding_factor")?,
-            leakage_h: number("leakage_h")?,
-            cap_factor: number("cap_factor")?,
-            cap2_factor: maybe("cap2_factor")?,
-            load_factor: number("load_factor")?,
-            is_factor: number("is_factor")?,
-            true_mains_vrms: number("true_mains_vrms")?,
-            fault_param: maybe("fault_param")?,
+            real: RealCircuit {
+                crest: number("crest")?,
+                winding_factor: number("winding_factor")?,
+                leakage_h: number("leakage_h")?,
+                cap_factor: number("cap_factor")?,
+                cap2_factor: maybe("cap2_factor")?,
+                load_factor: number("load_factor")?,
+                is_factor: number("is_factor")?,
+                mains_vrms: number("true_mains_vrms")?,
+                fault_param: maybe("fault_param")?,
+            },
             readings: Readings {
                 mains_vrms: maybe("mains_vrms")?,
                 dc_v: Some(number("dc_v")?),
@@ -221,79 +215,55 @@ pub struct Tally {
 }
 
 impl Tally {
-    /// (healthy units whose top hypothesis is not healthy, healthy units).
-    pub fn false_alarms(&self) -> (usize, usize) {
-        let healthy: Vec<_> = self
+    /// (units of the healthy ones, or of the faulted ones, for which `pred` holds, those
+    /// units).
+    fn count(&self, healthy: bool, pred: impl Fn(&Outcome) -> bool) -> (usize, usize) {
+        let among: Vec<_> = self
             .outcomes
             .iter()
-            .filter(|o| o.truth == "healthy")
+            .filter(|o| (o.truth == "healthy") == healthy)
             .collect();
-        let wrong = healthy.iter().filter(|o| !o.right()).count();
-        (wrong, healthy.len())
+        (among.iter().filter(|o| pred(o)).count(), among.len())
+    }
+
+    /// (healthy units whose top hypothesis is not healthy, healthy units).
+    pub fn false_alarms(&self) -> (usize, usize) {
+        self.count(true, |o| !o.right())
     }
 
     /// (faulted units whose top hypothesis is their fault, faulted units).
     pub fn detected(&self) -> (usize, usize) {
-        let faulted: Vec<_> = self
-            .outcomes
-            .iter()
-            .filter(|o| o.truth != "healthy")
-            .collect();
-        let right = faulted.iter().filter(|o| o.right()).count();
-        (right, faulted.len())
+        self.count(false, Outcome::right)
     }
 
     /// (faulted units whose top hypothesis names the failed part, faulted units): the filter
     /// capacitor for capacitance-low, ESR-high and capacitor-open alike (the same part to
     /// replace, told apart by the next check), the rectifier, the load, the mains.
     pub fn part_found(&self) -> (usize, usize) {
-        let faulted: Vec<_> = self
-            .outcomes
-            .iter()
-            .filter(|o| o.truth != "healthy")
-            .collect();
-        let right = faulted
-            .iter()
-            .filter(|o| part_of(&o.top) == part_of(&o.truth))
-            .count();
-        (right, faulted.len())
+        self.count(false, |o| part_of(&o.top) == part_of(&o.truth))
     }
 
     /// (faulted units whose likely part, named when more than half the belief points at one,
     /// is the part that failed, faulted units).
     pub fn likely_part_right(&self) -> (usize, usize) {
-        let faulted: Vec<_> = self
-            .outcomes
-            .iter()
-            .filter(|o| o.truth != "healthy")
-            .collect();
-        let right = faulted
-            .iter()
-            .filter(|o| o.likely_part.is_some() && o.likely_part == part_of_key(&o.truth))
-            .count();
-        (right, faulted.len())
+        self.count(false, |o| {
+            o.likely_part.is_some() && o.likely_part == part_of_key(&o.truth)
+        })
     }
 
     /// Faulted units whose likely part is named and is not the part that failed: a good part
     /// the technician would open up on railcheck's word.
     pub fn likely_part_wrong(&self) -> usize {
-        self.outcomes
-            .iter()
-            .filter(|o| o.truth != "healthy")
-            .filter(|o| o.likely_part.is_some() && o.likely_part != part_of_key(&o.truth))
-            .count()
+        self.count(false, |o| {
+            o.likely_part.is_some() && o.likely_part != part_of_key(&o.truth)
+        })
+        .0
     }
 
     /// (healthy units for which a likely part is named, healthy units): a part named on a
     /// healthy unit would send the technician to open it up.
     pub fn likely_part_on_healthy(&self) -> (usize, usize) {
-        let healthy: Vec<_> = self
-            .outcomes
-            .iter()
-            .filter(|o| o.truth == "healthy")
-            .collect();
-        let named = healthy.iter().filter(|o| o.likely_part.is_some()).count();
-        (named, healthy.len())
+        self.count(true, |o| o.likely_part.is_some())
     }
 
     /// For each true condition: (condition, ranked right, units), in key order.
@@ -473,27 +443,10 @@ pub struct RealCircuit {
     pub load_factor: f64,
     /// The junctions' saturation current over the silicon preset's.
     pub is_factor: f64,
-    /// The true mains over the file's nominal.
-    pub mains_factor: f64,
-    /// The fault's size as `FieldUnit::fault_param`.
+    /// The true mains, volts RMS.
+    pub mains_vrms: f64,
+    /// The fault's factor (capacitance, load, mains) or ESR in ohms; None without one.
     pub fault_param: Option<f64>,
-}
-
-impl FieldUnit {
-    /// This unit's real circuit; `nominal_vrms` is its file's mains.
-    pub fn real_circuit(&self, nominal_vrms: f64) -> RealCircuit {
-        RealCircuit {
-            crest: self.crest,
-            winding_factor: self.winding_factor,
-            leakage_h: self.leakage_h,
-            cap_factor: self.cap_factor,
-            cap2_factor: self.cap2_factor,
-            load_factor: self.load_factor,
-            is_factor: self.is_factor,
-            mains_factor: self.true_mains_vrms / nominal_vrms,
-            fault_param: self.fault_param,
-        }
-    }
 }
 
 /// The silicon preset's junction, as the recipe and the engine both have it (domain notes:
@@ -533,7 +486,7 @@ pub fn solve_real(
         (None, None) => return Err(format!("{}: no amps or ohms load", s.name)),
     };
     let mut cond = Conditions {
-        mains_factor: real.mains_factor,
+        mains_factor: real.mains_vrms / s.mains.vrms,
         crest: Some(real.crest),
         winding_factor: real.winding_factor,
         cap_factor: others,
