@@ -11,7 +11,7 @@
 
 use crate::analysis::capacitor_life::CapacitorLife;
 use crate::circuit::Figure;
-use crate::cli::diagnose::{estimate_words, fault_words};
+use crate::cli::diagnose::{estimate_words, fault_words, likely_part_line};
 use crate::cli::words::{reading, value_like, window};
 use crate::diagnose::Diagnosis;
 use crate::diagnose::trend::Trend;
@@ -328,6 +328,9 @@ fn verdict(h: &mut String, report: &Report, d: &Diagnosis) {
     );
     if d.hypotheses.is_empty() {
         return;
+    }
+    if let Some(line) = likely_part_line(d) {
+        let _ = write!(h, "<p><strong>{}</strong></p>", escape_html(&line));
     }
     h.push_str(
         "<p>Likeliest causes first, with each one's share of belief and the check that tells \
@@ -957,6 +960,26 @@ mod tests {
         }
         // The only tags are the page's own: no script element of any kind.
         assert!(!html.to_lowercase().contains("<script"));
+    }
+
+    #[test]
+    fn the_page_names_the_likely_part_only_when_the_diagnosis_does() {
+        // The last visit's ripple, twice its nominal at a nominal DC: the filter capacitor,
+        // its capacitance or its ESR.
+        let s = supply();
+        let html = page(&s);
+        assert!(
+            html.contains("Likely part: the filter capacitor,")
+                && html.contains("the next checks below tell which"),
+            "no likely part"
+        );
+        // Nominal readings: healthy, no part named.
+        let mut s = supply();
+        let last = s.visits.last_mut().unwrap();
+        last.readings.ripple_pp_v = Some(1.0);
+        let html = page(&s);
+        assert!(html.contains("<strong>HEALTHY</strong>"));
+        assert!(!html.contains("Likely part"));
     }
 
     #[test]
