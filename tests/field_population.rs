@@ -100,3 +100,43 @@ fn winding_left_out_few_false_alarms_and_most_faults_found() {
         f.likely_part
     );
 }
+
+/// The likely-part rule (the top fault's part, named past half the belief) and the misfit's
+/// margins were chosen while looking at the population above. On 96 more units drawn from the
+/// same recipe with another seed (tests/reference/field_population_holdout.csv, ngspice-39),
+/// which none of them was chosen on, the false alarms stay within the issue's targets (5 %
+/// stated, 10 % left out) and a part named is the failed one at least 9 times in 10, and is
+/// never named on more than one healthy unit in 32.
+#[test]
+fn held_out_units_keep_the_false_alarms_and_the_likely_part_honest() {
+    let units = common::field::holdout().unwrap();
+    assert_eq!(units.len(), 96);
+    for variant in Variant::BOTH {
+        let t = tally(&units, variant).unwrap();
+        let (fa, healthy) = t.false_alarms();
+        let (found, faulted) = t.detected();
+        let (right, _) = t.likely_part_right();
+        let wrong = t.likely_part_wrong();
+        let (on_healthy, _) = t.likely_part_on_healthy();
+        println!(
+            "held out, {}: false alarms {fa}/{healthy}, detected {found}/{faulted}, failed \
+             part first {:?}, likely part right {right}, wrong {wrong}, on healthy {on_healthy}",
+            variant.label(),
+            t.part_found()
+        );
+        let limit = match variant {
+            Variant::Stated => healthy / 20,
+            Variant::Unstated => healthy / 10,
+        };
+        assert!(
+            fa <= limit,
+            "{}: false alarms {fa}/{healthy}",
+            variant.label()
+        );
+        assert!(
+            10 * wrong <= right + wrong && on_healthy <= 1,
+            "{}: likely part right {right}, wrong {wrong}, on healthy {on_healthy}",
+            variant.label()
+        );
+    }
+}

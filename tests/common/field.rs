@@ -171,6 +171,21 @@ pub fn population() -> Result<Vec<FieldUnit>, String> {
     parse(&text)
 }
 
+/// A held-out population: the same recipe and supplies drawn with another seed
+/// (`field_population.py --seed 20261203 --out ...`), for checking a rule on units it was not
+/// chosen on.
+pub const HOLDOUT_CSV_PATH: &str = concat!(
+    env!("CARGO_MANIFEST_DIR"),
+    "/tests/reference/field_population_holdout.csv"
+);
+
+/// The stored held-out population (tests/reference/field_population_holdout.csv).
+pub fn holdout() -> Result<Vec<FieldUnit>, String> {
+    let text = std::fs::read_to_string(HOLDOUT_CSV_PATH)
+        .map_err(|e| format!("reading {HOLDOUT_CSV_PATH}: {e}"))?;
+    parse(&text)
+}
+
 /// The file of `supply` in `variant`, parsed.
 pub fn load_supply(supply: &str, variant: Variant) -> Result<Supply, String> {
     let path = format!("{FIELD_DIR}/{}", variant.file_name(supply));

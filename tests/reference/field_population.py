@@ -433,13 +433,29 @@ def main():
     if "--calibration" in sys.argv[1:]:
         calibration_main(version)
         return
-    os.makedirs(FIELD, exist_ok=True)
+    # A held-out population: the same recipe and supplies with another seed, written to its
+    # own file (--seed N --out PATH, both or neither), so that a rule chosen while looking at
+    # the population can be checked on units it was not chosen on.
+    global SEED
+    out = CSV
+    args = sys.argv[1:]
+    if "--seed" in args or "--out" in args:
+        try:
+            SEED = int(args[args.index("--seed") + 1])
+            out = args[args.index("--out") + 1]
+        except (ValueError, IndexError):
+            sys.exit("--seed N and --out PATH go together")
+        if os.path.abspath(out) == os.path.abspath(CSV):
+            sys.exit("a held-out population must not overwrite the population")
+    else:
+        os.makedirs(FIELD, exist_ok=True)
+        for s in SUPPLIES:
+            for stated in (True, False):
+                suffix = "" if stated else "-unstated"
+                with open(os.path.join(FIELD, f"{s['name']}{suffix}.toml"), "w") as fh:
+                    fh.write(toml_for(s, stated))
     units = []
     for s in SUPPLIES:
-        for stated in (True, False):
-            suffix = "" if stated else "-unstated"
-            with open(os.path.join(FIELD, f"{s['name']}{suffix}.toml"), "w") as fh:
-                fh.write(toml_for(s, stated))
         conditions = ["healthy"] * HEALTHY_PER_SUPPLY + FAULT_PLAN[s["name"]]
         assert len(FAULT_PLAN[s["name"]]) == 8, s["name"]
         for i, condition in enumerate(conditions):
@@ -464,9 +480,10 @@ def main():
                          fmt(u["cap2_factor"]), fmt(u["load_factor"]), fmt(u["is_factor"]),
                          fmt(u["true_mains"]), fmt(u["fault_param"]), fmt(mains), fmt(dc),
                          fmt(pp), f"{round(fig['ripple_hz'])}", fmt(rms)])
-    with open(CSV, "w") as fh:
-        fh.write(f"# {version}; written by tests/reference/field_population.py; simulated real "
-                 "units and the readings a technician takes\n")
+    with open(out, "w") as fh:
+        seed = "" if out == CSV else f" --seed {SEED}"
+        fh.write(f"# {version}; written by tests/reference/field_population.py{seed}; simulated "
+                 "real units and the readings a technician takes\n")
         fh.write(",".join(COLUMNS + ["ripple_rms_v"]) + "\n")
         for r in rows:
             fh.write(",".join(r) + "\n")
