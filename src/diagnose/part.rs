@@ -4,7 +4,8 @@
 //! peak to peak put a capacitor that lost capacitance and one whose ESR rose within a misfit
 //! of each other, both far from every other fault. The part's belief is then the sum of its
 //! faults' beliefs, and saying so answers the technician's first question (what to open up)
-//! while the ranking, and each fault's next check, keep the rest.
+//! while the ranking, and each fault's next check, keep the rest. Which part each fault
+//! concerns is our own judgement of what a technician opens up for it, not a published table.
 
 use super::{Diagnosis, Fault};
 use serde::Serialize;
