@@ -70,7 +70,7 @@ impl Report {
     /// Adds the solid-state what-if (two more solves) when the rectifier is a valve; a
     /// junction rectifier is left as it is.
     pub fn with_solid_state(mut self) -> Result<Report, CircuitError> {
-        if valve::is_valve(&self.supply) {
+        if self.supply.has_valve_rectifier() {
             self.solid_state = Some(valve::solid_state_what_if(
                 &self.supply,
                 &self.nominal.figures,

@@ -3,22 +3,17 @@
 //! supply with silicon junctions in its place (the solid-state replacement a restorer is
 //! asked about).
 
-use crate::circuit::diode::{self, DiodeParams, ValveLimits};
+use crate::circuit::diode::{self, ValveLimits};
 use crate::circuit::{self, CircuitError, Conditions, Figures, LoadOverride};
 use crate::supply::{DiodeSpec, Supply, Topology};
 use serde::Serialize;
-
-/// Whether the supply's rectifier is a valve (a valve preset or a `law = "valve"` table).
-pub fn is_valve(supply: &Supply) -> bool {
-    matches!(supply.rectifier_diode(), Ok(DiodeParams::Valve { .. }))
-}
 
 /// The limits the valve is held to: the file's `[rectifier]` figures where stated, else its
 /// preset's (typical of the class); None when the rectifier is no valve. A valve of the file's
 /// own law whose filament the file does not describe is taken as directly heated: the rail's
 /// warm-up soar is then checked rather than assumed away.
 pub fn limits(supply: &Supply) -> Option<ValveLimits> {
-    if !is_valve(supply) {
+    if !supply.has_valve_rectifier() {
         return None;
     }
     let class = match &supply.rectifier.diode {

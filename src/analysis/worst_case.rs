@@ -193,7 +193,7 @@ impl ToleranceBox {
             supply.rectifier_diode(),
             Ok(DiodeParams::Fixed { drop_v, ohms: _ }) if drop_v == 0.0
         );
-        let valve = super::valve::is_valve(supply);
+        let valve = supply.has_valve_rectifier();
         match supply.rectifier.drop_spread_pct {
             Some(p) => axes.push(Axis::percent(AxisKind::DiodeDrop, p, p)),
             None if valve => {

@@ -418,6 +418,13 @@ pub fn preset(name: &str) -> Option<&'static Preset> {
 }
 
 impl crate::supply::Supply {
+    /// Whether the rectifier is a valve (a valve preset or the file's own valve law): the
+    /// report, the screen, the worst case and the diagnosis treat its figures and faults as a
+    /// valve's. False when the diode cannot be resolved.
+    pub fn has_valve_rectifier(&self) -> bool {
+        matches!(self.rectifier_diode(), Ok(DiodeParams::Valve { .. }))
+    }
+
     /// The diode law parameters after presets are resolved.
     pub fn rectifier_diode(&self) -> Result<DiodeParams, SupplyError> {
         let temp_c = self.rectifier.temp_c.unwrap_or(27.0);

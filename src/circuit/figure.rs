@@ -47,10 +47,7 @@ impl Naming {
     /// The naming of `supply`'s figures.
     pub fn of(supply: &crate::supply::Supply) -> Naming {
         Naming {
-            valve: matches!(
-                supply.rectifier_diode(),
-                Ok(super::diode::DiodeParams::Valve { .. })
-            ),
+            valve: supply.has_valve_rectifier(),
             straight_off_line: supply.transformer.is_absent(),
         }
     }

@@ -670,7 +670,7 @@ pub fn diagnose(supply: &Supply, readings: &Readings) -> Result<Diagnosis, Readi
             Fault::RectifierLegOpen => full_wave && !three_phase,
             Fault::PhaseLost => three_phase,
             Fault::ReactorShorted => reactor,
-            Fault::WeakValve => crate::analysis::valve::is_valve(supply),
+            Fault::WeakValve => supply.has_valve_rectifier(),
             Fault::MainsLow | Fault::MainsHigh => true,
             Fault::RegulatorDropout => supply.regulator.is_some(),
             Fault::ChokeShorted | Fault::ChokeOpen => choke,

@@ -179,7 +179,7 @@ pub fn solve_for_screen_while(
             .map(|op| (words.to_string(), op))
     });
     // Two more solves, for a valve only: cheap beside the worst case.
-    let solid_state = if crate::analysis::valve::is_valve(supply) {
+    let solid_state = if supply.has_valve_rectifier() {
         crate::analysis::valve::solid_state_what_if(supply, &nominal.figures).ok()
     } else {
         None
@@ -698,7 +698,7 @@ impl App {
             }
             Action::SolidState => {
                 if let Some(o) = &mut self.open {
-                    if crate::analysis::valve::is_valve(&o.supply) {
+                    if o.supply.has_valve_rectifier() {
                         o.show_solid_state = !o.show_solid_state;
                         o.show_visits = false;
                         self.panel = Panel::Results;

@@ -338,9 +338,7 @@ impl Field {
             FixedDiode => matches!(s.rectifier.diode, DiodeSpec::Fixed { .. }),
             JunctionDiode => matches!(s.rectifier.diode, DiodeSpec::Junction { .. }),
             ValveDiode => matches!(s.rectifier.diode, DiodeSpec::Valve { .. }),
-            Valve => s
-                .rectifier_diode()
-                .is_ok_and(|d| matches!(d, crate::circuit::diode::DiodeParams::Valve { .. })),
+            Valve => s.has_valve_rectifier(),
             CurrentLoad => s.load.amps.is_some(),
             ResistiveLoad => s.load.amps.is_none() && s.load.watts.is_none(),
             PowerLoad => s.load.watts.is_some(),
