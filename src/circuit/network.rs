@@ -481,17 +481,23 @@ impl Network {
         // The pulses' mean current falls as the rail rises and the load's rises: one root
         // between no rail and the peak, found by regula falsi with the Illinois halving (a
         // handful of pulses where bisection spent eighteen), to a ten-thousandth of the peak.
-        let excess = |v: f64| pulse(v).0 - self.load.current_at(v);
+        // The excess of the pulses' mean current over the load's at `v`, and the pulse.
+        let excess = |v: f64| {
+            let p = pulse(v);
+            (p.0 - self.load.current_at(v), p)
+        };
         let (mut a, mut b) = (0.0, e);
-        let (mut fa, mut fb) = (excess(a), excess(b));
-        let mut v = 0.5 * (a + b);
+        let (mut fa, mut fb) = (excess(a).0, excess(b).0);
+        // The rail's last point and its pulse (the loop runs at least once).
+        let mut last = (0.5 * (a + b), (0.0, 0.0, false));
         for _ in 0..30 {
-            v = if fa != fb {
+            let v = if fa != fb {
                 (a * fb - b * fa) / (fb - fa)
             } else {
                 0.5 * (a + b)
             };
-            let fv = excess(v);
+            let (fv, p) = excess(v);
+            last = (v, p);
             if (b - a).abs() < 1e-4 * e || fv == 0.0 {
                 break;
             }
@@ -503,7 +509,7 @@ impl Network {
                 fa *= 0.5;
             }
         }
-        let (_, i_start, stopped) = pulse(v);
+        let (v, (_, i_start, stopped)) = last;
         stopped.then_some((v, i_start))
     }
 
