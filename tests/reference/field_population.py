@@ -44,6 +44,10 @@ Every transient runs from near the working voltage until two successive periods 
 below 2e-5 per period, 1e-3 for an unfiltered rail), as generate.py does, or the script stops.
 
 Run from the repository root:   python3 tests/reference/field_population.py
+A held-out population (the same recipe and supplies, another seed, its own file; the supply
+files and the population left alone):
+    python3 tests/reference/field_population.py --seed 20261203 --out PATH
+where PATH was tests/reference/field_population_holdout.csv for the stored one.
 Needs: ngspice (Debian package `ngspice`) and python3; no other package. Deterministic: each
 unit's draws come from its own random.Random seeded with SEED and the unit's id.
 Writes tests/reference/field/*.toml and tests/reference/field_population.csv; `cargo test` and
