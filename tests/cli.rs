@@ -1,6 +1,7 @@
 //! The command line as a technician uses it: reports of the example supplies, JSON for
 //! scripts, and clear refusals (exit status 2) for bad files.
 
+mod common;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 
@@ -926,28 +927,21 @@ fn diagnose_names_no_part_on_a_healthy_unit() {
         env!("CARGO_MANIFEST_DIR"),
         "/tests/reference/field/ct_amp.toml"
     );
-    let row = std::fs::read_to_string(concat!(
-        env!("CARGO_MANIFEST_DIR"),
-        "/tests/reference/field_population.csv"
-    ))
-    .unwrap()
-    .lines()
-    .find(|l| l.starts_with("ct_amp-00,"))
-    .unwrap()
-    .to_string();
-    let cells: Vec<&str> = row.split(',').collect();
-    // unit,supply,condition,...,mains_vrms,dc_v,ripple_pp_v,ripple_hz (columns 12-15).
-    assert_eq!(cells[2], "healthy");
-    let mut args = vec![
-        "diagnose",
-        file,
-        "--dc",
-        cells[13],
-        "--ripple-pp",
-        cells[14],
-    ];
-    if !cells[12].is_empty() {
-        args.extend(["--mains", cells[12]]);
+    let unit = common::field::population()
+        .unwrap()
+        .into_iter()
+        .find(|u| u.unit == "ct_amp-00")
+        .unwrap();
+    assert_eq!(unit.condition, "healthy");
+    let r = unit.readings;
+    let (dc, pp) = (
+        r.dc_v.unwrap().to_string(),
+        r.ripple_pp_v.unwrap().to_string(),
+    );
+    let mains = r.mains_vrms.map(|v| v.to_string());
+    let mut args = vec!["diagnose", file, "--dc", &dc, "--ripple-pp", &pp];
+    if let Some(m) = &mains {
+        args.extend(["--mains", m]);
     }
     args.push("--json");
     let d: serde_json::Value = serde_json::from_slice(&railcheck(&args).stdout).unwrap();
