@@ -15,10 +15,10 @@
 //!
 //! The likelihoods are Monte Carlo integrals over the beliefs, with railcheck's own engine in
 //! place of ngspice (tests/field_population_data.rs holds the engine to ngspice's readings of
-//! every unit, given its real circuit; the first lines printed repeat that comparison). The
-//! mains, which moves every figure, is integrated on a fine grid for each draw of the rest,
-//! through quadratics through solves at most 0.06 apart; the meters' errors are the recipe's
-//! uniform ones (DC +-0.3 %, ripple +-3 %, mains +-0.5 %).
+//! every unit, given its real circuit). The mains, which moves every figure, is integrated on
+//! a fine grid for each draw of the rest, through quadratics through solves at most 0.06
+//! apart; the meters' errors are the recipe's uniform ones (DC +-0.3 %, ripple +-3 %, mains
+//! +-0.5 %).
 //!
 //!     cargo run --release --example detection_ceiling [DRAWS [BELIEF [FILES]]]
 //!
@@ -31,10 +31,13 @@
 
 #[path = "../tests/common/field.rs"]
 mod field;
+#[path = "../tests/common/random_supply.rs"]
+mod random_supply;
 
 use anyhow::anyhow;
 use railcheck::circuit::winding::WindingSource;
 use railcheck::supply::Supply;
+use random_supply::log_between;
 use std::collections::BTreeMap;
 
 /// The recipe's fault plan (field_population.py's FAULT_PLAN): each supply's eight faulted
@@ -93,22 +96,9 @@ impl Belief {
 }
 const HEALTHY_PER_SUPPLY: usize = 4;
 
-/// splitmix64: a small, reproducible source of uniform numbers (Steele, Lea and Flood,
-/// "Fast splittable pseudorandom number generators", 2014; memory).
-struct Rng(u64);
-
-impl Rng {
-    fn next(&mut self) -> f64 {
-        self.0 = self.0.wrapping_add(0x9E37_79B9_7F4A_7C15);
-        let mut z = self.0;
-        z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-        z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-        z ^= z >> 31;
-        (z >> 11) as f64 / (1u64 << 53) as f64
-    }
-    fn uniform(&mut self, lo: f64, hi: f64) -> f64 {
-        lo + (hi - lo) * self.next()
-    }
+/// Uniform between `lo` and `hi`, from `u`'s numbers in [0, 1).
+fn uniform(u: &mut dyn FnMut() -> f64, lo: f64, hi: f64) -> f64 {
+    lo + (hi - lo) * u()
 }
 
 /// The mains factor's range under a condition (the recipe: +-6 %, 13-20 % low for mains-low;
@@ -138,14 +128,15 @@ fn has_second(s: &Supply) -> bool {
     ) || s.filter.kind == FilterKind::Crc
 }
 
-fn log_uniform(rng: &mut Rng, lo: f64, hi: f64) -> f64 {
-    rng.uniform(lo.ln(), hi.ln()).exp()
-}
-
 /// One real unit as the judge believes the recipe draws it (its mains set later, here the
 /// nominal).
-fn draw(s: &Supply, condition: &str, belief: Belief, rng: &mut Rng) -> field::RealCircuit {
-    let crest = rng.uniform(1.34, std::f64::consts::SQRT_2);
+fn draw(
+    s: &Supply,
+    condition: &str,
+    belief: Belief,
+    u: &mut dyn FnMut() -> f64,
+) -> field::RealCircuit {
+    let crest = uniform(u, 1.34, std::f64::consts::SQRT_2);
     // A file that leaves the winding out: anywhere in railcheck's assumed range (log-uniform;
     // without the range's allowance for leakage, which is drawn here as the recipe draws it);
     // a stated one: the recipe's 0-30 % warm.
@@ -159,27 +150,27 @@ fn draw(s: &Supply, condition: &str, belief: Belief, rng: &mut Rng) -> field::Re
             w,
         )) => {
             let whole = w.secondary_ohms + w.primary_ohms / (w.ratio * w.ratio);
-            (whole, log_uniform(rng, low_ohms, high_ohms) / whole)
+            (whole, log_between(u, low_ohms, high_ohms) / whole)
         }
-        _ => (referred_ohms(s), rng.uniform(1.0, 1.3)),
+        _ => (referred_ohms(s), uniform(u, 1.0, 1.3)),
     };
     let leakage_h =
-        rng.uniform(0.1, 0.5) * whole * winding / (2.0 * std::f64::consts::PI * s.mains.hz);
-    let cap = rng.uniform(0.8, 1.2);
-    let cap2 = has_second(s).then(|| rng.uniform(0.8, 1.2));
-    let load = rng.uniform(0.95, 1.05);
-    let is = rng.uniform(0.5f64.ln(), 2f64.ln()).exp();
+        uniform(u, 0.1, 0.5) * whole * winding / (2.0 * std::f64::consts::PI * s.mains.hz);
+    let cap = uniform(u, 0.8, 1.2);
+    let cap2 = has_second(s).then(|| uniform(u, 0.8, 1.2));
+    let load = uniform(u, 0.95, 1.05);
+    let is = log_between(u, 0.5, 2.0);
     let esr = s.filter.esr_ohms;
     let esr_lo = (2.0 * esr).max(esr + 0.1);
     let fault = match (belief.recipe_sizes(), condition) {
-        (true, C) => Some(rng.uniform(0.3, 0.6)),
-        (true, E) => Some(esr * rng.uniform(10.0, 40.0)),
-        (true, H) => Some(rng.uniform(1.5, 2.5)),
-        (false, C) => Some(log_uniform(rng, 0.01, 0.8)),
-        (false, E) => Some(log_uniform(rng, esr_lo, esr_lo.max(0.5) * 200.0)),
-        (false, H) => Some(log_uniform(rng, 1.15, 8.0)),
-        (_, SL) => Some(log_uniform(rng, 1.03, 3.0)),
-        (_, LL) => Some(rng.uniform(0.05, 0.85)),
+        (true, C) => Some(uniform(u, 0.3, 0.6)),
+        (true, E) => Some(esr * uniform(u, 10.0, 40.0)),
+        (true, H) => Some(uniform(u, 1.5, 2.5)),
+        (false, C) => Some(log_between(u, 0.01, 0.8)),
+        (false, E) => Some(log_between(u, esr_lo, esr_lo.max(0.5) * 200.0)),
+        (false, H) => Some(log_between(u, 1.15, 8.0)),
+        (_, SL) => Some(log_between(u, 1.03, 3.0)),
+        (_, LL) => Some(uniform(u, 0.05, 0.85)),
         _ => None,
     };
     field::RealCircuit {
@@ -344,46 +335,7 @@ fn main() -> anyhow::Result<()> {
     };
     let units = field::population().map_err(|e| anyhow!(e))?;
 
-    // 1. How well the engine reproduces the population: each unit solved at its true values.
-    let mut dc_err = Vec::new();
-    let mut pp_err = Vec::new();
-    for u in &units {
-        let s = field::load_supply(&u.supply, field::Variant::Stated).map_err(|e| anyhow!(e))?;
-        let d = u.real;
-        let m = d.mains_vrms / s.mains.vrms;
-        let Some((dc, pp, _)) = solve(&s, &u.condition, &d, m) else {
-            println!("{}: the engine did not solve it", u.unit);
-            continue;
-        };
-        let r = &u.readings;
-        dc_err.push((u.unit.clone(), 100.0 * (r.dc_v.unwrap_or(0.0) / dc - 1.0)));
-        pp_err.push((
-            u.unit.clone(),
-            100.0 * (r.ripple_pp_v.unwrap_or(0.0) / pp - 1.0),
-        ));
-    }
-    let worst = |v: &[(String, f64)]| {
-        v.iter()
-            .max_by(|a, b| a.1.abs().total_cmp(&b.1.abs()))
-            .cloned()
-            .unwrap_or_default()
-    };
-    let outside = |v: &[(String, f64)], e: f64| v.iter().filter(|x| x.1.abs() > e).count();
-    println!(
-        "engine at each unit's true values against its readings (meter error included):\n  \
-         DC: worst {:+.2} % ({}), {} of {} beyond the meter's 0.3 %\n  \
-         ripple p-p: worst {:+.2} % ({}), {} of {} beyond the scope's 3 %",
-        worst(&dc_err).1,
-        worst(&dc_err).0,
-        outside(&dc_err, 0.3),
-        dc_err.len(),
-        worst(&pp_err).1,
-        worst(&pp_err).0,
-        outside(&pp_err, 3.0),
-        pp_err.len()
-    );
-
-    // 2. The Bayes judge.
+    // The engine against each unit's readings is tests/field_population_data.rs's to check.
     let mut right = BTreeMap::<String, (usize, usize)>::new();
     let (mut fa, mut healthy, mut found, mut faulted, mut part) = (0, 0, 0, 0, 0);
     let mut expected_found = 0.0;
@@ -419,15 +371,10 @@ fn main() -> anyhow::Result<()> {
                 .fold(17u64, |h, b| h.wrapping_mul(31).wrapping_add(b as u64));
             let half = draws / 2;
             let work = |from: usize, to: usize| -> Vec<Curve> {
-                let mut rng = Rng(seed ^ (from as u64).wrapping_mul(0x9E37));
+                let mut u = random_supply::xorshift(seed ^ (from as u64).wrapping_mul(0x9E37));
                 (from..to)
                     .filter_map(|_| {
-                        curve(
-                            &s,
-                            condition,
-                            belief,
-                            &draw(&s, condition, belief, &mut rng),
-                        )
+                        curve(&s, condition, belief, &draw(&s, condition, belief, &mut u))
                     })
                     .collect()
             };

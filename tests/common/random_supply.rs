@@ -8,7 +8,7 @@
 #![allow(dead_code)]
 
 /// Log-uniform between `lo` and `hi` (both above zero).
-fn log_between(u: &mut dyn FnMut() -> f64, lo: f64, hi: f64) -> f64 {
+pub fn log_between(u: &mut dyn FnMut() -> f64, lo: f64, hi: f64) -> f64 {
     (lo.ln() + u() * (hi.ln() - lo.ln())).exp()
 }
 
