@@ -114,12 +114,6 @@ fn mains_range(condition: &str, belief: Belief) -> (f64, f64) {
     }
 }
 
-fn referred_ohms(s: &Supply) -> f64 {
-    let t = &s.transformer;
-    let ratio = t.ratio.unwrap_or(1.0);
-    t.secondary_ohms.unwrap_or(0.0) + t.primary_ohms.unwrap_or(0.0) / (ratio * ratio)
-}
-
 fn has_second(s: &Supply) -> bool {
     use railcheck::supply::{FilterKind, Topology};
     matches!(
@@ -140,19 +134,15 @@ fn draw(
     // A file that leaves the winding out: anywhere in railcheck's assumed range (log-uniform;
     // without the range's allowance for leakage, which is drawn here as the recipe draws it);
     // a stated one: the recipe's 0-30 % warm.
-    let (whole, winding) = match s.winding().map(|w| (w.source, w)) {
-        Ok((
-            WindingSource::Assumed {
-                low_ohms,
-                high_ohms,
-                ..
-            },
-            w,
-        )) => {
-            let whole = w.secondary_ohms + w.primary_ohms / (w.ratio * w.ratio);
-            (whole, log_between(u, low_ohms, high_ohms) / whole)
-        }
-        _ => (referred_ohms(s), uniform(u, 1.0, 1.3)),
+    let w = s.winding().expect("the field supplies' windings resolve");
+    let whole = w.secondary_ohms + w.primary_ohms / (w.ratio * w.ratio);
+    let winding = match w.source {
+        WindingSource::Assumed {
+            low_ohms,
+            high_ohms,
+            ..
+        } => log_between(u, low_ohms, high_ohms) / whole,
+        _ => uniform(u, 1.0, 1.3),
     };
     let leakage_h =
         uniform(u, 0.1, 0.5) * whole * winding / (2.0 * std::f64::consts::PI * s.mains.hz);
