@@ -160,15 +160,18 @@ pub const CALIBRATION_CSV_PATH: &str = concat!(
 
 /// The stored calibration set (tests/reference/field_calibration.csv), one row per visit.
 pub fn calibration_visits() -> Result<Vec<FieldUnit>, String> {
-    let text = std::fs::read_to_string(CALIBRATION_CSV_PATH)
-        .map_err(|e| format!("reading {CALIBRATION_CSV_PATH}: {e}"))?;
+    read(CALIBRATION_CSV_PATH)
+}
+
+/// The units of the stored CSV at `path`.
+fn read(path: &str) -> Result<Vec<FieldUnit>, String> {
+    let text = std::fs::read_to_string(path).map_err(|e| format!("reading {path}: {e}"))?;
     parse(&text)
 }
 
 /// The stored population (tests/reference/field_population.csv).
 pub fn population() -> Result<Vec<FieldUnit>, String> {
-    let text = std::fs::read_to_string(CSV_PATH).map_err(|e| format!("reading {CSV_PATH}: {e}"))?;
-    parse(&text)
+    read(CSV_PATH)
 }
 
 /// A held-out population: the same recipe and supplies drawn with another seed
@@ -181,9 +184,7 @@ pub const HOLDOUT_CSV_PATH: &str = concat!(
 
 /// The stored held-out population (tests/reference/field_population_holdout.csv).
 pub fn holdout() -> Result<Vec<FieldUnit>, String> {
-    let text = std::fs::read_to_string(HOLDOUT_CSV_PATH)
-        .map_err(|e| format!("reading {HOLDOUT_CSV_PATH}: {e}"))?;
-    parse(&text)
+    read(HOLDOUT_CSV_PATH)
 }
 
 /// The file of `supply` in `variant`, parsed.
